@@ -1,0 +1,228 @@
+"""The ``workbench`` command: a thin layer over the library.
+
+Commands: ``check``, ``presets``, ``run``, ``plan``, ``serve``. A user mistake prints one line on stderr and
+exits 2; Ctrl-C ends a run with a message and exit code 130.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+
+from . import __version__
+from .errors import Cancelled, ScenarioError, WorkbenchError
+
+__all__ = ["main", "build_parser"]
+
+EXIT_OK = 0
+EXIT_USER_ERROR = 2
+EXIT_CANCELLED = 130
+
+
+def _scenario(args):
+    from .presets import DEFAULT_PRESET, load_preset
+    from .scenario import load_scenario
+
+    if args.file and args.preset:
+        raise ScenarioError("give a scenario FILE or --preset NAME, not both", where="command line")
+    if args.file:
+        path = Path(args.file)
+        if path.is_dir():
+            raise ScenarioError("is a folder, not a scenario file", where=str(path))
+        return load_scenario(path)
+    return load_preset(args.preset or DEFAULT_PRESET)
+
+
+def _emit_json(text: str, target: str) -> None:
+    if target == "-":
+        sys.stdout.write(text + "\n")
+        return
+    from .scenario import write_text_atomically
+
+    write_text_atomically(target, text + "\n")
+    print(f"wrote {target}", file=sys.stderr)
+
+
+def _cmd_presets(args) -> int:
+    from .presets import DEFAULT_PRESET, list_presets
+
+    presets = list_presets()
+    width = max(len(name) for name in presets)
+    for name, title in presets.items():
+        mark = "  (default)" if name == DEFAULT_PRESET else ""
+        print(f"{name:<{width}}  {title}{mark}")
+    return EXIT_OK
+
+
+def _cmd_check(args) -> int:
+    from .check import check
+
+    report = check(_scenario(args))
+    if args.json:
+        print(json.dumps(report.to_dict(), indent=2))
+    else:
+        print(report.to_text())
+    return EXIT_OK
+
+
+def _cmd_run(args) -> int:
+    from .progress import ProgressBar
+    from .simulate import simulate
+
+    scenario = _scenario(args)
+    bar = ProgressBar("simulating")
+    try:
+        result = simulate(scenario, n=args.n, replicates=args.replicates, seed=args.seed, alpha=args.alpha,
+                          engine=args.engine, progress=bar)
+    finally:
+        bar.close()
+    if args.json:
+        _emit_json(result.to_json(), args.json)
+    if args.csv:
+        result.to_csv(args.csv)
+        print(f"wrote {args.csv}", file=sys.stderr)
+    if args.json != "-":
+        print(result.to_text())
+    return EXIT_OK
+
+
+def _sizes(text: str) -> list[int]:
+    try:
+        sizes = [int(part) for part in text.split(",") if part.strip()]
+    except ValueError:
+        raise ScenarioError(f"must be whole numbers separated by commas, got '{text}'", where="--sizes") from None
+    if not sizes or min(sizes) < 1:
+        raise ScenarioError(f"must be positive whole numbers, got '{text}'", where="--sizes")
+    return sizes
+
+
+def _cmd_plan(args) -> int:
+    from .plan import plan
+    from .progress import ProgressBar
+
+    scenario = _scenario(args)
+    bar = ProgressBar("planning")
+    try:
+        result = plan(
+            scenario,
+            sample_sizes=_sizes(args.sizes) if args.sizes else None,
+            replicates=args.replicates,
+            target_power=args.target_power,
+            target_halfwidth=args.target_halfwidth,
+            seed=args.seed,
+            progress=bar,
+        )
+    finally:
+        bar.close()
+    if args.json:
+        _emit_json(result.to_json(), args.json)
+    if args.csv:
+        result.to_csv(args.csv)
+        print(f"wrote {args.csv}", file=sys.stderr)
+    if args.json != "-":
+        print(result.to_text())
+    return EXIT_OK
+
+
+def _cmd_serve(args) -> int:
+    try:
+        from .dashboard.serve import serve
+    except ImportError:
+        print("workbench serve: the dashboard is not yet available in this version; "
+              "use 'workbench check', 'workbench run' and 'workbench plan'.", file=sys.stderr)
+        return EXIT_USER_ERROR
+    if args.preset:
+        from .presets import preset_text
+
+        preset_text(args.preset)  # a clear error for an unknown name before the server starts
+    serve(preset=args.preset, port=args.port, address=args.address, show=args.show)
+    return EXIT_OK
+
+
+def _add_source(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("file", nargs="?", help="scenario TOML file")
+    parser.add_argument("--preset", metavar="NAME", help="a built-in preset (see 'workbench presets')")
+
+
+def _probability(text: str) -> float:
+    try:
+        return float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a number, got '{text}'") from None
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of the ``workbench`` command."""
+    parser = argparse.ArgumentParser(
+        prog="workbench",
+        description="Simulate studies from an assumed causal graph and compare adjustment strategies.",
+    )
+    parser.add_argument("--version", action="version", version=f"workbench {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+
+    p = sub.add_parser("check", help="analyse a scenario's graph: roles, paths, verdicts, valid sets, truth")
+    _add_source(p)
+    p.add_argument("--json", action="store_true", help="print JSON instead of the readable report")
+    p.set_defaults(func=_cmd_check)
+
+    p = sub.add_parser("presets", help="list the built-in presets")
+    p.set_defaults(func=_cmd_presets)
+
+    p = sub.add_parser("run", help="simulate repeated studies and score every strategy")
+    _add_source(p)
+    p.add_argument("--n", type=int, help="units per simulated study")
+    p.add_argument("--replicates", type=int, help="number of simulated studies")
+    p.add_argument("--seed", type=int, help="random seed")
+    p.add_argument("--alpha", type=_probability, help="1 - confidence level, and the test level")
+    p.add_argument("--engine", default="auto", help="auto (default), exact or raw")
+    p.add_argument("--json", metavar="OUT", help="write JSON to OUT ('-' for stdout)")
+    p.add_argument("--csv", metavar="OUT", help="write the per-strategy table as CSV")
+    p.set_defaults(func=_cmd_run)
+
+    p = sub.add_parser("plan", help="power and precision against sample size; the smallest n per strategy")
+    _add_source(p)
+    p.add_argument("--sizes", help="comma-separated sample sizes, e.g. 100,200,400")
+    p.add_argument("--target-power", type=_probability, help="power to reach (default from the scenario)")
+    p.add_argument("--target-halfwidth", type=_probability, help="largest acceptable mean CI half-width")
+    p.add_argument("--replicates", type=int, help="simulated studies per sample size")
+    p.add_argument("--seed", type=int, help="random seed")
+    p.add_argument("--json", metavar="OUT", help="write JSON to OUT ('-' for stdout)")
+    p.add_argument("--csv", metavar="OUT", help="write the long table as CSV")
+    p.set_defaults(func=_cmd_plan)
+
+    p = sub.add_parser("serve", help="start the dashboard in the browser")
+    p.add_argument("--preset", metavar="NAME", help="preset to open (default: the default preset)")
+    p.add_argument("--port", type=int, default=5006)
+    p.add_argument("--address", default="127.0.0.1", help="address to bind (default: loopback only)")
+    p.add_argument("--show", action=argparse.BooleanOptionalAction, default=True,
+                   help="open a browser tab")
+    p.set_defaults(func=_cmd_serve)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Run the command line; returns the exit code."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "command", None):
+        parser.print_help()
+        return EXIT_USER_ERROR
+    try:
+        return args.func(args)
+    except WorkbenchError as exc:
+        if isinstance(exc, Cancelled):
+            print(f"workbench: cancelled: {exc}", file=sys.stderr)
+            return EXIT_CANCELLED
+        print(f"workbench: error: {exc}", file=sys.stderr)
+        return EXIT_USER_ERROR
+    except KeyboardInterrupt:
+        print("\nworkbench: cancelled by the user; nothing was written", file=sys.stderr)
+        return EXIT_CANCELLED
+    except BrokenPipeError:
+        return EXIT_OK
+
+
+if __name__ == "__main__":
+    sys.exit(main())
