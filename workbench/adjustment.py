@@ -270,28 +270,53 @@ def find_roles(scenario: Scenario) -> dict[str, list[tuple[str, str]]]:
             continue
         found: list[tuple[str, str]] = []
         if v in an_x and v in an_y_without_x:
-            found.append(("confounder", f"{v} causes {x} ({_arrow_path(G, v, x)}) and {y} not only "
-                          f"through {x} ({_arrow_path(G, v, y, avoid=x)})"))
+            found.append(
+                (
+                    "confounder",
+                    f"{v} causes {x} ({_arrow_path(G, v, x)}) and {y} not only "
+                    f"through {x} ({_arrow_path(G, v, y, avoid=x)})",
+                )
+            )
         if v in de_x and v in an_y:
-            found.append(("mediator", f"{v} lies on the causal path {_arrow_path(G, x, v)} -> "
-                          f"{_arrow_path(G, v, y).split(' -> ', 1)[1]}"))
+            found.append(
+                (
+                    "mediator",
+                    f"{v} lies on the causal path {_arrow_path(G, x, v)} -> "
+                    f"{_arrow_path(G, v, y).split(' -> ', 1)[1]}",
+                )
+            )
         if v in de_x and v in de_y and v not in an_y:
-            found.append(("common_effect", f"{v} is a consequence of both {x} ({_arrow_path(G, x, v)}) and "
-                          f"{y} ({_arrow_path(G, y, v)})"))
+            found.append(
+                (
+                    "common_effect",
+                    f"{v} is a consequence of both {x} ({_arrow_path(G, x, v)}) and "
+                    f"{y} ({_arrow_path(G, y, v)})",
+                )
+            )
         if v in de_x and v not in de_y and v not in an_y:
-            found.append(("exposure_descendant", f"{v} is a consequence of {x} ({_arrow_path(G, x, v)}) "
-                          f"and does not affect {y}"))
+            found.append(
+                (
+                    "exposure_descendant",
+                    f"{v} is a consequence of {x} ({_arrow_path(G, x, v)}) and does not affect {y}",
+                )
+            )
         if v in de_y and v not in de_x:
             found.append(("outcome_descendant", f"{v} is a consequence of {y} ({_arrow_path(G, y, v)})"))
         if v in an_x and v not in an_y_without_x:
-            found.append(("instrument", f"{v} causes {x} ({_arrow_path(G, v, x)}) and reaches {y} only "
-                          f"through {x}"))
+            found.append(
+                ("instrument", f"{v} causes {x} ({_arrow_path(G, v, x)}) and reaches {y} only through {x}")
+            )
         if v in an_y and v not in an_x and v not in de_x:
-            found.append(("outcome_cause", f"{v} causes {y} ({_arrow_path(G, v, y)}) and has no "
-                          f"directed path to {x}"))
+            found.append(
+                ("outcome_cause", f"{v} causes {y} ({_arrow_path(G, v, y)}) and has no directed path to {x}")
+            )
         if v in colliders and v not in de_x:
-            found.append(("pre_exposure_collider", f"{v} is a common effect on the non-causal path "
-                          f"{colliders[v].text}"))
+            found.append(
+                (
+                    "pre_exposure_collider",
+                    f"{v} is a common effect on the non-causal path {colliders[v].text}",
+                )
+            )
         if not found:
             found.append(("unrelated", f"{v} has no directed path to or from {x} or {y} that matters here"))
         roles[v] = found
@@ -316,11 +341,15 @@ def _forbidden_reason(G: nx.DiGraph, x: str, y: str, z: str, cn: set[str]) -> st
             y_side = nx.shortest_path(G, y, z)
             joined = " -> ".join(x_side) + " <- " + " <- ".join(reversed(y_side[:-1]))
             return f"adjusting for {z}, a consequence of both, opens {joined}"
-        return f"adjusting for {z}, a consequence of the outcome ({_arrow_path(G, y, z)}), biases the estimate"
+        return (
+            f"adjusting for {z}, a consequence of the outcome ({_arrow_path(G, y, z)}), biases the estimate"
+        )
     mediators = sorted(nx.ancestors(G, z) & cn - {y}, key=lambda m: len(nx.shortest_path(G, m, z)))
     via = mediators[0] if mediators else x
-    return (f"adjusting for {z}, a consequence of the mediator {via} ({_arrow_path(G, via, z)}), distorts "
-            f"the part of the effect through {via}")
+    return (
+        f"adjusting for {z}, a consequence of the mediator {via} ({_arrow_path(G, via, z)}), distorts "
+        f"the part of the effect through {via}"
+    )
 
 
 def _precision_notes(scenario: Scenario, adjust) -> list[str]:
@@ -330,8 +359,10 @@ def _precision_notes(scenario: Scenario, adjust) -> list[str]:
     for z in adjust:
         names = [r for r, _ in roles.get(z, [])]
         if "instrument" in names and "confounder" not in names:
-            notes.append(f"{z} causes {x} only: adjusting for it is expected to widen the SE (and to amplify "
-                         "any bias left by an unadjusted confounder)")
+            notes.append(
+                f"{z} causes {x} only: adjusting for it is expected to widen the SE (and to amplify "
+                "any bias left by an unadjusted confounder)"
+            )
         elif "outcome_cause" in names and "confounder" not in names:
             notes.append(f"{z} causes {y} only: adjusting for it is expected to narrow the SE")
     return notes
@@ -385,8 +416,10 @@ def judge(
         de_y = nx.descendants(G, y)
         bad = [z for z in adjust if z in de_y]
         for z in bad:
-            reasons.append(f"adjusting for {z}, a consequence of the outcome ({_arrow_path(G, y, z)}), "
-                           "biases the direct effect")
+            reasons.append(
+                f"adjusting for {z}, a consequence of the outcome ({_arrow_path(G, y, z)}), "
+                "biases the direct effect"
+            )
         H = nx.DiGraph(G)
         if H.has_edge(x, y):
             H.remove_edge(x, y)
@@ -395,8 +428,9 @@ def judge(
             if p.nodes == (x, y):
                 continue
             if p.causal:
-                reasons.append(f"leaves the indirect path {p.text} open: it carries effect not through the "
-                               f"direct arrow")
+                reasons.append(
+                    f"leaves the indirect path {p.text} open: it carries effect not through the direct arrow"
+                )
             else:
                 reasons.append(_open_reason(G, p, zset))
         valid = separated and not bad
@@ -416,8 +450,13 @@ def judge(
     if valid:
         non_causal = [p for p in paths if not p.causal]
         if non_causal:
-            reasons.insert(0, "blocks every non-causal path (" + "; ".join(
-                p.text for p in non_causal[:3]) + ("; ..." if len(non_causal) > 3 else "") + ")")
+            reasons.insert(
+                0,
+                "blocks every non-causal path ("
+                + "; ".join(p.text for p in non_causal[:3])
+                + ("; ..." if len(non_causal) > 3 else "")
+                + ")",
+            )
         else:
             reasons.insert(0, f"there is no non-causal path between {x} and {y} to block")
         if cn:
@@ -441,8 +480,9 @@ def _open_reason(G: nx.DiGraph, path: PathInfo, zset: set[str]) -> str:
 # --------------------------------------------------------------------------------------------------------
 # Searches
 # --------------------------------------------------------------------------------------------------------
-def _is_valid(G: nx.DiGraph, x: str, y: str, zset: set[str], target: str, forb: set[str],
-              H: nx.DiGraph) -> bool:
+def _is_valid(
+    G: nx.DiGraph, x: str, y: str, zset: set[str], target: str, forb: set[str], H: nx.DiGraph
+) -> bool:
     if target == "direct":
         if zset & nx.descendants(G, y):
             return False
@@ -479,8 +519,10 @@ def _minimal_sets_cached(scenario: Scenario) -> tuple[tuple[tuple[str, ...], ...
         if found is None:
             return (), None
         ordered = tuple(sorted(found, key=scenario.names.index))
-        return (ordered,), (f"{len(candidates)} candidate covariates: listing one minimal valid set, not all "
-                            f"(all are enumerated up to {MAX_ENUMERATED_CANDIDATES})")
+        return (ordered,), (
+            f"{len(candidates)} candidate covariates: listing one minimal valid set, not all "
+            f"(all are enumerated up to {MAX_ENUMERATED_CANDIDATES})"
+        )
     found_sets: list[tuple[str, ...]] = []
     for size in range(len(candidates) + 1):
         for combo in itertools.combinations(candidates, size):
@@ -541,7 +583,11 @@ def optimal_set(scenario: Scenario) -> tuple[tuple[str, ...] | None, list[str], 
     else:
         cn = _causal_nodes(G, x, y)
         if not cn:
-            return None, [], f"{x} has no causal path to {y}: the total effect is 0 and O(X, Y) is not defined"
+            return (
+                None,
+                [],
+                f"{x} has no causal path to {y}: the total effect is 0 and O(X, Y) is not defined",
+            )
         members = set()
         for c in cn:
             members |= set(G.predecessors(c))

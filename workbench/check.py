@@ -257,8 +257,10 @@ def check(scenario: Scenario) -> CheckReport:
         notes.append(sets_note)
     minimal = adjustment.minimal_sets(scenario)
     if not minimal:
-        notes.append("no valid adjustment set exists among the observed variables: no regression on these "
-                     "data can recover the effect under this graph (consider design-stage remedies)")
+        notes.append(
+            "no valid adjustment set exists among the observed variables: no regression on these "
+            "data can recover the effect under this graph (consider design-stage remedies)"
+        )
     intercepts: dict[str, float] = {}
     if not scenario.is_linear_gaussian:
         try:
@@ -267,5 +269,6 @@ def check(scenario: Scenario) -> CheckReport:
             intercepts = dict(calibrate_intercepts(scenario))
         except ImportError:  # pragma: no cover
             intercepts = {}
-    return CheckReport(scenario, roles, paths, rows, minimal, optimal, note, truth, method, direct,
-                       intercepts, notes)
+    return CheckReport(
+        scenario, roles, paths, rows, minimal, optimal, note, truth, method, direct, intercepts, notes
+    )

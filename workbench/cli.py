@@ -74,8 +74,15 @@ def _cmd_run(args) -> int:
     scenario = _scenario(args)
     bar = ProgressBar("simulating")
     try:
-        result = simulate(scenario, n=args.n, replicates=args.replicates, seed=args.seed, alpha=args.alpha,
-                          engine=args.engine, progress=bar)
+        result = simulate(
+            scenario,
+            n=args.n,
+            replicates=args.replicates,
+            seed=args.seed,
+            alpha=args.alpha,
+            engine=args.engine,
+            progress=bar,
+        )
     finally:
         bar.close()
     if args.json:
@@ -92,7 +99,9 @@ def _sizes(text: str) -> list[int]:
     try:
         sizes = [int(part) for part in text.split(",") if part.strip()]
     except ValueError:
-        raise ScenarioError(f"must be whole numbers separated by commas, got '{text}'", where="--sizes") from None
+        raise ScenarioError(
+            f"must be whole numbers separated by commas, got '{text}'", where="--sizes"
+        ) from None
     if not sizes or min(sizes) < 1:
         raise ScenarioError(f"must be positive whole numbers, got '{text}'", where="--sizes")
     return sizes
@@ -130,8 +139,11 @@ def _cmd_serve(args) -> int:
     try:
         from .dashboard.serve import serve
     except ImportError:
-        print("workbench serve: the dashboard is not yet available in this version; "
-              "use 'workbench check', 'workbench run' and 'workbench plan'.", file=sys.stderr)
+        print(
+            "workbench serve: the dashboard is not yet available in this version; "
+            "use 'workbench check', 'workbench run' and 'workbench plan'.",
+            file=sys.stderr,
+        )
         return EXIT_USER_ERROR
     if args.preset:
         from .presets import preset_text
@@ -196,8 +208,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--preset", metavar="NAME", help="preset to open (default: the default preset)")
     p.add_argument("--port", type=int, default=5006)
     p.add_argument("--address", default="127.0.0.1", help="address to bind (default: loopback only)")
-    p.add_argument("--show", action=argparse.BooleanOptionalAction, default=True,
-                   help="open a browser tab")
+    p.add_argument("--show", action=argparse.BooleanOptionalAction, default=True, help="open a browser tab")
     p.set_defaults(func=_cmd_serve)
     return parser
 

@@ -113,8 +113,6 @@ class LogitFit:
         ``""`` for a good fit, else the reason (see the module notes).
     iterations : ndarray of shape (R,), int
         Newton iterations run for each replicate.
-    loglik : ndarray of shape (R,)
-        Log-likelihood at the last iterate (finite also for failed replicates with finite data).
     """
 
     coef: np.ndarray
@@ -122,7 +120,6 @@ class LogitFit:
     converged: np.ndarray
     failure: np.ndarray
     iterations: np.ndarray
-    loglik: np.ndarray
 
     @property
     def failed(self) -> np.ndarray:
@@ -180,28 +177,78 @@ def design_matrix(
     return out
 
 
-def _loglik(eta: np.ndarray, y: np.ndarray) -> np.ndarray:
-    """Bernoulli log-likelihood summed over rows, shape (R,), computed stably."""
-    return np.sum(y * eta - np.logaddexp(0.0, eta), axis=-1)
+def _softplus_sum(eta: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """Bernoulli log-likelihood summed over rows, shape (R,): ``sum(y eta - log(1 + exp(eta)))``, stably."""
+    return np.sum(y * eta - np.maximum(eta, 0.0) - np.log1p(np.exp(-np.abs(eta))), axis=-1)
 
 
-def _information(X: np.ndarray, w: np.ndarray) -> np.ndarray:
-    """Batched ``X' diag(w) X``, shape (R, p, p)."""
-    return np.matmul(np.swapaxes(X * w[..., None], 1, 2), X)
+def _sigmoid(eta: np.ndarray, out: np.ndarray) -> np.ndarray:
+    """``1 / (1 + exp(-eta))`` into ``out`` (overflow of exp gives exactly 0, as it should)."""
+    with np.errstate(over="ignore"):
+        np.negative(eta, out=out)
+        np.exp(out, out=out)
+    out += 1.0
+    return np.reciprocal(out, out=out)
 
 
-def _equilibrate(info: np.ndarray):
-    """Scale each information matrix to unit diagonal; return (scaled, scale, singular flags)."""
+class _Information:
+    """Batched information matrices ``X' diag(w) X`` of shape (R, p, p) from the transposed design.
+
+    For few columns the products of column pairs are formed once, so each information matrix costs one
+    batched matrix-vector product per iteration; otherwise a batched matrix product.
+    """
+
+    def __init__(self, Xt: np.ndarray):
+        R, p, n = Xt.shape
+        self.p = p
+        self.upper = np.triu_indices(p)
+        self.pairs = None
+        if p <= 8:
+            pairs = np.empty((R, len(self.upper[0]), n))
+            for k, (a, b) in enumerate(zip(*self.upper, strict=True)):
+                np.multiply(Xt[:, a, :], Xt[:, b, :], out=pairs[:, k, :])
+            self.pairs = pairs
+
+    def __call__(self, Xt: np.ndarray, w: np.ndarray, rows=None) -> np.ndarray:
+        if self.pairs is not None:
+            pairs = self.pairs if rows is None else self.pairs[rows]
+            values = np.matmul(pairs, w[..., None])[..., 0]
+            info = np.empty((w.shape[0], self.p, self.p))
+            info[:, self.upper[0], self.upper[1]] = values
+            info[:, self.upper[1], self.upper[0]] = values
+            return info
+        return np.matmul(Xt * w[:, None, :], np.swapaxes(Xt, 1, 2))
+
+
+def _equilibrate(info: np.ndarray, check: bool = True):
+    """Scale each information matrix to unit diagonal; return (scaled, scale, singular flags).
+
+    With ``check`` the smallest eigenvalue of the scaled matrix is compared with a threshold; otherwise only
+    non-positive diagonals and non-finite entries count as singular.
+    """
     diag = np.diagonal(info, axis1=1, axis2=2)
     good = np.all(diag > 0, axis=1) & np.all(np.isfinite(info), axis=(1, 2))
     scale = np.where(good[:, None], 1.0 / np.sqrt(np.where(diag > 0, diag, 1.0)), 1.0)
     scaled = info * scale[:, :, None] * scale[:, None, :]
     p = info.shape[1]
-    scaled[~good] = np.eye(p)
-    smallest = np.linalg.eigvalsh(scaled)[:, 0]
-    singular = ~good | (smallest < _SINGULAR)
+    singular = ~good
     scaled[singular] = np.eye(p)
+    if check:
+        singular = singular | (np.linalg.eigvalsh(scaled)[:, 0] < _SINGULAR)
+        scaled[singular] = np.eye(p)
     return scaled, scale, singular
+
+
+def _newton_steps(scaled, scale, score, singular, check_done: bool):
+    """Solve the equilibrated Newton systems; fall back to an eigenvalue check when one is singular."""
+    try:
+        step = scale * np.linalg.solve(scaled, (scale * score)[..., None])[..., 0]
+    except np.linalg.LinAlgError:
+        if check_done:
+            raise
+        return None
+    step[singular] = 0.0
+    return step
 
 
 def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10) -> LogitFit:
@@ -225,10 +272,11 @@ def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10) -> LogitFit
 
     Notes
     -----
-    Cost per iteration is O(R n p^2) in batched matrix products; replicates that have stopped are left out
-    of later iterations. Working memory is a few arrays of shape (R, n) beyond ``X`` itself. The separation
-    rule and the failure reasons are described in the module notes. Nothing is raised for data problems;
-    failed replicates get NaN and a reason.
+    Cost per iteration is O(R n p^2) in batched matrix-vector products; replicates that have stopped are left
+    out of later iterations once they are the majority. Working memory is about ``p (p + 1) / 2 + p + 6``
+    arrays of shape (R, n) (for p <= 8; beyond, about ``2 p + 6``), so callers should chunk the replicates to
+    bound memory. The separation rule and the failure reasons are described in the module notes. Nothing is
+    raised for data problems; failed replicates get NaN and a reason.
 
     References
     ----------
@@ -239,14 +287,14 @@ def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10) -> LogitFit
     Examples
     --------
     >>> import numpy as np
-    >>> X = np.ones((2, 6, 2))
+    >>> X = np.ones((3, 6, 2))
     >>> X[:, :, 1] = [0, 0, 1, 1, 2, 2]
-    >>> y = np.array([[0, 1, 0, 1, 1, 1], [0, 0, 0, 1, 1, 1]], dtype=float)
+    >>> y = np.array([[0, 1, 0, 1, 1, 1], [0, 0, 1, 1, 1, 1], [0, 0, 0, 1, 1, 1]], dtype=float)
     >>> fit = fit_logit_batch(X, y)
     >>> fit.failure.tolist()
-    ['', 'complete separation']
+    ['', 'complete separation', 'quasi-complete separation']
     >>> np.round(fit.coef[0], 4)
-    array([-0.4055,  1.3863])
+    array([-0.4173,  1.2917])
     """
     X = np.asarray(X, dtype=float)
     y = np.asarray(y, dtype=float)
@@ -260,71 +308,88 @@ def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10) -> LogitFit
     finite = np.all(np.isfinite(X), axis=(1, 2)) & np.all(np.isfinite(y), axis=1)
     binary = np.all((y == 0) | (y == 1), axis=1)
     usable = finite & binary
+    Xt = np.ascontiguousarray(np.swapaxes(X, 1, 2))  # (R, p, n): rows of each column contiguous
+    if not usable.all():
+        Xt[~usable] = 0.0
+        y = np.where(usable[:, None], y, 0.0)
+    information = _Information(Xt)
 
     beta = np.zeros((R, p))
     last_step = np.zeros((R, p))
     eta = np.zeros((R, n))
-    loglik = np.where(usable, -n * np.log(2.0), np.nan)
+    mu = np.empty((R, n))
     iterations = np.zeros(R, dtype=int)
     stopped = np.zeros(R, dtype=bool)  # stopping rule met
     singular = np.zeros(R, dtype=bool)
     active = usable.copy()
 
-    for _ in range(max_iter):
+    for it in range(max_iter):
         idx = np.flatnonzero(active)
         if idx.size == 0:
             break
-        whole = idx.size == R
-        Xa = X if whole else X[idx]
-        ya = y if whole else y[idx]
-        eta_a = eta if whole else eta[idx]
-        b = beta[idx]
-        mu = expit(eta_a)
-        score = np.matmul(np.swapaxes(Xa, 1, 2), (ya - mu)[..., None])[..., 0]
-        scaled, scale, bad = _equilibrate(_information(Xa, mu * (1.0 - mu)))
-        step = scale * np.linalg.solve(scaled, (scale * score)[..., None])[..., 0]
-        step[bad] = 0.0
+        # Work on every replicate (views, no copies) until the stopped ones are the majority.
+        rows = idx if 2 * idx.size < R else None
+        Xt_a = Xt if rows is None else Xt[rows]
+        y_a = y if rows is None else y[rows]
+        eta_a = eta if rows is None else eta[rows]
+        mu_a = _sigmoid(eta_a, mu if rows is None else np.empty_like(eta_a))
+        work = active if rows is None else np.ones(idx.size, dtype=bool)
+
+        score = np.matmul(Xt_a, (y_a - mu_a)[..., None])[..., 0]
+        mu_a *= 1.0 - mu_a  # now the weights mu (1 - mu)
+        info = information(Xt_a, mu_a, rows)
+        scaled, scale, bad = _equilibrate(info, check=it == 0)
+        step = _newton_steps(scaled, scale, score, bad, check_done=it == 0)
+        if step is None:
+            scaled, scale, bad = _equilibrate(info, check=True)
+            step = _newton_steps(scaled, scale, score, bad, check_done=True)
+        bad &= work
         decrement = np.sum(score * step, axis=1)
+        shift = np.matmul(step[:, None, :], Xt_a)[:, 0, :]
 
-        # Step halving while the log-likelihood would fall (it rarely does for the logit link).
-        old = loglik[idx]
-        new_eta = eta_a + np.matmul(Xa, step[..., None])[..., 0]
-        new = _loglik(new_eta, ya)
-        slack = 1e-12 * (1.0 + np.abs(old))
-        for _h in range(_HALVINGS):
-            worse = ~(new >= old - slack) & ~bad
-            if not worse.any():
-                break
-            step[worse] *= 0.5
-            new_eta[worse] = eta_a[worse] + np.matmul(Xa[worse], step[worse][..., None])[..., 0]
-            new[worse] = _loglik(new_eta[worse], ya[worse])
+        # A large move of the linear predictor may overshoot: halve the step while the log-likelihood falls.
+        big = np.flatnonzero(work & ~bad & (np.max(np.abs(shift), axis=1) > 1.0))
+        if big.size:
+            old = _softplus_sum(eta_a[big], y_a[big])
+            factor = np.ones(big.size)
+            for _h in range(_HALVINGS):
+                new = _softplus_sum(eta_a[big] + factor[:, None] * shift[big], y_a[big])
+                worse = ~(new >= old - 1e-12 * (1.0 + np.abs(old)))
+                if not worse.any():
+                    break
+                factor[worse] *= 0.5
+            step[big] *= factor[:, None]
+            shift[big] *= factor[:, None]
 
-        keep = ~bad
-        beta[idx[keep]] = b[keep] + step[keep]
-        last_step[idx[keep]] = step[keep]
-        eta[idx[keep]] = new_eta[keep]
-        loglik[idx[keep]] = new[keep]
-        iterations[idx[keep]] += 1
-        singular[idx[bad]] = True
+        keep = work & ~bad
+        target = np.flatnonzero(keep) if rows is None else idx[keep]
+        beta[target] += step[keep]
+        last_step[target] = step[keep]
+        if rows is None:
+            eta[keep] += shift[keep]
+        else:
+            eta[target] = eta_a[keep] + shift[keep]
+        iterations[target] += 1
+        bad_rows = np.flatnonzero(bad) if rows is None else idx[bad]
+        singular[bad_rows] = True
         done = keep & (decrement / 2.0 <= tol)
-        stopped[idx[done]] = True
-        active[idx[done | bad]] = False
+        done_rows = np.flatnonzero(done) if rows is None else idx[done]
+        stopped[done_rows] = True
+        active[done_rows] = False
+        active[bad_rows] = False
 
     # Information at the returned coefficients, for the covariance.
-    mu = expit(eta)
-    scaled, scale, bad_final = _equilibrate(_information(X, mu * (1.0 - mu)))
+    _sigmoid(eta, mu)
+    perfect = np.abs(y - mu) < PERFECT_FIT_TOLERANCE
+    scaled, scale, bad_final = _equilibrate(information(Xt, mu * (1.0 - mu)), check=True)
     cov = np.linalg.inv(scaled) * scale[:, :, None] * scale[:, None, :]
 
     # Separation: certificate check on the last Newton step (module notes).
-    shift = np.matmul(X, last_step[..., None])[..., 0]
+    shift = np.matmul(last_step[:, None, :], Xt)[:, 0, :]
     largest = np.max(np.abs(shift), axis=1)
     margin = np.min((2.0 * y - 1.0) * shift, axis=1)
-    perfect = np.abs(y - mu) < PERFECT_FIT_TOLERANCE
     separated = (
-        usable
-        & (largest > _MOVING)
-        & (margin >= -_CERTIFICATE_SLACK * largest)
-        & np.any(perfect, axis=1)
+        usable & (largest > _MOVING) & (margin >= -_CERTIFICATE_SLACK * largest) & np.any(perfect, axis=1)
     )
     complete = separated & np.all(perfect, axis=1)
 
@@ -345,7 +410,6 @@ def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10) -> LogitFit
         converged=stopped & ~failed,
         failure=failure,
         iterations=iterations,
-        loglik=loglik,
     )
 
 

@@ -15,11 +15,11 @@ that differs from the causal effect. Hence, with ``p`` fitted coefficients (inte
   (Anderson 2003, sec. 3.3 and 4.3). :func:`noncentral_t_power` is the power at a fixed noncentrality;
   :func:`regression_power` averages it over that chi-square (16-point Gauss-Legendre rule in probability),
   which is exact for Gaussian regressors. Plugging ``n`` into ``se(n)`` instead overstates power by up to
-  about 0.03 at n = 100 with several covariates, which is why the average is used.
+  about 0.03 at n = 100 with several covariates, which is why the average is used on linear-Gaussian graphs.
 
 The same formulas serve, as a large-sample approximation, graphs whose binary variables have no causes (a
 randomised binary exposure, for instance): their covariance is still the linear one, with variance
-``proportion (1 - proportion)``. With a binary exposure and no covariates the regression t test *is* the
+``proportion (1 - proportion)``; the plain plug-in power is used there. With a binary exposure and no covariates the regression t test *is* the
 pooled two-sample t test, so the figures can be checked against Cohen (1988).
 
 References
@@ -108,7 +108,9 @@ def noncentral_t_power(noncentrality, df, alpha: float = 0.05):
     return _scalar(power)
 
 
-def regression_power(estimand, se_factor, n, n_coefficients: int, alpha: float = 0.05):
+def regression_power(
+    estimand, se_factor, n, n_coefficients: int, alpha: float = 0.05, *, gaussian_regressors: bool = True
+):
     """Power of the t test of one regression coefficient with jointly Gaussian regressors.
 
     Parameters
@@ -122,13 +124,17 @@ def regression_power(estimand, se_factor, n, n_coefficients: int, alpha: float =
     n_coefficients : int
         ``p``, the fitted coefficients (intercept, the coefficient tested, the others).
     alpha : float, default 0.05
+    gaussian_regressors : bool, default True
+        True: average the noncentral t power (``df = n - p``) over the chi-square distribution, with
+        ``n - p + 1`` degrees of freedom, of the tested regressor's residual sum of squares (exact when the
+        regressors are jointly Gaussian). False: the plain large-sample plug-in, noncentrality
+        ``estimand / (se_factor / sqrt(n))``, which is right when that sum of squares hardly varies, as for a
+        randomised binary exposure (it then equals the two-sample t test's power).
 
     Returns
     -------
     float or ndarray
-        The noncentral t power (``df = n - p``) averaged over the chi-square distribution, with
-        ``n - p + 1`` degrees of freedom, of the tested regressor's residual sum of squares; NaN where
-        ``se_factor`` is not finite and positive.
+        The power; NaN where ``se_factor`` is not finite and positive.
 
     Notes
     -----
@@ -148,6 +154,8 @@ def regression_power(estimand, se_factor, n, n_coefficients: int, alpha: float =
         out = np.full(n.shape, np.nan)
         return _scalar(out)
     df = n - n_coefficients
+    if not gaussian_regressors:
+        return _scalar(noncentral_t_power(estimand * np.sqrt(n) / se_factor, df, alpha))
     k = (df + 1.0)[..., None]
     chi2 = stats.chi2.ppf(_PROBABILITIES, k)  # shape (..., 16)
     noncentrality = estimand * np.sqrt(chi2) / se_factor
@@ -186,7 +194,7 @@ class LargeSample:
         Intercept + 1 + ``len(adjust)``.
     exact : bool
         True on linear-Gaussian graphs (the power is then exact), False where it is a large-sample
-        approximation (binary causes without causes of their own).
+        approximation (binary causes without causes of their own; the plain plug-in power is used there).
     """
 
     variable: str
@@ -204,7 +212,9 @@ class LargeSample:
     def power(self, n, alpha: float = 0.05):
         """Power of the two-sided t test of coefficient = 0 at sample size(s) ``n``
         (see :func:`regression_power`)."""
-        return regression_power(self.estimand, self.se_factor, n, self.n_coefficients, alpha)
+        return regression_power(
+            self.estimand, self.se_factor, n, self.n_coefficients, alpha, gaussian_regressors=self.exact
+        )
 
     def halfwidth(self, n, alpha: float = 0.05):
         """Large-sample half-width of the (1 - alpha) confidence interval at ``n``."""

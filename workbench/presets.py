@@ -68,4 +68,6 @@ def load_preset(name: str) -> Scenario:
     try:
         return load_scenario(preset_text(name))
     except ScenarioError as exc:
-        raise ScenarioError(exc.problem, where=f"preset {name}: {exc.where}" if exc.where else f"preset {name}")
+        raise ScenarioError(
+            exc.problem, where=f"preset {name}: {exc.where}" if exc.where else f"preset {name}"
+        ) from None

@@ -292,8 +292,14 @@ def _check_keys(table: dict, allowed, where: str) -> None:
 
 
 def _type_name(value: Any) -> str:
-    return {bool: "a boolean", int: "an integer", float: "a number", str: "a string", list: "an array",
-            dict: "a table"}.get(type(value), type(value).__name__)
+    return {
+        bool: "a boolean",
+        int: "an integer",
+        float: "a number",
+        str: "a string",
+        list: "an array",
+        dict: "a table",
+    }.get(type(value), type(value).__name__)
 
 
 def _get(table: dict, key: str, kind: str, where: str, default: Any = None, required: bool = False) -> Any:
@@ -312,8 +318,14 @@ def _get(table: dict, key: str, kind: str, where: str, default: Any = None, requ
         "table": isinstance(value, dict),
     }[kind]
     if not ok:
-        wanted = {"str": "a string", "bool": "true or false", "int": "an integer", "number": "a number",
-                  "list": "an array", "table": "a table"}[kind]
+        wanted = {
+            "str": "a string",
+            "bool": "true or false",
+            "int": "an integer",
+            "number": "a number",
+            "list": "an array",
+            "table": "a table",
+        }[kind]
         raise ScenarioError(f"must be {wanted}, got {_type_name(value)} {value!r}", where=place)
     if kind == "number":
         value = float(value)
@@ -331,7 +343,9 @@ def _choice(value: str, choices, place: str) -> str:
 
 def _known(name: Any, names, place: str) -> str:
     if not isinstance(name, str):
-        raise ScenarioError(f"must be a variable name (a string), got {_type_name(name)} {name!r}", where=place)
+        raise ScenarioError(
+            f"must be a variable name (a string), got {_type_name(name)} {name!r}", where=place
+        )
     if name not in names:
         raise ScenarioError(f"unknown variable '{name}'{_suggest(name, names)}", where=place)
     return name
@@ -352,28 +366,35 @@ def _parse_variable(name: str, table: Any) -> Variable:
     label = _get(table, "label", "str", where)
     position = _get(table, "position", "list", where)
     if position is not None:
-        if len(position) != 2 or not all(isinstance(p, int | float) and not isinstance(p, bool) for p in position):
+        if len(position) != 2 or not all(
+            isinstance(p, int | float) and not isinstance(p, bool) for p in position
+        ):
             raise ScenarioError(f"must be two numbers [x, y], got {position!r}", where=f"{where}.position")
         position = (float(position[0]), float(position[1]))
     if vtype == "binary":
         for key in ("noise_sd", "baseline"):
             if key in table:
                 raise ScenarioError(
-                    f"applies to continuous variables only; a binary variable is set by 'proportion'",
+                    "applies to continuous variables only; a binary variable is set by 'proportion'",
                     where=f"{where}.{key}",
                 )
         proportion = _get(table, "proportion", "number", where, required=True)
         if not 0.0 < proportion < 1.0:
-            raise ScenarioError(f"must lie strictly between 0 and 1, got {proportion:g}", where=f"{where}.proportion")
+            raise ScenarioError(
+                f"must lie strictly between 0 and 1, got {proportion:g}", where=f"{where}.proportion"
+            )
         return Variable(name, "binary", 0.0, 0.0, proportion, observed, label, position)
     if "proportion" in table:
-        raise ScenarioError("applies to binary variables only (set type = \"binary\")", where=f"{where}.proportion")
+        raise ScenarioError(
+            'applies to binary variables only (set type = "binary")', where=f"{where}.proportion"
+        )
     noise_sd = _get(table, "noise_sd", "number", where, 1.0)
     if noise_sd < 0:
         raise ScenarioError(f"must be >= 0, got {noise_sd:g}", where=f"{where}.noise_sd")
     if noise_sd == 0:
-        warnings.warn(f"{where}.noise_sd: 0 makes '{name}' a deterministic function of its causes",
-                      stacklevel=3)
+        warnings.warn(
+            f"{where}.noise_sd: 0 makes '{name}' a deterministic function of its causes", stacklevel=3
+        )
     baseline = _get(table, "baseline", "number", where, 0.0)
     return Variable(name, "continuous", noise_sd, baseline, None, observed, label, position)
 
@@ -390,7 +411,7 @@ def _find_cycle(names: list[str], arrows: list[Arrow]) -> list[str] | None:
         stack.append(node)
         for child in children[node]:
             if state.get(child) == 1:
-                return stack[stack.index(child):] + [child]
+                return stack[stack.index(child) :] + [child]
             if child not in state:
                 found = visit(child)
                 if found:
@@ -450,7 +471,9 @@ def scenario_from_dict(data: dict, *, fill_default_strategies: bool = True) -> S
     for i, table in enumerate(arrow_list, start=1):
         where = f"arrows[{i}]"
         if not isinstance(table, dict):
-            raise ScenarioError(f"must be a table with from, to, effect, got {_type_name(table)}", where=where)
+            raise ScenarioError(
+                f"must be a table with from, to, effect, got {_type_name(table)}", where=where
+            )
         _check_keys(table, _ARROW_KEYS, where)
         source = _known(_get(table, "from", "str", where, required=True), names, f"{where}.from")
         target = _known(_get(table, "to", "str", where, required=True), names, f"{where}.to")
@@ -465,27 +488,32 @@ def scenario_from_dict(data: dict, *, fill_default_strategies: bool = True) -> S
         arrows.append(Arrow(source, target, effect))
     cycle = _find_cycle(names, arrows)
     if cycle:
-        raise ScenarioError("cycle: " + " -> ".join(cycle) + " (a causal graph must have no cycle)",
-                            where="arrows")
+        raise ScenarioError(
+            "cycle: " + " -> ".join(cycle) + " (a causal graph must have no cycle)", where="arrows"
+        )
 
     q = _get(data, "question", "table", "", required=True)
     _check_keys(q, _QUESTION_KEYS, "question")
     exposure = _known(_get(q, "exposure", "str", "question", required=True), names, "question.exposure")
     outcome = _known(_get(q, "outcome", "str", "question", required=True), names, "question.outcome")
     if exposure == outcome:
-        raise ScenarioError(f"the outcome must differ from the exposure (both '{exposure}')",
-                            where="question.outcome")
+        raise ScenarioError(
+            f"the outcome must differ from the exposure (both '{exposure}')", where="question.outcome"
+        )
     by_name = {v.name: v for v in variables}
     for role, name in (("exposure", exposure), ("outcome", outcome)):
         if not by_name[name].observed:
-            raise ScenarioError(f"the {role} '{name}' is latent (observed = false); it must be observed",
-                                where=f"question.{role}")
+            raise ScenarioError(
+                f"the {role} '{name}' is latent (observed = false); it must be observed",
+                where=f"question.{role}",
+            )
     target = _choice(_get(q, "target", "str", "question", "total"), TARGETS, "question.target")
     scale = _choice(_get(q, "scale", "str", "question", "difference"), SCALES, "question.scale")
     outcome_binary = by_name[outcome].is_binary
     if scale == "log_odds_ratio" and not outcome_binary:
-        raise ScenarioError(f"'log_odds_ratio' needs a binary outcome; '{outcome}' is continuous",
-                            where="question.scale")
+        raise ScenarioError(
+            f"'log_odds_ratio' needs a binary outcome; '{outcome}' is continuous", where="question.scale"
+        )
     if target == "direct" and outcome_binary:
         raise ScenarioError(
             f"the 'direct' target needs a continuous outcome; '{outcome}' is binary, and its arrow from "
@@ -498,8 +526,11 @@ def scenario_from_dict(data: dict, *, fill_default_strategies: bool = True) -> S
         place = f"question.also[{i}]"
         _known(name, names, place)
         if name in (exposure, outcome):
-            raise ScenarioError(f"'{name}' is the {'exposure' if name == exposure else 'outcome'}; "
-                                "'also' names further variables", where=place)
+            raise ScenarioError(
+                f"'{name}' is the {'exposure' if name == exposure else 'outcome'}; "
+                "'also' names further variables",
+                where=place,
+            )
         if not by_name[name].observed:
             raise ScenarioError(f"'{name}' is latent and cannot be estimated", where=place)
         if name in also:
@@ -513,8 +544,9 @@ def scenario_from_dict(data: dict, *, fill_default_strategies: bool = True) -> S
     n = _get(study_table, "n", "int", "study", defaults.n)
     replicates = _get(study_table, "replicates", "int", "study", defaults.replicates)
     if not 1 <= replicates <= MAX_REPLICATES:
-        raise ScenarioError(f"must be between 1 and {MAX_REPLICATES:,}, got {replicates}",
-                            where="study.replicates")
+        raise ScenarioError(
+            f"must be between 1 and {MAX_REPLICATES:,}, got {replicates}", where="study.replicates"
+        )
     seed = _get(study_table, "seed", "int", "study", defaults.seed)
     if seed < 0:
         raise ScenarioError(f"must be a non-negative integer, got {seed}", where="study.seed")
@@ -530,8 +562,9 @@ def scenario_from_dict(data: dict, *, fill_default_strategies: bool = True) -> S
     sample_sizes = tuple(sorted(set(sizes)))
     target_power = _get(study_table, "target_power", "number", "study", defaults.target_power)
     if not 0.0 < target_power < 1.0:
-        raise ScenarioError(f"must lie strictly between 0 and 1, got {target_power:g}",
-                            where="study.target_power")
+        raise ScenarioError(
+            f"must lie strictly between 0 and 1, got {target_power:g}", where="study.target_power"
+        )
     target_halfwidth = _get(study_table, "target_halfwidth", "number", "study", None)
     if target_halfwidth is not None and target_halfwidth <= 0:
         raise ScenarioError(f"must be > 0, got {target_halfwidth:g}", where="study.target_halfwidth")
@@ -560,25 +593,36 @@ def scenario_from_dict(data: dict, *, fill_default_strategies: bool = True) -> S
             if var == outcome:
                 raise ScenarioError(f"'{var}' is the outcome and cannot be adjusted for", where=place)
             if var not in adjustable:
-                raise ScenarioError(f"'{var}' is latent (observed = false) and cannot be adjusted for",
-                                    where=place)
+                raise ScenarioError(
+                    f"'{var}' is latent (observed = false) and cannot be adjusted for", where=place
+                )
             if var in adjust:
                 raise ScenarioError(f"'{var}' is listed twice", where=place)
             adjust.append(var)
         model = _choice(_get(table, "model", "str", where, "ols"), MODELS, f"{where}.model")
         if model == "logit" and not outcome_binary:
-            raise ScenarioError(f"'logit' needs a binary outcome; '{outcome}' is continuous",
-                                where=f"{where}.model")
+            raise ScenarioError(
+                f"'logit' needs a binary outcome; '{outcome}' is continuous", where=f"{where}.model"
+            )
         standardize = _get(table, "standardize", "bool", where, False)
         if standardize and model != "logit":
-            raise ScenarioError("standardize = true applies to model = \"logit\" only",
-                                where=f"{where}.standardize")
+            raise ScenarioError(
+                'standardize = true applies to model = "logit" only', where=f"{where}.standardize"
+            )
         strategies.append(Strategy(name, tuple(adjust), model, standardize))
     if strategy_list is not None and not strategies:
         raise ScenarioError("lists no strategy; remove the key to get the default set", where="strategies")
 
-    scenario = Scenario(title, question, variables, tuple(arrows), tuple(strategies), study, summary,
-                        strategies_given=strategy_list is not None)
+    scenario = Scenario(
+        title,
+        question,
+        variables,
+        tuple(arrows),
+        tuple(strategies),
+        study,
+        summary,
+        strategies_given=strategy_list is not None,
+    )
     if strategy_list is None and fill_default_strategies:
         from .adjustment import default_strategies
 
@@ -680,8 +724,12 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
     out: dict[str, Any] = {"title": scenario.title}
     if scenario.summary:
         out["summary"] = scenario.summary
-    question: dict[str, Any] = {"exposure": q.exposure, "outcome": q.outcome, "target": q.target,
-                                "scale": q.scale}
+    question: dict[str, Any] = {
+        "exposure": q.exposure,
+        "outcome": q.outcome,
+        "target": q.target,
+        "scale": q.scale,
+    }
     if q.also:
         question["also"] = list(q.also)
     out["question"] = question
@@ -710,8 +758,14 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
             strategies.append(table)
         out["strategies"] = strategies
     st = scenario.study
-    study: dict[str, Any] = {"n": st.n, "replicates": st.replicates, "seed": st.seed, "alpha": st.alpha,
-                             "sample_sizes": list(st.sample_sizes), "target_power": st.target_power}
+    study: dict[str, Any] = {
+        "n": st.n,
+        "replicates": st.replicates,
+        "seed": st.seed,
+        "alpha": st.alpha,
+        "sample_sizes": list(st.sample_sizes),
+        "target_power": st.target_power,
+    }
     if st.target_halfwidth is not None:
         study["target_halfwidth"] = st.target_halfwidth
     out["study"] = study

@@ -23,7 +23,7 @@ Examples
 >>> wb.scenario_state.set_arrow(0, effect="lots")
 False
 >>> wb.scenario_state.error
-'arrows[1].effect: must be a number, got a string ...'
+"arrows[1].effect: must be a number, got a string 'lots'"
 >>> wb.scenario_state.scenario.arrows[0].effect
 0.6
 """

@@ -1,0 +1,178 @@
+"""The command line: exit codes, one-line errors, JSON shapes."""
+
+from __future__ import annotations
+
+import json
+import shutil
+import subprocess
+
+import pytest
+
+from workbench.cli import main
+from workbench.presets import list_presets
+
+GOOD = """title = "Workshop lathes"
+[question]
+exposure = "training"
+outcome = "output"
+[variables.skill]
+[variables.training]
+[variables.output]
+[[arrows]]
+from = "skill"
+to = "training"
+effect = 0.5
+[[arrows]]
+from = "skill"
+to = "output"
+effect = 0.5
+[[arrows]]
+from = "training"
+to = "output"
+effect = 0.3
+[study]
+n = 100
+replicates = 200
+"""
+
+BROKEN = {
+    "toml syntax": (GOOD.replace('title = "Workshop lathes"', "title = "), "line 1, column"),
+    "unknown key": (GOOD.replace("[study]", "[study]\nreplicats = 5"), "study.replicats: unknown key"),
+    "wrong type": (GOOD.replace("effect = 0.3", 'effect = "big"'), "arrows[3].effect: must be a number"),
+    "unknown variable": (GOOD.replace('to = "training"', 'to = "trainin"'), "did you mean 'training'"),
+    "cycle": (GOOD + '[[arrows]]\nfrom = "output"\nto = "skill"\neffect = 0.1\n', "cycle: "),
+    "self arrow": (GOOD + '[[arrows]]\nfrom = "skill"\nto = "skill"\neffect = 0.1\n', "to itself"),
+    "duplicate arrow": (
+        GOOD + '[[arrows]]\nfrom = "skill"\nto = "output"\neffect = 0.1\n',
+        "duplicate arrow",
+    ),
+    "exposure is outcome": (GOOD.replace('outcome = "output"', 'outcome = "training"'), "question.outcome"),
+    "missing exposure": (GOOD.replace('exposure = "training"\n', ""), "question.exposure: missing"),
+    "adjust exposure": (GOOD + '[[strategies]]\nname = "a"\nadjust = ["training"]\n', "is the exposure"),
+    "adjust outcome": (GOOD + '[[strategies]]\nname = "a"\nadjust = ["output"]\n', "is the outcome"),
+    "adjust latent": (
+        GOOD.replace("[variables.skill]", "[variables.skill]\nobserved = false")
+        + '[[strategies]]\nname = "a"\nadjust = ["skill"]\n',
+        "is latent",
+    ),
+    "adjust unknown": (GOOD + '[[strategies]]\nname = "a"\nadjust = ["skil"]\n', "unknown variable 'skil'"),
+    "proportion": (
+        GOOD.replace("[variables.skill]", '[variables.skill]\ntype = "binary"\nproportion = 1.5'),
+        "variables.skill.proportion",
+    ),
+    "negative noise": (
+        GOOD.replace("[variables.skill]", "[variables.skill]\nnoise_sd = -1"),
+        "variables.skill.noise_sd: must be >= 0",
+    ),
+    "log odds on continuous": (
+        GOOD.replace('outcome = "output"', 'outcome = "output"\nscale = "log_odds_ratio"'),
+        "question.scale",
+    ),
+    "direct on binary": (
+        GOOD.replace('outcome = "output"', 'outcome = "output"\ntarget = "direct"').replace(
+            "[variables.output]", '[variables.output]\ntype = "binary"\nproportion = 0.3'
+        ),
+        "question.target",
+    ),
+    "too many variables": (
+        'title = "t"\n[question]\nexposure = "v0"\noutcome = "v1"\n'
+        + "".join(f"[variables.v{i}]\n" for i in range(41)),
+        "at most 40 variables",
+    ),
+    "too many arrows": (
+        'title = "t"\n[question]\nexposure = "v0"\noutcome = "v1"\n'
+        + "".join(f"[variables.v{i}]\n" for i in range(30))
+        + "".join(
+            f'[[arrows]]\nfrom = "v{i}"\nto = "v{j}"\neffect = 0.1\n'
+            for i in range(30)
+            for j in range(i + 1, 30)
+        )[: 10**6],
+        "at most 200 arrows",
+    ),
+    "n too small": (
+        GOOD.replace("n = 100", "n = 3") + '[[strategies]]\nname = "a"\nadjust = ["skill"]\n',
+        "study.n: n = 3 is too small",
+    ),
+    "replicates zero": (GOOD.replace("replicates = 200", "replicates = 0"), "study.replicates"),
+    "alpha": (GOOD.replace("[study]", "[study]\nalpha = 0.7"), "study.alpha"),
+}
+
+
+@pytest.fixture
+def scenario_file(tmp_path):
+    def write(text: str):
+        path = tmp_path / "scenario.toml"
+        path.write_text(text)
+        return str(path)
+
+    return write
+
+
+def test_check_json_shape(scenario_file, capsys):
+    """The JSON keys of the interface contract (issue: foundation, section 5)."""
+    assert main(["check", scenario_file(GOOD), "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    for key in (
+        "title",
+        "exposure",
+        "outcome",
+        "target",
+        "roles",
+        "strategies",
+        "minimal_sets",
+        "optimal_set",
+        "truth",
+    ):
+        assert key in data
+    assert data["truth"] == pytest.approx(0.3)
+    assert data["minimal_sets"] == [["skill"]]
+    for row in data["strategies"]:
+        assert {"name", "adjust", "valid", "reasons", "large_sample_estimate", "large_sample_bias"} <= set(
+            row
+        )
+
+
+@pytest.mark.parametrize("case", list(BROKEN))
+def test_broken_files_exit_2_with_one_line(case, scenario_file, capsys):
+    """Every broken-file case prints one line naming the place and exits 2, with no traceback."""
+    text, expected = BROKEN[case]
+    assert main(["check", scenario_file(text)]) == 2
+    captured = capsys.readouterr()
+    message = captured.err.strip()
+    assert "\n" not in message and "Traceback" not in message
+    assert expected in message
+    assert "scenario.toml" in message
+
+
+def test_missing_file_and_unknown_preset(capsys):
+    assert main(["check", "/nonexistent/where.toml"]) == 2
+    assert "no such file" in capsys.readouterr().err
+    assert main(["check", "--preset", "no_such_preset"]) == 2
+    assert "common_cause" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("name", list(list_presets()))
+def test_check_every_preset(name, capsys):
+    assert main(["check", "--preset", name]) == 0
+    out = capsys.readouterr().out
+    assert "Strategies" in out and "assumptions" in out
+
+
+def test_presets_lists_titles(capsys):
+    assert main(["presets"]) == 0
+    out = capsys.readouterr().out
+    assert "common_cause" in out and "(default)" in out
+
+
+@pytest.mark.skipif(shutil.which("workbench") is None, reason="the package is not installed")
+def test_installed_command_from_another_directory(tmp_path):
+    """After 'pip install .', presets are found from any directory (package data)."""
+    done = subprocess.run(
+        ["workbench", "check", "--preset", "common_cause", "--json"],
+        cwd=tmp_path,
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
+    assert done.returncode == 0, done.stderr
+    assert json.loads(done.stdout)["exposure"] == "fertiliser"

@@ -1,0 +1,639 @@
+"""Bokeh figures built from library results (no Panel import), for the dashboard and the HTML report.
+
+Every function takes plain library objects (a :class:`~workbench.scenario.Scenario`, a check report, a
+simulation or plan result, a DataFrame) and returns a Bokeh layout object. Nothing here computes a statistic
+the library already computes; the figures only draw.
+
+Colours follow the Okabe-Ito colour-blind-safe palette (Okabe M., Ito K. (2008). Color Universal Design):
+roles in the graph use fixed colours (:data:`ROLE_STYLE`); strategies take colours in a fixed order
+(:func:`strategy_colours`) so one strategy has the same colour in every figure.
+
+Examples
+--------
+>>> from workbench.presets import load_preset
+>>> fig = graph_figure(load_preset("common_cause"))
+>>> type(fig).__name__
+'figure'
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable, Sequence
+
+import networkx as nx
+import numpy as np
+import pandas as pd
+from bokeh.layouts import gridplot
+from bokeh.models import (
+    Arrow,
+    ColorBar,
+    ColumnDataSource,
+    FixedTicker,
+    HoverTool,
+    Legend,
+    LegendItem,
+    LinearColorMapper,
+    Range1d,
+    Span,
+    VeeHead,
+)
+from bokeh.palettes import Cividis256
+from bokeh.plotting import figure
+
+from ..scenario import Scenario
+
+__all__ = [
+    "ROLE_STYLE",
+    "OKABE_ITO",
+    "primary_role",
+    "graph_layout",
+    "graph_figure",
+    "strategy_colours",
+    "estimates_figure",
+    "se_figure",
+    "interval_figure",
+    "power_figure",
+    "by_n_figure",
+    "separation_figure",
+    "dataset_scatter",
+    "dataset_groups",
+]
+
+#: The eight Okabe-Ito colours.
+OKABE_ITO = ("#000000", "#E69F00", "#56B4E9", "#009E73", "#F0E442", "#0072B2", "#D55E00", "#CC79A7")
+
+#: Role -> (legend text, fill colour, marker). The order is the legend's order.
+ROLE_STYLE = {
+    "exposure": ("exposure", "#E69F00", "square"),
+    "outcome": ("outcome", "#CC79A7", "diamond"),
+    "confounder": ("confounder", "#D55E00", "circle"),
+    "mediator": ("mediator", "#56B4E9", "circle"),
+    "common_effect": ("common effect", "#F0E442", "circle"),
+    "instrument": ("instrument", "#0072B2", "circle"),
+    "outcome_cause": ("outcome cause", "#009E73", "circle"),
+    "other": ("other", "#999999", "circle"),
+}
+_ROLE_PRIORITY = ("confounder", "mediator", "common_effect", "instrument", "outcome_cause")
+_STRATEGY_COLOURS = ("#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#000000", "#999999")
+_EDGE = "#4d4d4d"
+_FONT = "11px"
+
+
+def _style(fig, title: str | None = None) -> None:
+    fig.toolbar.logo = None
+    fig.title.text_font_size = "13px"
+    fig.title.text_font_style = "bold"
+    if title is not None:
+        fig.title.text = title
+    for axis in (*fig.xaxis, *fig.yaxis):
+        axis.axis_label_text_font_size = "12px"
+        axis.axis_label_text_font_style = "normal"
+        axis.major_label_text_font_size = _FONT
+    fig.outline_line_color = None
+    fig.background_fill_color = "#ffffff"
+
+
+def strategy_colours(names: Sequence[str]) -> dict[str, str]:
+    """A colour per strategy, in the order given (cycling through eight Okabe-Ito colours).
+
+    Examples
+    --------
+    >>> strategy_colours(["unadjusted", "adjusted"])
+    {'unadjusted': '#0072B2', 'adjusted': '#D55E00'}
+    """
+    return {name: _STRATEGY_COLOURS[i % len(_STRATEGY_COLOURS)] for i, name in enumerate(names)}
+
+
+# ------------------------------------------------------------------------------------------------------
+# The graph
+# ------------------------------------------------------------------------------------------------------
+def primary_role(scenario: Scenario, name: str, roles: dict | None) -> str:
+    """The role that decides a variable's colour: exposure, outcome, then the first of confounder,
+    mediator, common effect, instrument, outcome cause that applies, else "other".
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> sc = load_preset("common_cause")
+    >>> primary_role(sc, "fertiliser", {}), primary_role(sc, "soil_quality", {"soil_quality": [("confounder", "")]})
+    ('exposure', 'confounder')
+    """
+    q = scenario.question
+    if name == q.exposure:
+        return "exposure"
+    if name == q.outcome:
+        return "outcome"
+    found = {role for role, _ in (roles or {}).get(name, [])}
+    for role in _ROLE_PRIORITY:
+        if role in found:
+            return role
+    return "other"
+
+
+def graph_layout(scenario: Scenario) -> dict[str, tuple[float, float]]:
+    """Positions for drawing: the scenario's own when every variable has one; otherwise layered left to
+    right by topological generation, with the exposure and the outcome on the middle row.
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> graph_layout(load_preset("common_cause"))
+    {'soil_quality': (0.0, 1.0), 'fertiliser': (1.0, 0.0), 'wheat_yield': (2.0, 0.0)}
+    """
+    if all(v.position is not None for v in scenario.variables):
+        return {v.name: (float(v.position[0]), float(v.position[1])) for v in scenario.variables}
+    G = nx.DiGraph()
+    G.add_nodes_from(scenario.names)
+    G.add_edges_from((a.source, a.target) for a in scenario.arrows)
+    order = scenario.names.index
+    q = scenario.question
+    offsets = [1.0, -1.0, 2.0, -2.0, 3.0, -3.0, 4.0, -4.0]
+    positions: dict[str, tuple[float, float]] = {}
+    for x, generation in enumerate(nx.topological_generations(G)):
+        members = sorted(generation, key=order)
+        main = [m for m in members if m in (q.exposure, q.outcome)]
+        rest = [m for m in members if m not in main]
+        for m in main:
+            positions[m] = (float(x), 0.0)
+        for i, m in enumerate(rest):
+            y = offsets[i] if i < len(offsets) else float((i // 2 + 1) * (1 if i % 2 == 0 else -1))
+            positions[m] = (float(x), y)
+    return {name: positions[name] for name in scenario.names}
+
+
+def _path_edges(paths: Iterable) -> set[tuple[str, str]]:
+    edges = set()
+    for p in paths:
+        for a, b, arrow in zip(p.nodes, p.nodes[1:], p.arrows, strict=False):
+            edges.add((a, b) if arrow == "->" else (b, a))
+    return edges
+
+
+def graph_figure(scenario: Scenario, roles: dict | None = None, verdict=None, *, adjust: Sequence[str] = (),
+                 width: int = 760, height: int = 430, title: str | None = None):
+    """The causal graph: nodes coloured by role, arrows labelled with effects, optional path highlight.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    roles : dict, optional
+        :func:`workbench.adjustment.find_roles` output; without it every covariate is drawn as "other".
+    verdict : Verdict, optional
+        A strategy's verdict: the paths it leaves open are drawn thick and dashed, those it blocks faded.
+    adjust : sequence of str
+        The strategy's adjustment set (drawn with a thick black ring).
+    width, height : int
+        Size of the plotting area in pixels (fixed so that arrow heads stop at the nodes' edges).
+
+    Returns
+    -------
+    bokeh.plotting.figure
+    """
+    pos = graph_layout(scenario)
+    xs = [p[0] for p in pos.values()]
+    ys = [p[1] for p in pos.values()]
+    pad_x, pad_y = 0.55, 0.6
+    x0, x1 = min(xs) - pad_x, max(xs) + pad_x
+    y0, y1 = min(ys) - pad_y, max(ys) + pad_y
+    if x1 - x0 < 2:
+        x0, x1 = x0 - 1, x1 + 1
+    if y1 - y0 < 1.6:
+        y0, y1 = y0 - 0.5, y1 + 0.5
+    fig = figure(
+        frame_width=width, frame_height=height, x_range=Range1d(x0, x1), y_range=Range1d(y0, y1),
+        tools="save", toolbar_location=None, title=title,
+    )
+    _style(fig)
+    fig.axis.visible = False
+    fig.grid.visible = False
+    sx, sy = width / (x1 - x0), height / (y1 - y0)
+    radius_px = 15.0
+
+    open_edges: set[tuple[str, str]] = set()
+    blocked_edges: set[tuple[str, str]] = set()
+    if verdict is not None:
+        open_edges = _path_edges(verdict.open_paths)
+        blocked_edges = _path_edges(verdict.blocked_paths) - open_edges
+
+    # arrows
+    arrow_data: dict[str, list] = {k: [] for k in ("x0", "y0", "x1", "y1", "width", "alpha", "dash", "colour")}
+    label_data: dict[str, list] = {k: [] for k in ("x", "y", "text", "alpha")}
+    for a in scenario.arrows:
+        (ax, ay), (bx, by) = pos[a.source], pos[a.target]
+        dx, dy = (bx - ax) * sx, (by - ay) * sy
+        length = math.hypot(dx, dy) or 1.0
+        cut = (radius_px + 5.0) / length
+        edge = (a.source, a.target)
+        is_open = edge in open_edges
+        faded = edge in blocked_edges or (verdict is not None and not is_open)
+        arrow_data["x0"].append(ax + (bx - ax) * cut)
+        arrow_data["y0"].append(ay + (by - ay) * cut)
+        arrow_data["x1"].append(bx - (bx - ax) * cut)
+        arrow_data["y1"].append(by - (by - ay) * cut)
+        arrow_data["width"].append(4.0 if is_open else 1.8)
+        arrow_data["alpha"].append(0.25 if faded else 1.0)
+        arrow_data["dash"].append("dashed" if is_open else "solid")
+        arrow_data["colour"].append("#000000" if is_open else _EDGE)
+        label_data["x"].append(ax + (bx - ax) * 0.5)
+        label_data["y"].append(ay + (by - ay) * 0.5)
+        label_data["text"].append(f"{a.effect:+.3g}")
+        label_data["alpha"].append(0.35 if faded else 1.0)
+    source = ColumnDataSource(arrow_data)
+    fig.add_layout(Arrow(
+        end=VeeHead(size=11, line_color="colour", fill_color="colour", line_alpha="alpha", fill_alpha="alpha"),
+        x_start="x0", y_start="y0", x_end="x1", y_end="y1", source=source,
+        line_width="width", line_alpha="alpha", line_dash="dash", line_color="colour",
+    ))
+    fig.text("x", "y", "text", source=ColumnDataSource(label_data), text_font_size=_FONT, text_align="center",
+             text_baseline="middle", text_alpha="alpha", background_fill_color="#ffffff",
+             background_fill_alpha=0.9, padding=2, text_color="#333333")
+
+    # nodes, one renderer per legend entry
+    adjusted = set(adjust)
+    groups: dict[tuple[str, bool], dict[str, list]] = {}
+    for v in scenario.variables:
+        role = primary_role(scenario, v.name, roles)
+        reasons = "; ".join(f"{r}: {why}" for r, why in (roles or {}).get(v.name, []))
+        group = groups.setdefault((role, v.observed), {k: [] for k in (
+            "x", "y", "name", "label", "kind", "roles", "ring", "ring_colour")})
+        x, y = pos[v.name]
+        group["x"].append(x)
+        group["y"].append(y)
+        group["name"].append(v.name)
+        group["label"].append(v.display)
+        group["kind"].append(f"{v.type}{'' if v.observed else ', latent'}")
+        group["roles"].append(reasons or role)
+        group["ring"].append(3.5 if v.name in adjusted else (2.0 if not v.observed else 1.2))
+        group["ring_colour"].append("#000000" if v.name in adjusted else ROLE_STYLE[role][1] if not v.observed
+                                    else "#333333")
+    items = []
+    node_renderers = []
+    for role in ROLE_STYLE:
+        for observed in (True, False):
+            data = groups.get((role, observed))
+            if not data:
+                continue
+            text, colour, marker = ROLE_STYLE[role]
+            renderer = fig.scatter(
+                "x", "y", source=ColumnDataSource(data), marker=marker, size=2 * radius_px + (4 if marker == "diamond" else 0),
+                fill_color=colour, fill_alpha=1.0 if observed else 0.0, line_color="ring_colour",
+                line_width="ring", line_dash="solid" if observed else "dashed",
+            )
+            node_renderers.append(renderer)
+            items.append(LegendItem(label=text if observed else f"{text} (latent)", renderers=[renderer]))
+    names = ColumnDataSource({
+        "x": list(xs), "y": list(ys),
+        "text": [n + ("  (adjusted)" if n in adjusted else "") for n in pos],
+    })
+    fig.text("x", "y", "text", source=names, text_font_size="12px", text_align="center", text_baseline="top",
+             y_offset=radius_px + 5, text_color="#111111", background_fill_color="#ffffff",
+             background_fill_alpha=0.75, padding=1)
+    if verdict is not None:
+        open_line = fig.line([], [], line_width=4, line_dash="dashed", line_color="#000000")
+        faded_line = fig.line([], [], line_width=1.8, line_color=_EDGE, line_alpha=0.25)
+        items.append(LegendItem(label="path left open", renderers=[open_line]))
+        items.append(LegendItem(label="path blocked", renderers=[faded_line]))
+    legend = Legend(items=items, location="top_left", label_text_font_size=_FONT, glyph_height=16,
+                    glyph_width=16, spacing=3, border_line_color=None)
+    fig.add_layout(legend, "right")
+    fig.add_tools(HoverTool(renderers=node_renderers, tooltips=[
+        ("variable", "@name"), ("label", "@label"), ("type", "@kind"), ("role", "@roles")]))
+    return fig
+
+
+# ------------------------------------------------------------------------------------------------------
+# Estimates
+# ------------------------------------------------------------------------------------------------------
+def _ridge(values: dict[str, np.ndarray], colours: dict[str, str], *, title: str, x_label: str,
+           marks: dict[str, float] | None = None, mark_label: str = "", line: float | None = None,
+           line_label: str = "", width: int = 540, labels: dict[str, str] | None = None):
+    """Histograms of several samples stacked one row each, on a shared x axis."""
+    names = list(values)
+    pooled = np.concatenate([v[np.isfinite(v)] for v in values.values()] or [np.zeros(1)])
+    if pooled.size == 0:
+        pooled = np.zeros(1)
+    lo, hi = np.quantile(pooled, [0.002, 0.998])
+    if line is not None and np.isfinite(line):
+        lo, hi = min(lo, line), max(hi, line)
+    if hi <= lo:
+        lo, hi = lo - 0.5, hi + 0.5
+    edges = np.linspace(lo, hi, 41)
+    fig = figure(width=width, height=70 + 62 * len(names), title=title, tools="save,reset,xwheel_zoom,xpan",
+                 toolbar_location=None, x_axis_label=x_label, y_range=Range1d(-0.15, len(names) + 0.1))
+    _style(fig)
+    for i, name in enumerate(reversed(names)):
+        v = values[name]
+        v = v[np.isfinite(v)]
+        counts, _ = np.histogram(np.clip(v, lo, hi), bins=edges)
+        top = counts / counts.max() * 0.85 if counts.max() > 0 else counts.astype(float)
+        fig.quad(left=edges[:-1], right=edges[1:], bottom=i, top=i + top, fill_color=colours[name],
+                 fill_alpha=0.55, line_color=colours[name], line_alpha=0.9)
+        if marks and name in marks and marks[name] is not None and np.isfinite(marks[name]):
+            fig.segment(x0=[marks[name]], x1=[marks[name]], y0=[i], y1=[i + 0.95], line_color="#000000",
+                        line_width=2.5)
+    fig.yaxis.ticker = FixedTicker(ticks=[i + 0.35 for i in range(len(names))])
+    shown = labels or {}
+    fig.yaxis.major_label_overrides = {i + 0.35: shown.get(n, n) for i, n in enumerate(reversed(names))}
+    fig.ygrid.visible = False
+    items = []
+    if line is not None and np.isfinite(line):
+        fig.add_layout(Span(location=line, dimension="height", line_color="#000000", line_dash="dashed",
+                            line_width=2))
+        items.append(LegendItem(label=line_label, renderers=[fig.line([], [], line_color="#000000",
+                                                                        line_dash="dashed", line_width=2)]))
+    if marks:
+        items.append(LegendItem(label=mark_label, renderers=[fig.line([], [], line_color="#000000",
+                                                                        line_width=2.5)]))
+    if items:
+        fig.add_layout(Legend(items=items, location="top_right", label_text_font_size=_FONT,
+                              orientation="horizontal", border_line_color=None), "above")
+    return fig
+
+
+def _labels(table: pd.DataFrame) -> dict[str, str]:
+    out = {}
+    for _, row in table.iterrows():
+        valid = row.get("valid")
+        out[row["name"]] = f"{row['name']}{'' if valid is None or bool(valid) else ' (invalid)'}"
+    return out
+
+
+def estimates_figure(result, *, width: int = 540):
+    """Distribution of each strategy's estimates across replicates, with the truth as a dashed line.
+
+    Parameters
+    ----------
+    result : SimulationResult
+        Uses ``result.table`` (name, valid) and ``result.estimates`` (strategy, estimate).
+    """
+    table = result.table
+    names = list(table["name"])
+    est = result.estimates
+    values = {n: est.loc[est["strategy"] == n, "estimate"].to_numpy(dtype=float) for n in names}
+    means = dict(zip(table["name"], table["mean"], strict=True))
+    return _ridge(values, strategy_colours(names), title="Estimates across replicates",
+                  x_label="estimated effect", marks=means, mark_label="mean estimate", line=float(result.truth),
+                  line_label="truth", width=width, labels=_labels(table))
+
+
+def se_figure(result, *, width: int = 540):
+    """Distribution of each strategy's model-based SEs, with its empirical SE (SD of the estimates) marked."""
+    table = result.table
+    names = list(table["name"])
+    est = result.estimates
+    values = {n: est.loc[est["strategy"] == n, "se"].to_numpy(dtype=float) for n in names}
+    emp = dict(zip(table["name"], table["emp_se"], strict=True))
+    return _ridge(values, strategy_colours(names), title="Model standard errors across replicates",
+                  x_label="model-based SE", marks=emp, mark_label="empirical SE", width=width,
+                  labels=_labels(table))
+
+
+def interval_figure(result, *, first: int = 100, columns: int = 4, width: int = 1060):
+    """Ranked confidence intervals of the first ``first`` replicates per strategy, coloured by coverage.
+
+    Each panel sorts the replicates by their estimate; an interval that misses the truth is drawn in
+    vermillion, one that covers it in grey.
+    """
+    table = result.table
+    names = list(table["name"])
+    truth = float(result.truth)
+    est = result.estimates
+    est = est[est["replicate"] < est["replicate"].min() + first]
+    finite = est[np.isfinite(est["ci_low"]) & np.isfinite(est["ci_high"])]
+    lo = float(min(finite["ci_low"].min(), truth)) if len(finite) else truth - 1
+    hi = float(max(finite["ci_high"].max(), truth)) if len(finite) else truth + 1
+    pad = 0.05 * (hi - lo or 1.0)
+    x_range = Range1d(lo - pad, hi + pad)
+    cols = max(1, min(columns, len(names)))
+    panel_width = max(220, width // cols - 10)
+    figs = []
+    labels = _labels(table)
+    for name in names:
+        rows = finite[finite["strategy"] == name].sort_values("estimate")
+        covers = (rows["ci_low"] <= truth) & (truth <= rows["ci_high"])
+        source = ColumnDataSource({
+            "rank": np.arange(1, len(rows) + 1), "low": rows["ci_low"].to_numpy(), "high": rows["ci_high"].to_numpy(),
+            "estimate": rows["estimate"].to_numpy(),
+            "colour": np.where(covers, "#999999", "#D55E00"),
+        })
+        share = float(covers.mean()) if len(rows) else float("nan")
+        fig = figure(width=panel_width, height=300, x_range=x_range, tools="save", toolbar_location=None,
+                     title=f"{labels[name]}: {covers.sum()} of {len(rows)} cover" if len(rows) else labels[name],
+                     x_axis_label="confidence interval", y_axis_label="replicate (ranked)")
+        _style(fig)
+        fig.title.text_font_size = "12px"
+        fig.segment(x0="low", x1="high", y0="rank", y1="rank", line_color="colour", line_width=1.6, source=source)
+        fig.scatter("estimate", "rank", size=2.5, color="#000000", source=source)
+        fig.add_layout(Span(location=truth, dimension="height", line_color="#000000", line_dash="dashed",
+                            line_width=1.5))
+        fig.ygrid.visible = False
+        fig.tags = [share]
+        figs.append(fig)
+    return gridplot(figs, ncols=cols, toolbar_location=None)
+
+
+# ------------------------------------------------------------------------------------------------------
+# Sample size
+# ------------------------------------------------------------------------------------------------------
+def power_figure(plan_result, *, target_power: float, width: int = 700):
+    """Power against n per strategy, with +/- 2 MCSE bands, the analytic curve dashed, the target line and
+    the smallest n reaching it marked.
+
+    Parameters
+    ----------
+    plan_result : PlanResult
+        Uses ``.table`` (n, strategy, power, power_mcse, analytic_power) and ``.smallest_n``.
+    target_power : float
+    """
+    table = plan_result.table
+    names = list(dict.fromkeys(table["strategy"]))
+    colours = strategy_colours(names)
+    fig = figure(width=width, height=380, title="Power to detect the effect", x_axis_type="log",
+                 x_axis_label="sample size n", y_axis_label="power", y_range=Range1d(0, 1.04),
+                 tools="save,reset", toolbar_location=None)
+    _style(fig)
+    items = []
+    smallest = getattr(plan_result, "smallest_n", None)
+    invalid = set()
+    if smallest is not None and "valid" in smallest:
+        invalid = {r["strategy"] for _, r in smallest.iterrows() if r["valid"] is not None and not bool(r["valid"])}
+    for name in names:
+        rows = table[table["strategy"] == name].sort_values("n")
+        n = rows["n"].to_numpy(dtype=float)
+        power = rows["power"].to_numpy(dtype=float)
+        mcse = rows["power_mcse"].to_numpy(dtype=float) if "power_mcse" in rows else np.zeros_like(power)
+        colour = colours[name]
+        fig.varea(x=n, y1=np.clip(power - 2 * mcse, 0, 1), y2=np.clip(power + 2 * mcse, 0, 1), fill_color=colour,
+                  fill_alpha=0.18)
+        dash = "solid" if name not in invalid else "dotdash"
+        line = fig.line(n, power, line_color=colour, line_width=2.2, line_dash=dash)
+        dots = fig.scatter(n, power, color=colour, size=6)
+        renderers = [line, dots]
+        if "analytic_power" in rows and rows["analytic_power"].notna().any():
+            renderers.append(fig.line(n, rows["analytic_power"].to_numpy(dtype=float), line_color=colour,
+                                      line_width=1.5, line_dash="dashed"))
+        label = name + (" (invalid: detects a biased quantity)" if name in invalid else "")
+        items.append(LegendItem(label=label, renderers=renderers))
+        if smallest is not None and len(smallest):
+            found = smallest[smallest["strategy"] == name]
+            if len(found) and pd.notna(found["n_for_power"].iloc[0]):
+                fig.scatter([float(found["n_for_power"].iloc[0])], [target_power], marker="inverted_triangle",
+                            size=13, fill_color=colour, line_color="#000000")
+    fig.add_layout(Span(location=target_power, dimension="width", line_color="#000000", line_dash="dotted",
+                        line_width=1.5))
+    items.append(LegendItem(label=f"target power {target_power:g}; ▼ smallest n",
+                            renderers=[fig.line([], [], line_color="#000000", line_dash="dotted")]))
+    items.append(LegendItem(label="analytic approximation (dashed)",
+                            renderers=[fig.line([], [], line_color="#555555", line_dash="dashed")]))
+    fig.add_layout(Legend(items=items, label_text_font_size=_FONT, border_line_color=None, spacing=2), "right")
+    return fig
+
+
+def by_n_figure(plan_result, column: str, *, title: str, y_label: str, width: int = 520, zero_line: bool = False):
+    """One performance measure (``bias``, ``emp_se``, ...) against n, one line per strategy."""
+    table = plan_result.table
+    names = list(dict.fromkeys(table["strategy"]))
+    colours = strategy_colours(names)
+    fig = figure(width=width, height=300, title=title, x_axis_type="log", x_axis_label="sample size n",
+                 y_axis_label=y_label, tools="save,reset", toolbar_location=None)
+    _style(fig)
+    items = []
+    for name in names:
+        rows = table[table["strategy"] == name].sort_values("n")
+        n = rows["n"].to_numpy(dtype=float)
+        y = rows[column].to_numpy(dtype=float)
+        mcse_col = f"{column}_mcse"
+        renderers = [fig.line(n, y, line_color=colours[name], line_width=2),
+                     fig.scatter(n, y, color=colours[name], size=5)]
+        if mcse_col in rows:
+            m = rows[mcse_col].to_numpy(dtype=float)
+            renderers.append(fig.varea(x=n, y1=y - 2 * m, y2=y + 2 * m, fill_color=colours[name], fill_alpha=0.15))
+        items.append(LegendItem(label=name, renderers=renderers))
+    if zero_line:
+        fig.add_layout(Span(location=0, dimension="width", line_color="#000000", line_dash="dotted"))
+    fig.add_layout(Legend(items=items, label_text_font_size=_FONT, border_line_color=None, spacing=2,
+                          location="top_right"))
+    return fig
+
+
+def separation_figure(also_table: pd.DataFrame, *, width: int = 520):
+    """For ``question.also``: each further effect's power and the correlation between its estimate and the
+    exposure's, against n (one line per strategy and variable)."""
+    names = list(dict.fromkeys(also_table["strategy"]))
+    colours = strategy_colours(names)
+    var_col = next((c for c in ("variable", "also", "name") if c in also_table), None)
+    power_col = next((c for c in ("power", "also_power") if c in also_table), None)
+    corr_col = next((c for c in ("correlation", "corr", "estimate_correlation") if c in also_table), None)
+    figs = []
+    for col, title, label in ((power_col, "Power for the further effect", "power"),
+                              (corr_col, "Correlation of the two estimates", "correlation across replicates")):
+        if col is None:
+            continue
+        fig = figure(width=width, height=300, title=title, x_axis_type="log", x_axis_label="sample size n",
+                     y_axis_label=label, tools="save", toolbar_location=None)
+        _style(fig)
+        items = []
+        groups = also_table.groupby(["strategy", var_col]) if var_col else also_table.groupby(["strategy"])
+        for key, rows in groups:
+            strategy = key[0] if isinstance(key, tuple) else key
+            rows = rows.sort_values("n")
+            colour = colours.get(strategy, "#999999")
+            r = [fig.line(rows["n"].to_numpy(float), rows[col].to_numpy(float), line_color=colour, line_width=2),
+                 fig.scatter(rows["n"].to_numpy(float), rows[col].to_numpy(float), color=colour, size=5)]
+            items.append(LegendItem(label=" / ".join(str(k) for k in (key if isinstance(key, tuple) else (key,))),
+                                    renderers=r))
+        fig.add_layout(Legend(items=items, label_text_font_size=_FONT, border_line_color=None, spacing=2))
+        figs.append(fig)
+    return gridplot(figs, ncols=2, toolbar_location=None) if figs else None
+
+
+# ------------------------------------------------------------------------------------------------------
+# One dataset
+# ------------------------------------------------------------------------------------------------------
+def _is_binary(values: pd.Series) -> bool:
+    return set(np.unique(values.dropna())) <= {0.0, 1.0}
+
+
+def dataset_scatter(data: pd.DataFrame, exposure: str, outcome: str, covariate: str | None, *,
+                    width: int = 560, seed: int = 0):
+    """The outcome against the exposure in one simulated dataset, points coloured by ``covariate``.
+
+    A binary exposure is jittered sideways so that the points do not sit on two lines.
+    """
+    x = data[exposure].to_numpy(dtype=float)
+    if _is_binary(data[exposure]):
+        x = x + np.random.default_rng(seed).uniform(-0.18, 0.18, size=x.size)
+    y = data[outcome].to_numpy(dtype=float)
+    if _is_binary(data[outcome]):
+        y = y + np.random.default_rng(seed + 1).uniform(-0.08, 0.08, size=y.size)
+    source = {"x": x, "y": y}
+    title = f"{outcome} against {exposure}" + (f", coloured by {covariate}" if covariate else "")
+    fig = figure(width=width, height=400, title=title, x_axis_label=exposure, y_axis_label=outcome,
+                 tools="save,reset,box_zoom", toolbar_location=None)
+    _style(fig)
+    if covariate:
+        c = data[covariate].to_numpy(dtype=float)
+        source["c"] = c
+        if _is_binary(data[covariate]):
+            source["colour"] = np.where(c > 0.5, "#D55E00", "#0072B2")
+            src = ColumnDataSource(source)
+            for value, colour in ((0, "#0072B2"), (1, "#D55E00")):
+                view_src = ColumnDataSource({k: np.asarray(v)[c == value] for k, v in source.items()})
+                fig.scatter("x", "y", source=view_src, color=colour, size=5, alpha=0.6,
+                            legend_label=f"{covariate} = {value}")
+            fig.legend.label_text_font_size = _FONT
+            fig.legend.location = "top_left"
+            del src
+        else:
+            mapper = LinearColorMapper(palette=Cividis256, low=float(np.nanmin(c)), high=float(np.nanmax(c)))
+            fig.scatter("x", "y", source=ColumnDataSource(source), size=5, alpha=0.7,
+                        color={"field": "c", "transform": mapper})
+            fig.add_layout(ColorBar(color_mapper=mapper, title=covariate, width=10, title_text_font_size=_FONT,
+                                    major_label_text_font_size=_FONT), "right")
+    else:
+        fig.scatter("x", "y", source=ColumnDataSource(source), size=5, alpha=0.6, color="#0072B2")
+    return fig
+
+
+def dataset_groups(data: pd.DataFrame, exposure: str, covariate: str, *, width: int = 460):
+    """The covariate in each exposure group: box plots by exposure value (binary exposure) or by exposure
+    quintile; for a binary covariate, the share of 1s per group."""
+    if _is_binary(data[exposure]):
+        groups = np.where(data[exposure].to_numpy() > 0.5, f"{exposure} = 1", f"{exposure} = 0")
+        order = [f"{exposure} = 0", f"{exposure} = 1"]
+        x_label = exposure
+    else:
+        codes = pd.qcut(data[exposure], 5, labels=False, duplicates="drop").to_numpy()
+        groups = np.array([f"Q{int(c) + 1}" for c in codes])
+        order = sorted(set(groups))
+        x_label = f"{exposure} quintile (Q1 lowest)"
+    values = data[covariate].to_numpy(dtype=float)
+    binary = _is_binary(data[covariate])
+    title = (f"Share with {covariate} = 1 in each group" if binary else f"{covariate} in each group")
+    fig = figure(width=width, height=400, x_range=order, title=title, x_axis_label=x_label,
+                 y_axis_label=(f"share {covariate} = 1" if binary else covariate), tools="save",
+                 toolbar_location=None)
+    _style(fig)
+    if binary:
+        shares = [float(values[groups == g].mean()) for g in order]
+        fig.vbar(x=order, top=shares, width=0.6, fill_color="#56B4E9", line_color="#0072B2")
+        fig.y_range.start = 0
+        return fig
+    stats = {k: [] for k in ("g", "q1", "q2", "q3", "lo", "hi")}
+    for g in order:
+        v = values[groups == g]
+        q1, q2, q3 = np.quantile(v, [0.25, 0.5, 0.75])
+        iqr = q3 - q1
+        stats["g"].append(g)
+        stats["q1"].append(q1)
+        stats["q2"].append(q2)
+        stats["q3"].append(q3)
+        stats["lo"].append(max(v.min(), q1 - 1.5 * iqr))
+        stats["hi"].append(min(v.max(), q3 + 1.5 * iqr))
+    src = ColumnDataSource(stats)
+    fig.segment("g", "lo", "g", "q1", source=src, line_color="#333333")
+    fig.segment("g", "q3", "g", "hi", source=src, line_color="#333333")
+    fig.vbar("g", 0.6, "q1", "q3", source=src, fill_color="#56B4E9", line_color="#0072B2", fill_alpha=0.8)
+    fig.rect("g", "q2", 0.6, 0.0001, source=src, line_color="#000000", line_width=2)
+    return fig

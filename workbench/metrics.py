@@ -1,0 +1,191 @@
+"""Performance measures of a simulation study and their Monte Carlo standard errors.
+
+For each strategy, with ``R`` successful replicates (failed ones, NaN, are excluded and counted), estimates
+``theta_i``, model SEs ``s_i``, true value ``theta`` and mean estimate ``theta_bar``, Morris, White & Crowther
+(2019, Table 6) define:
+
+==========================  =============================================  ===================================================
+measure                     estimate                                       Monte Carlo SE
+==========================  =============================================  ===================================================
+bias                        ``theta_bar - theta``                          ``emp_se / sqrt(R)``
+empirical SE                ``sqrt(sum (theta_i - theta_bar)^2 / (R-1))``  ``emp_se / sqrt(2 (R - 1))``
+mean squared error          ``sum (theta_i - theta)^2 / R``                ``sqrt(sum ((theta_i - theta)^2 - mse)^2 / (R (R-1)))``
+model SE                    ``sqrt(mean s_i^2)``                           ``sqrt(Var(s_i^2) / (4 R model_se^2))``
+relative error in model SE  ``100 (model_se / emp_se - 1)``                ``100 (model_se / emp_se) sqrt(Var(s_i^2) / (4 R model_se^4) + 1 / (2 (R - 1)))``
+coverage                    ``mean 1(low_i <= theta <= high_i)``           ``sqrt(cov (1 - cov) / R)``
+bias-eliminated coverage    ``mean 1(low_i <= theta_bar <= high_i)``       ``sqrt(cov (1 - cov) / R)``
+power (rejection)           ``mean 1(p_i <= alpha)``                       ``sqrt(pow (1 - pow) / R)``
+==========================  =============================================  ===================================================
+
+``Var(s_i^2)`` is the sample variance (divisor ``R - 1``) of the squared SEs. Beyond Table 6:
+
+* relative bias (%) is ``100 bias / theta`` with MCSE ``100 bias_mcse / |theta|`` (NaN when ``theta`` is 0);
+* RMSE is ``sqrt(mse)`` with MCSE ``mse_mcse / (2 rmse)`` by the delta method;
+* when the true value is itself estimated by simulation with Monte Carlo error ``truth_mcse`` (independent of
+  the replicates), the bias MCSE is ``sqrt(emp_se^2 / R + truth_mcse^2)``: the two errors are added in
+  quadrature. The relative-bias MCSE follows from it; coverage and the other measures ignore ``truth_mcse``,
+  which is tiny beside their own error when the truth uses at least 10^6 draws.
+
+References
+----------
+1. Morris T.P., White I.R., Crowther M.J. (2019). Using simulation studies to evaluate statistical methods.
+   Statistics in Medicine 38(11):2074-2102, Table 6.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["MEASURES", "performance"]
+
+MEASURES = (
+    "mean",
+    "bias",
+    "bias_mcse",
+    "relative_bias",
+    "relative_bias_mcse",
+    "emp_se",
+    "emp_se_mcse",
+    "model_se",
+    "model_se_mcse",
+    "relative_error_model_se",
+    "relative_error_model_se_mcse",
+    "mse",
+    "mse_mcse",
+    "rmse",
+    "rmse_mcse",
+    "coverage",
+    "coverage_mcse",
+    "be_coverage",
+    "be_coverage_mcse",
+    "power",
+    "power_mcse",
+    "failures",
+    "n_ok",
+)
+
+
+def _proportion(hit: np.ndarray, ok: np.ndarray, count: np.ndarray):
+    with np.errstate(invalid="ignore", divide="ignore"):
+        share = np.where(ok, hit, False).sum(axis=0) / count
+        return share, np.sqrt(share * (1.0 - share) / count)
+
+
+def performance(
+    estimate,
+    se,
+    ci_low,
+    ci_high,
+    p_value,
+    truth,
+    alpha: float,
+    truth_mcse=0.0,
+) -> dict[str, np.ndarray]:
+    """Morris et al. (2019) Table 6 performance measures with MCSEs, for every strategy at once.
+
+    Parameters
+    ----------
+    estimate, se, ci_low, ci_high, p_value : array_like of shape (R, S)
+        One column per strategy; a replicate with a NaN estimate counts as a failure and is left out of
+        every measure of that strategy.
+    truth : float or array_like of shape (S,)
+        The true value each strategy is scored against.
+    alpha : float
+        Level of the test behind ``power``: a replicate rejects when ``p_value <= alpha``.
+    truth_mcse : float or array_like of shape (S,)
+        Monte Carlo SE of ``truth`` (0 for a closed form); added in quadrature to ``bias_mcse``.
+
+    Returns
+    -------
+    dict of str to ndarray of shape (S,)
+        Keys in :data:`MEASURES`. ``relative_bias`` and ``relative_error_model_se`` are in percent.
+        ``failures`` counts NaN replicates, ``n_ok`` the rest. Measures that need two successes are NaN
+        with fewer.
+
+    References
+    ----------
+    Morris T.P., White I.R., Crowther M.J. (2019). Using simulation studies to evaluate statistical methods.
+    Statistics in Medicine 38(11):2074-2102, Table 6.
+
+    Examples
+    --------
+    >>> est = np.array([[0.9], [1.1], [1.3], [0.7]])
+    >>> se = np.full((4, 1), 0.2)
+    >>> m = performance(est, se, est - 0.4, est + 0.4, np.full((4, 1), 0.01), 1.0, 0.05)
+    >>> float(m["bias"][0]), round(float(m["emp_se"][0]), 4), float(m["coverage"][0])
+    (0.0, 0.2582, 1.0)
+    """
+    estimate = np.asarray(estimate, dtype=float)
+    if estimate.ndim == 1:
+        estimate = estimate[:, None]
+    shape = estimate.shape
+    se = np.broadcast_to(np.asarray(se, dtype=float).reshape(shape), shape)
+    ci_low = np.asarray(ci_low, dtype=float).reshape(shape)
+    ci_high = np.asarray(ci_high, dtype=float).reshape(shape)
+    p_value = np.asarray(p_value, dtype=float).reshape(shape)
+    S = shape[1]
+    theta = np.broadcast_to(np.asarray(truth, dtype=float), (S,)).copy()
+    theta_mcse = np.broadcast_to(np.asarray(truth_mcse, dtype=float), (S,)).copy()
+
+    ok = ~np.isnan(estimate)
+    count = ok.sum(axis=0).astype(float)
+    failures = (~ok).sum(axis=0)
+    est0 = np.where(ok, estimate, 0.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mean = est0.sum(axis=0) / count
+        dev = np.where(ok, estimate - mean, 0.0)
+        emp_var = (dev**2).sum(axis=0) / (count - 1)
+        emp_se = np.sqrt(emp_var)
+        bias = mean - theta
+        bias_mcse = np.sqrt(emp_var / count + theta_mcse**2)
+        emp_se_mcse = emp_se / np.sqrt(2.0 * (count - 1))
+
+        err2 = np.where(ok, (estimate - theta) ** 2, 0.0)
+        mse = err2.sum(axis=0) / count
+        mse_mcse = np.sqrt((np.where(ok, err2 - mse, 0.0) ** 2).sum(axis=0) / (count * (count - 1)))
+        rmse = np.sqrt(mse)
+        rmse_mcse = mse_mcse / (2.0 * rmse)
+
+        var_i = np.where(ok, se**2, np.nan)
+        mean_var = np.nansum(var_i, axis=0) / count
+        model_se = np.sqrt(mean_var)
+        var_of_var = np.nansum((var_i - mean_var) ** 2, axis=0) / (count - 1)
+        model_se_mcse = np.sqrt(var_of_var / (4.0 * count * mean_var))
+        ratio = model_se / emp_se
+        relative_error = 100.0 * (ratio - 1.0)
+        relative_error_mcse = 100.0 * ratio * np.sqrt(
+            var_of_var / (4.0 * count * mean_var**2) + 1.0 / (2.0 * (count - 1))
+        )
+
+        zero = theta == 0
+        relative_bias = np.where(zero, np.nan, 100.0 * bias / np.where(zero, 1.0, theta))
+        relative_bias_mcse = np.where(zero, np.nan, 100.0 * bias_mcse / np.abs(np.where(zero, 1.0, theta)))
+
+    coverage, coverage_mcse = _proportion((ci_low <= theta) & (theta <= ci_high), ok, count)
+    be_coverage, be_coverage_mcse = _proportion((ci_low <= mean) & (mean <= ci_high), ok, count)
+    power, power_mcse = _proportion(p_value <= alpha, ok, count)
+    return {
+        "mean": mean,
+        "bias": bias,
+        "bias_mcse": bias_mcse,
+        "relative_bias": relative_bias,
+        "relative_bias_mcse": relative_bias_mcse,
+        "emp_se": emp_se,
+        "emp_se_mcse": emp_se_mcse,
+        "model_se": model_se,
+        "model_se_mcse": model_se_mcse,
+        "relative_error_model_se": relative_error,
+        "relative_error_model_se_mcse": relative_error_mcse,
+        "mse": mse,
+        "mse_mcse": mse_mcse,
+        "rmse": rmse,
+        "rmse_mcse": rmse_mcse,
+        "coverage": coverage,
+        "coverage_mcse": coverage_mcse,
+        "be_coverage": be_coverage,
+        "be_coverage_mcse": be_coverage_mcse,
+        "power": power,
+        "power_mcse": power_mcse,
+        "failures": failures,
+        "n_ok": count.astype(int),
+    }
