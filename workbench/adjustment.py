@@ -72,6 +72,7 @@ ROLES = {
     "instrument": "a cause of the exposure that reaches the outcome only through it",
     "outcome_cause": "a cause of the outcome with no path to the exposure",
     "pre_exposure_collider": "a common effect on a non-causal path between exposure and outcome",
+    "proxy_of_confounder": "a consequence of a confounder only: a noisy stand-in for it",
     "unrelated": "no path of consequence to the exposure or the outcome",
 }
 
@@ -259,6 +260,8 @@ def find_roles(scenario: Scenario) -> dict[str, list[tuple[str, str]]]:
     de_x, de_y = nx.descendants(G, x), nx.descendants(G, y)
     an_x, an_y = nx.ancestors(G, x), nx.ancestors(G, y)
     an_y_without_x = nx.ancestors(nx.restricted_view(G, [x], []), y)
+    de_x_not_via_y = nx.descendants(nx.restricted_view(G, [y], []), x)
+    confounders = [c for c in scenario.names if c not in (x, y) and c in an_x and c in an_y_without_x]
     colliders: dict[str, PathInfo] = {}
     for path in _paths(G, x, y):
         if not path.causal:
@@ -285,7 +288,7 @@ def find_roles(scenario: Scenario) -> dict[str, list[tuple[str, str]]]:
                     f"{_arrow_path(G, v, y).split(' -> ', 1)[1]}",
                 )
             )
-        if v in de_x and v in de_y and v not in an_y:
+        if v in de_x_not_via_y and v in de_y and v not in an_y:
             found.append(
                 (
                     "common_effect",
@@ -300,7 +303,7 @@ def find_roles(scenario: Scenario) -> dict[str, list[tuple[str, str]]]:
                     f"{v} is a consequence of {x} ({_arrow_path(G, x, v)}) and does not affect {y}",
                 )
             )
-        if v in de_y and v not in de_x:
+        if v in de_y and v not in de_x_not_via_y:
             found.append(("outcome_descendant", f"{v} is a consequence of {y} ({_arrow_path(G, y, v)})"))
         if v in an_x and v not in an_y_without_x:
             found.append(
@@ -315,6 +318,15 @@ def find_roles(scenario: Scenario) -> dict[str, list[tuple[str, str]]]:
                 (
                     "pre_exposure_collider",
                     f"{v} is a common effect on the non-causal path {colliders[v].text}",
+                )
+            )
+        proxied = [c for c in confounders if c in nx.ancestors(G, v)]
+        if not found and proxied:
+            found.append(
+                (
+                    "proxy_of_confounder",
+                    f"{v} is a consequence of the confounder {proxied[0]} only (a proxy): adjusting for it "
+                    "removes part, not all, of the confounding",
                 )
             )
         if not found:
@@ -363,7 +375,11 @@ def _precision_notes(scenario: Scenario, adjust) -> list[str]:
                 f"{z} causes {x} only: adjusting for it is expected to widen the SE (and to amplify "
                 "any bias left by an unadjusted confounder)"
             )
-        elif "outcome_cause" in names and "confounder" not in names:
+        elif (
+            "outcome_cause" in names
+            and "confounder" not in names
+            and nx.is_d_separator(build_graph(scenario), {z}, {x}, set())
+        ):
             notes.append(f"{z} causes {y} only: adjusting for it is expected to narrow the SE")
     return notes
 

@@ -45,7 +45,7 @@ Examples
 >>> df = draw(sc, 1000, seed=1)
 >>> list(df.columns), df.attrs["latent"]
 (['experience', 'training', 'defects'], [])
->>> abs(df["training"].mean() - 0.4) < 0.05
+>>> bool(abs(df["training"].mean() - 0.4) < 0.05)
 True
 """
 
@@ -118,7 +118,10 @@ def _bare_structure(variables: tuple, arrows: tuple) -> Structure:
     for name in names:
         incoming = [(index[a.source], a.effect) for a in arrows if a.target == name]
         parents.append(
-            (np.array([i for i, _ in incoming], dtype=np.intp), np.array([e for _, e in incoming], dtype=float))
+            (
+                np.array([i for i, _ in incoming], dtype=np.intp),
+                np.array([e for _, e in incoming], dtype=float),
+            )
         )
     indegree = {n: 0 for n in names}
     for a in arrows:
@@ -137,6 +140,10 @@ def _bare_structure(variables: tuple, arrows: tuple) -> Structure:
     intercept = np.array([0.0 if v.type == "binary" else v.baseline for v in variables])
     noise_sd = np.array([0.0 if v.type == "binary" else v.noise_sd for v in variables])
     return Structure(names, tuple(order), tuple(parents), binary, intercept, noise_sd)
+
+
+def _share_gap(a: float, linear: np.ndarray, proportion: float) -> float:
+    return float(special.expit(a + linear).mean()) - proportion
 
 
 @functools.lru_cache(maxsize=64)
@@ -165,7 +172,7 @@ def _structure_cached(variables: tuple, arrows: tuple) -> Structure:
             a = base - (float(linear[0]) if len(idx) else 0.0)
         else:
             lo, hi = base - float(linear.max()) - 1.0, base - float(linear.min()) + 1.0
-            a = optimize.brentq(lambda a: float(special.expit(a + linear).mean()) - p, lo, hi, xtol=1e-12)
+            a = optimize.brentq(_share_gap, lo, hi, args=(linear, p), xtol=1e-12)
         intercept[j] = a
         values[j] = special.ndtr(z[j]) < special.expit(a + linear)
     return Structure(bare.names, bare.order, bare.parents, bare.binary, intercept, bare.noise_sd)
@@ -383,4 +390,6 @@ def draw(scenario: Scenario, n: int, seed=None) -> pd.DataFrame:
 def block_seed(seed, block: int) -> np.random.SeedSequence:
     """The seed sequence of replicate block ``block``: child ``block`` of ``SeedSequence(seed)``."""
     root = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)
-    return np.random.SeedSequence(root.entropy, spawn_key=tuple(root.spawn_key) + (block,), pool_size=root.pool_size)
+    return np.random.SeedSequence(
+        root.entropy, spawn_key=tuple(root.spawn_key) + (block,), pool_size=root.pool_size
+    )

@@ -72,7 +72,9 @@ Examples
 
 from __future__ import annotations
 
+import os
 from collections.abc import Sequence
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
@@ -95,6 +97,7 @@ _MOVING = 1e-3  # last step still shifts the linear predictor by more than this:
 _CERTIFICATE_SLACK = 1e-6  # relative slack in the separation inequalities
 _SINGULAR = 1e-12  # smallest eigenvalue of the unit-diagonal information matrix below this: singular
 _HALVINGS = 30
+_EXTREME_ETA = 18.0  # |eta| beyond this puts a fitted probability within about 1.5e-8 of 0 or 1
 
 
 @dataclass(frozen=True)
@@ -191,33 +194,17 @@ def _sigmoid(eta: np.ndarray, out: np.ndarray) -> np.ndarray:
     return np.reciprocal(out, out=out)
 
 
-class _Information:
-    """Batched information matrices ``X' diag(w) X`` of shape (R, p, p) from the transposed design.
-
-    For few columns the products of column pairs are formed once, so each information matrix costs one
-    batched matrix-vector product per iteration; otherwise a batched matrix product.
-    """
-
-    def __init__(self, Xt: np.ndarray):
-        R, p, n = Xt.shape
-        self.p = p
-        self.upper = np.triu_indices(p)
-        self.pairs = None
-        if p <= 8:
-            pairs = np.empty((R, len(self.upper[0]), n))
-            for k, (a, b) in enumerate(zip(*self.upper, strict=True)):
-                np.multiply(Xt[:, a, :], Xt[:, b, :], out=pairs[:, k, :])
-            self.pairs = pairs
-
-    def __call__(self, Xt: np.ndarray, w: np.ndarray, rows=None) -> np.ndarray:
-        if self.pairs is not None:
-            pairs = self.pairs if rows is None else self.pairs[rows]
-            values = np.matmul(pairs, w[..., None])[..., 0]
-            info = np.empty((w.shape[0], self.p, self.p))
-            info[:, self.upper[0], self.upper[1]] = values
-            info[:, self.upper[1], self.upper[0]] = values
-            return info
-        return np.matmul(Xt * w[:, None, :], np.swapaxes(Xt, 1, 2))
+def _score_and_information(Xt, y, mu, residual, buffer):
+    """Score ``X'(y - mu)`` (R, p) and information ``X' diag(mu (1 - mu)) X`` (R, p, p) from the transposed
+    design (R, p, n); ``mu`` is overwritten with the weights, ``residual`` (R, n) and ``buffer`` (R, p, n)
+    are work space."""
+    np.subtract(y, mu, out=residual)
+    score = np.matmul(Xt, residual[..., None])[..., 0]
+    np.subtract(1.0, mu, out=residual)
+    weights = mu
+    weights *= residual
+    np.multiply(Xt, weights[:, None, :], out=buffer)
+    return score, np.matmul(buffer, np.swapaxes(Xt, 1, 2))
 
 
 def _equilibrate(info: np.ndarray, check: bool = True):
@@ -239,19 +226,154 @@ def _equilibrate(info: np.ndarray, check: bool = True):
     return scaled, scale, singular
 
 
-def _newton_steps(scaled, scale, score, singular, check_done: bool):
-    """Solve the equilibrated Newton systems; fall back to an eigenvalue check when one is singular."""
+def _newton_step(info: np.ndarray, score: np.ndarray, check: bool):
+    """Newton steps ``info^-1 score`` (R, p) via the equilibrated systems, and singular flags (R,).
+
+    Without ``check`` the eigenvalue test is skipped unless a system turns out exactly singular.
+    """
+    scaled, scale, singular = _equilibrate(info, check=check)
     try:
-        step = scale * np.linalg.solve(scaled, (scale * score)[..., None])[..., 0]
+        solved = np.linalg.solve(scaled, (scale * score)[..., None])[..., 0]
     except np.linalg.LinAlgError:
-        if check_done:
-            raise
-        return None
+        scaled, scale, singular = _equilibrate(info, check=True)
+        solved = np.linalg.solve(scaled, (scale * score)[..., None])[..., 0]
+    step = scale * solved
     step[singular] = 0.0
-    return step
+    return step, singular
 
 
-def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10) -> LogitFit:
+def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> LogitFit:
+    """:func:`fit_logit_batch` on one block of replicates, single-threaded."""
+    R, n, p = X.shape
+    Xt = np.ascontiguousarray(np.swapaxes(X, 1, 2))  # (R, p, n): the rows of each column contiguous
+    with np.errstate(over="ignore", invalid="ignore"):
+        finite = np.isfinite(np.sum(Xt, axis=(1, 2))) & np.isfinite(np.sum(y, axis=1))  # one pass
+    if not finite.all():  # a sum can overflow with finite entries: look again element by element
+        finite = np.all(np.isfinite(Xt), axis=(1, 2)) & np.all(np.isfinite(y), axis=1)
+    binary = np.all((y == 0) | (y == 1), axis=1)
+    usable = finite & binary
+    if not usable.all():
+        Xt[~usable] = 0.0
+        y = np.where(usable[:, None], y, 0.0)
+
+    beta = np.zeros((R, p))
+    last_step = np.zeros((R, p))
+    eta = np.zeros((R, n))
+    mu = np.empty((R, n))
+    shift = np.empty((R, n))
+    residual = np.empty((R, n))
+    buffer = np.empty((R, p, n))
+    column_size = np.max(np.abs(Xt), axis=2)  # (R, p): bounds |x' step| <= |step| . column_size
+    loglik = np.full(R, -n * np.log(2.0))  # at the current iterate (known exactly at the start)
+    iterations = np.zeros(R, dtype=int)
+    stopped = np.zeros(R, dtype=bool)  # stopping rule met
+    singular = np.zeros(R, dtype=bool)
+    active = usable.copy()
+
+    for it in range(max_iter):
+        idx = np.flatnonzero(active)
+        if idx.size == 0:
+            break
+        # Work on every replicate in place until the stopped ones are the majority, then on copies.
+        whole = 2 * idx.size >= R
+        if whole:
+            rows, work = np.arange(R), active.copy()
+            Xt_a, y_a, eta_a, mu_a, shift_a, res_a, buf_a = Xt, y, eta, mu, shift, residual, buffer
+        else:
+            rows, work = idx, np.ones(idx.size, dtype=bool)
+            Xt_a, y_a, eta_a = Xt[idx], y[idx], eta[idx]
+            mu_a, shift_a, res_a = np.empty_like(eta_a), np.empty_like(eta_a), np.empty_like(eta_a)
+            buf_a = np.empty_like(Xt_a)
+
+        score, info = _score_and_information(Xt_a, y_a, _sigmoid(eta_a, mu_a), res_a, buf_a)
+        step, bad = _newton_step(info, score, check=it == 0)
+        bad &= work
+        step[~work] = 0.0
+        decrement = np.sum(score * step, axis=1)
+        np.matmul(step[:, None, :], Xt_a, out=shift_a[:, None, :])
+
+        # A large move of the linear predictor may overshoot: halve the step while the log-likelihood falls.
+        bound = np.sum(np.abs(step) * column_size[rows], axis=1)
+        big = np.flatnonzero(work & ~bad & (bound > 1.0))
+        new_loglik = np.full(rows.size, np.nan)
+        if big.size:
+            old = loglik[rows[big]]
+            unknown = np.isnan(old)
+            if unknown.any():
+                old[unknown] = _softplus_sum(eta_a[big[unknown]], y_a[big[unknown]])
+            factor = np.ones(big.size)
+            if 2 * big.size >= rows.size:  # most rows: no copies, evaluate all at the full step
+                new = _softplus_sum(eta_a + shift_a, y_a)[big]
+            else:
+                new = _softplus_sum(eta_a[big] + shift_a[big], y_a[big])
+            for _h in range(_HALVINGS):
+                worse = ~(new >= old - 1e-12 * (1.0 + np.abs(old)))
+                if not worse.any():
+                    break
+                factor[worse] *= 0.5
+                trial = big[worse]
+                new[worse] = _softplus_sum(eta_a[trial] + factor[worse, None] * shift_a[trial], y_a[trial])
+            new_loglik[big] = new
+            step[big] *= factor[:, None]
+            shift_a[big] *= factor[:, None]
+
+        keep = work & ~bad
+        target = rows[keep]
+        beta[target] += step[keep]
+        last_step[target] = step[keep]
+        if whole:
+            shift_a[~keep] = 0.0
+            eta += shift_a
+        else:
+            eta[target] = eta_a[keep] + shift_a[keep]
+        loglik[target] = new_loglik[keep]  # NaN (not yet known) unless the halving check computed it
+        iterations[target] += 1
+        singular[rows[bad]] = True
+        done = rows[keep & (decrement / 2.0 <= tol)]
+        stopped[done] = True
+        active[done] = False
+        active[rows[bad]] = False
+
+    # Information at the returned coefficients, for the covariance.
+    _sigmoid(eta, mu)
+    # A fitted probability within 1e-8 of 0 or 1 needs |eta| > 18.4: only such replicates can be separated.
+    suspect = np.flatnonzero(usable & (np.maximum(eta.max(axis=1), -eta.min(axis=1)) > _EXTREME_ETA))
+    perfect = np.abs(y[suspect] - mu[suspect]) < PERFECT_FIT_TOLERANCE
+    _, info = _score_and_information(Xt, y, mu, residual, buffer)
+    scaled, scale, bad_final = _equilibrate(info, check=True)
+    cov = np.linalg.inv(scaled) * scale[:, :, None] * scale[:, None, :]
+
+    # Separation: certificate check on the last Newton step (module notes).
+    moves = np.matmul(last_step[suspect, None, :], Xt[suspect])[:, 0, :]
+    largest = np.maximum(moves.max(axis=1, initial=0.0), -moves.min(axis=1, initial=0.0))
+    margin = np.min((2.0 * y[suspect] - 1.0) * moves, axis=1, initial=np.inf)
+    certified = (largest > _MOVING) & (margin >= -_CERTIFICATE_SLACK * largest) & np.any(perfect, axis=1)
+    separated = np.zeros(R, dtype=bool)
+    complete = np.zeros(R, dtype=bool)
+    separated[suspect] = certified
+    complete[suspect] = certified & np.all(perfect, axis=1)
+
+    failure = np.full(R, "", dtype=object)
+    failure[usable & ~stopped] = f"did not converge in {max_iter} iterations"
+    failure[usable & (singular | bad_final)] = "singular information matrix"
+    failure[separated] = "quasi-complete separation"
+    failure[complete] = "complete separation"
+    failure[finite & ~binary] = "outcome values other than 0 and 1"
+    failure[~finite] = "non-finite values in the data"
+    failed = failure != ""
+
+    beta[failed] = np.nan
+    cov[failed] = np.nan
+    return LogitFit(
+        coef=beta,
+        cov=cov,
+        converged=stopped & ~failed,
+        failure=failure,
+        iterations=iterations,
+    )
+
+
+def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10, workers: int | None = None) -> LogitFit:
     """Fit a logistic regression to each of R replicates at once (Newton-Raphson, batched).
 
     Parameters
@@ -264,6 +386,11 @@ def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10) -> LogitFit
         Newton iterations at most.
     tol : float, default 1e-10
         Stop when half the Newton decrement (the predicted rise of the log-likelihood) is at most this.
+    workers : int or None, default None
+        Threads, each fitting a contiguous block of replicates (NumPy releases the interpreter lock in its
+        array work). None uses up to 4, as many as there are processors, when there are at least 256
+        replicates per thread; pass 1 when the caller runs its own parallel workers. The results do not
+        depend on it.
 
     Returns
     -------
@@ -272,11 +399,11 @@ def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10) -> LogitFit
 
     Notes
     -----
-    Cost per iteration is O(R n p^2) in batched matrix-vector products; replicates that have stopped are left
-    out of later iterations once they are the majority. Working memory is about ``p (p + 1) / 2 + p + 6``
-    arrays of shape (R, n) (for p <= 8; beyond, about ``2 p + 6``), so callers should chunk the replicates to
-    bound memory. The separation rule and the failure reasons are described in the module notes. Nothing is
-    raised for data problems; failed replicates get NaN and a reason.
+    Cost per iteration is O(R n p^2) in batched matrix products; replicates that have stopped are left out of
+    later iterations once they are the majority. Working memory is about ``2 p + 8`` arrays of shape (R, n),
+    so callers should chunk the replicates to bound memory. The separation rule and the failure reasons are
+    described in the module notes. Nothing is raised for data problems; failed replicates get NaN and a
+    reason.
 
     References
     ----------
@@ -302,114 +429,24 @@ def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10) -> LogitFit
         raise SimulationError(
             f"fit_logit_batch: X must have shape (R, n, p) and y shape (R, n); got {X.shape} and {y.shape}"
         )
-    R, n, p = X.shape
-    max_iter = int(max_iter)
-
-    finite = np.all(np.isfinite(X), axis=(1, 2)) & np.all(np.isfinite(y), axis=1)
-    binary = np.all((y == 0) | (y == 1), axis=1)
-    usable = finite & binary
-    Xt = np.ascontiguousarray(np.swapaxes(X, 1, 2))  # (R, p, n): rows of each column contiguous
-    if not usable.all():
-        Xt[~usable] = 0.0
-        y = np.where(usable[:, None], y, 0.0)
-    information = _Information(Xt)
-
-    beta = np.zeros((R, p))
-    last_step = np.zeros((R, p))
-    eta = np.zeros((R, n))
-    mu = np.empty((R, n))
-    iterations = np.zeros(R, dtype=int)
-    stopped = np.zeros(R, dtype=bool)  # stopping rule met
-    singular = np.zeros(R, dtype=bool)
-    active = usable.copy()
-
-    for it in range(max_iter):
-        idx = np.flatnonzero(active)
-        if idx.size == 0:
-            break
-        # Work on every replicate (views, no copies) until the stopped ones are the majority.
-        rows = idx if 2 * idx.size < R else None
-        Xt_a = Xt if rows is None else Xt[rows]
-        y_a = y if rows is None else y[rows]
-        eta_a = eta if rows is None else eta[rows]
-        mu_a = _sigmoid(eta_a, mu if rows is None else np.empty_like(eta_a))
-        work = active if rows is None else np.ones(idx.size, dtype=bool)
-
-        score = np.matmul(Xt_a, (y_a - mu_a)[..., None])[..., 0]
-        mu_a *= 1.0 - mu_a  # now the weights mu (1 - mu)
-        info = information(Xt_a, mu_a, rows)
-        scaled, scale, bad = _equilibrate(info, check=it == 0)
-        step = _newton_steps(scaled, scale, score, bad, check_done=it == 0)
-        if step is None:
-            scaled, scale, bad = _equilibrate(info, check=True)
-            step = _newton_steps(scaled, scale, score, bad, check_done=True)
-        bad &= work
-        decrement = np.sum(score * step, axis=1)
-        shift = np.matmul(step[:, None, :], Xt_a)[:, 0, :]
-
-        # A large move of the linear predictor may overshoot: halve the step while the log-likelihood falls.
-        big = np.flatnonzero(work & ~bad & (np.max(np.abs(shift), axis=1) > 1.0))
-        if big.size:
-            old = _softplus_sum(eta_a[big], y_a[big])
-            factor = np.ones(big.size)
-            for _h in range(_HALVINGS):
-                new = _softplus_sum(eta_a[big] + factor[:, None] * shift[big], y_a[big])
-                worse = ~(new >= old - 1e-12 * (1.0 + np.abs(old)))
-                if not worse.any():
-                    break
-                factor[worse] *= 0.5
-            step[big] *= factor[:, None]
-            shift[big] *= factor[:, None]
-
-        keep = work & ~bad
-        target = np.flatnonzero(keep) if rows is None else idx[keep]
-        beta[target] += step[keep]
-        last_step[target] = step[keep]
-        if rows is None:
-            eta[keep] += shift[keep]
-        else:
-            eta[target] = eta_a[keep] + shift[keep]
-        iterations[target] += 1
-        bad_rows = np.flatnonzero(bad) if rows is None else idx[bad]
-        singular[bad_rows] = True
-        done = keep & (decrement / 2.0 <= tol)
-        done_rows = np.flatnonzero(done) if rows is None else idx[done]
-        stopped[done_rows] = True
-        active[done_rows] = False
-        active[bad_rows] = False
-
-    # Information at the returned coefficients, for the covariance.
-    _sigmoid(eta, mu)
-    perfect = np.abs(y - mu) < PERFECT_FIT_TOLERANCE
-    scaled, scale, bad_final = _equilibrate(information(Xt, mu * (1.0 - mu)), check=True)
-    cov = np.linalg.inv(scaled) * scale[:, :, None] * scale[:, None, :]
-
-    # Separation: certificate check on the last Newton step (module notes).
-    shift = np.matmul(last_step[:, None, :], Xt)[:, 0, :]
-    largest = np.max(np.abs(shift), axis=1)
-    margin = np.min((2.0 * y - 1.0) * shift, axis=1)
-    separated = (
-        usable & (largest > _MOVING) & (margin >= -_CERTIFICATE_SLACK * largest) & np.any(perfect, axis=1)
-    )
-    complete = separated & np.all(perfect, axis=1)
-
-    failure = np.full(R, "", dtype=object)
-    failure[usable & ~stopped] = f"did not converge in {max_iter} iterations"
-    failure[usable & (singular | bad_final)] = "singular information matrix"
-    failure[separated] = "quasi-complete separation"
-    failure[complete] = "complete separation"
-    failure[finite & ~binary] = "outcome values other than 0 and 1"
-    failure[~finite] = "non-finite values in the data"
-    failed = failure != ""
-
-    beta[failed] = np.nan
-    cov[failed] = np.nan
+    if int(max_iter) < 1:
+        raise SimulationError(f"fit_logit_batch: max_iter must be at least 1, got {max_iter}")
+    R = X.shape[0]
+    if workers is None:
+        workers = min(4, os.cpu_count() or 1, max(1, R // 256))
+    workers = max(1, min(int(workers), R))
+    if workers == 1:
+        return _fit_block(X, y, int(max_iter), float(tol))
+    bounds = np.linspace(0, R, workers + 1).astype(int)
+    blocks = [slice(a, b) for a, b in zip(bounds[:-1], bounds[1:], strict=True)]
+    with ThreadPoolExecutor(max_workers=workers) as pool:
+        parts = list(pool.map(lambda s: _fit_block(X[s], y[s], int(max_iter), float(tol)), blocks))
     return LogitFit(
-        coef=beta,
-        cov=cov,
-        converged=stopped & ~failed,
-        failure=failure,
-        iterations=iterations,
+        coef=np.concatenate([f.coef for f in parts]),
+        cov=np.concatenate([f.cov for f in parts]),
+        converged=np.concatenate([f.converged for f in parts]),
+        failure=np.concatenate([f.failure for f in parts]),
+        iterations=np.concatenate([f.iterations for f in parts]),
     )
 
 

@@ -4,18 +4,16 @@ For each strategy, with ``R`` successful replicates (failed ones, NaN, are exclu
 ``theta_i``, model SEs ``s_i``, true value ``theta`` and mean estimate ``theta_bar``, Morris, White & Crowther
 (2019, Table 6) define:
 
-==========================  =============================================  ===================================================
-measure                     estimate                                       Monte Carlo SE
-==========================  =============================================  ===================================================
-bias                        ``theta_bar - theta``                          ``emp_se / sqrt(R)``
-empirical SE                ``sqrt(sum (theta_i - theta_bar)^2 / (R-1))``  ``emp_se / sqrt(2 (R - 1))``
-mean squared error          ``sum (theta_i - theta)^2 / R``                ``sqrt(sum ((theta_i - theta)^2 - mse)^2 / (R (R-1)))``
-model SE                    ``sqrt(mean s_i^2)``                           ``sqrt(Var(s_i^2) / (4 R model_se^2))``
-relative error in model SE  ``100 (model_se / emp_se - 1)``                ``100 (model_se / emp_se) sqrt(Var(s_i^2) / (4 R model_se^4) + 1 / (2 (R - 1)))``
-coverage                    ``mean 1(low_i <= theta <= high_i)``           ``sqrt(cov (1 - cov) / R)``
-bias-eliminated coverage    ``mean 1(low_i <= theta_bar <= high_i)``       ``sqrt(cov (1 - cov) / R)``
-power (rejection)           ``mean 1(p_i <= alpha)``                       ``sqrt(pow (1 - pow) / R)``
-==========================  =============================================  ===================================================
+* bias ``theta_bar - theta``; MCSE ``emp_se / sqrt(R)``;
+* empirical SE ``sqrt(sum (theta_i - theta_bar)^2 / (R - 1))``; MCSE ``emp_se / sqrt(2 (R - 1))``;
+* mean squared error ``mse = sum (theta_i - theta)^2 / R``;
+  MCSE ``sqrt(sum ((theta_i - theta)^2 - mse)^2 / (R (R - 1)))``;
+* model SE ``sqrt(mean s_i^2)``; MCSE ``sqrt(Var(s_i^2) / (4 R model_se^2))``;
+* relative error in the model SE ``100 (model_se / emp_se - 1)``;
+  MCSE ``100 (model_se / emp_se) sqrt(Var(s_i^2) / (4 R model_se^4) + 1 / (2 (R - 1)))``;
+* coverage ``mean 1(low_i <= theta <= high_i)``; MCSE ``sqrt(coverage (1 - coverage) / R)``;
+* bias-eliminated coverage ``mean 1(low_i <= theta_bar <= high_i)``; MCSE of the same form;
+* power (rejection) ``mean 1(p_i <= alpha)``; MCSE ``sqrt(power (1 - power) / R)``.
 
 ``Var(s_i^2)`` is the sample variance (divisor ``R - 1``) of the squared SEs. Beyond Table 6:
 
@@ -153,8 +151,8 @@ def performance(
         model_se_mcse = np.sqrt(var_of_var / (4.0 * count * mean_var))
         ratio = model_se / emp_se
         relative_error = 100.0 * (ratio - 1.0)
-        relative_error_mcse = 100.0 * ratio * np.sqrt(
-            var_of_var / (4.0 * count * mean_var**2) + 1.0 / (2.0 * (count - 1))
+        relative_error_mcse = (
+            100.0 * ratio * np.sqrt(var_of_var / (4.0 * count * mean_var**2) + 1.0 / (2.0 * (count - 1)))
         )
 
         zero = theta == 0

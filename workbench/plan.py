@@ -41,6 +41,7 @@ from __future__ import annotations
 
 import json
 import math
+import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -51,7 +52,7 @@ import pandas as pd
 from .adjustment import judge
 from .errors import SimulationError
 from .metrics import performance
-from .power import analytic_covariance, ci_halfwidth, find_smallest_n, large_sample
+from .power import analytic_covariance, find_smallest_n, large_sample
 from .scenario import Scenario, write_text_atomically
 from .simulate import run_replicates
 from .truth import true_effect
@@ -154,7 +155,8 @@ class PlanResult:
     truth, truth_mcse : float
         The target effect and its Monte Carlo error (0 for a closed form).
     engine : str
-        The engine that ran (``"exact"`` or ``"raw"``).
+        The engine that ran (``"exact"`` or ``"raw"``; ``"exact, raw"`` when the search went below the sizes
+        the exact engine handles).
     table : DataFrame
         Long, one row per grid size and strategy: ``n, strategy, power, power_mcse, bias, bias_mcse, emp_se,
         model_se, coverage, coverage_mcse, rmse, mean_ci_halfwidth, analytic_power, analytic_se,
@@ -257,7 +259,9 @@ class PlanResult:
         lines.append(shown.to_string(index=False, float_format=lambda v: f"{v:.4g}"))
         lines.append("")
         lines.append("Smallest n")
-        lines.append(_smallest_text(self.smallest_n, ["n_for_power", "n_for_halfwidth", "analytic_n_for_power"]))
+        lines.append(
+            _smallest_text(self.smallest_n, ["n_for_power", "n_for_halfwidth", "analytic_n_for_power"])
+        )
         invalid = self.table.loc[~self.table["valid"].astype(bool), ["strategy", "flag"]].drop_duplicates()
         for _, row in invalid.iterrows():
             lines.append(f"  ! {row['strategy']}: {row['flag']}")
@@ -269,7 +273,9 @@ class PlanResult:
             ]
             lines.append(shown.to_string(index=False, float_format=lambda v: f"{v:.4g}"))
             lines.append("")
-            lines.append(_smallest_text(self.also_smallest_n, ["variable", "n_for_power", "analytic_n_for_power"]))
+            lines.append(
+                _smallest_text(self.also_smallest_n, ["variable", "n_for_power", "analytic_n_for_power"])
+            )
         return "\n".join(lines)
 
 
@@ -305,7 +311,9 @@ def _smallest_text(frame: pd.DataFrame, columns: list[str]) -> str:
                 parts.append(str(value))
             else:
                 parts.append(f"{c} = {'-' if pd.isna(value) else int(value)}")
-        lines.append(f"  {row['strategy']}: " + ", ".join(parts) + (f"  ({row['note']})" if row["note"] else ""))
+        lines.append(
+            f"  {row['strategy']}: " + ", ".join(parts) + (f"  ({row['note']})" if row["note"] else "")
+        )
     return "\n".join(lines)
 
 
@@ -339,7 +347,11 @@ def _check_arguments(scenario, sample_sizes, replicates, target_power, target_ha
     if not _is_int(replicates) or replicates < 2:
         raise SimulationError(f"plan: replicates must be an integer >= 2, got {replicates!r}")
     target_power = study.target_power if target_power is None else target_power
-    if isinstance(target_power, bool) or not isinstance(target_power, int | float) or not 0 < target_power < 1:
+    if (
+        isinstance(target_power, bool)
+        or not isinstance(target_power, int | float)
+        or not 0 < target_power < 1
+    ):
         raise SimulationError(f"plan: target_power must lie strictly between 0 and 1, got {target_power!r}")
     target_halfwidth = study.target_halfwidth if target_halfwidth is None else target_halfwidth
     if target_halfwidth is not None and (
@@ -363,7 +375,9 @@ def _normalise_seed(seed, study_seed: int) -> int:
         return int(seed.integers(0, 2**63 - 1))
     if _is_int(seed) and seed >= 0:
         return int(seed)
-    raise SimulationError(f"plan: seed must be None, a non-negative integer or a numpy Generator, got {seed!r}")
+    raise SimulationError(
+        f"plan: seed must be None, a non-negative integer or a numpy Generator, got {seed!r}"
+    )
 
 
 # --------------------------------------------------------------------------------------------------------
@@ -421,7 +435,6 @@ class _Criterion:
     high: int | None = None
     done: bool = False
     below_grid: bool = False
-    last_value: float = float("nan")
 
 
 def _bracket(criterion: _Criterion, grid: list[int], points: dict[int, _Point], floor: int) -> None:
@@ -457,6 +470,362 @@ def _search_steps(low: int, high: int) -> int:
 # --------------------------------------------------------------------------------------------------------
 # The planner
 # --------------------------------------------------------------------------------------------------------
+class _Planner:
+    """The state of one plan: settings, the graph's verdicts, the closed forms, and every size simulated."""
+
+    def __init__(self, scenario, sizes, replicates, target_power, target_halfwidth, floor, seed, progress):
+        self.scenario = scenario
+        self.sizes = sizes
+        self.replicates = replicates
+        self.target_power = target_power
+        self.target_halfwidth = target_halfwidth
+        self.floor = floor
+        self.seed = seed
+        self.progress = progress
+        self.alpha = float(scenario.study.alpha)
+        q = scenario.question
+        self.exposure = q.exposure
+        self.strategies = list(scenario.strategies)
+        self.names = [s.name for s in self.strategies]
+        self.also = list(q.also)
+        truth = true_effect(scenario)
+        self.truth = float(truth.value)
+        self.truth_mcse = float(truth.mcse)
+        # each strategy's own target (the scale its model estimates), filled in by the engine's first run
+        self.strategy_truth = np.full(len(self.names), self.truth)
+
+        self.verdicts = [judge(scenario, s.adjust) for s in self.strategies]
+        self.valid = np.array([v.valid for v in self.verdicts], dtype=bool)
+        sigma = analytic_covariance(scenario)
+        self.analytic = [
+            large_sample(scenario, s.adjust, sigma=sigma) if sigma is not None else None
+            for s in self.strategies
+        ]
+
+        # 'also' variables: the strategies whose model has them, their truth (the arrow into the outcome) and
+        # whether the model identifies their direct effect (single-door criterion)
+        outcome_parents = scenario.parents(q.outcome)
+        self.also_truth = {
+            v: float(sum(e for source, e in outcome_parents if source == v)) for v in self.also
+        }
+        self.also_pairs: list[tuple[int, int]] = []  # (strategy index, also index)
+        self.also_verdicts: dict[tuple[int, int], Any] = {}
+        self.also_analytic: dict[tuple[int, int], Any] = {}
+        for i, s in enumerate(self.strategies):
+            for a, v in enumerate(self.also):
+                if v in s.adjust:
+                    regressors = (q.exposure, *s.adjust)
+                    self.also_pairs.append((i, a))
+                    self.also_verdicts[i, a] = judge(scenario, regressors, target="direct", exposure=v)
+                    self.also_analytic[i, a] = (
+                        large_sample(scenario, regressors, variable=v, sigma=sigma)
+                        if sigma is not None
+                        else None
+                    )
+
+        self.points: dict[int, _Point] = {}
+        self.runs_planned = len(sizes)
+        self.reported = 0
+
+    # ---- simulation ----------------------------------------------------------------------------------
+    def _report(self, done: int, total: int) -> None:
+        if self.progress is None:
+            return
+        self.reported = done = max(done, self.reported)
+        self.progress(int(done), int(max(total, done)))
+
+    def evaluate(self, n: int) -> _Point:
+        """Simulate ``replicates`` studies of ``n`` units (the plan's one seed) and score every strategy."""
+        if n in self.points:
+            return self.points[n]
+        R = self.replicates
+        base = len(self.points) * R
+
+        def inner(done, total):
+            self._report(base + int(R * done / total if total else R), self.runs_planned * R)
+
+        arrays = run_replicates(
+            self.scenario, n, R, self.seed, alpha=self.alpha, progress=inner if self.progress else None
+        )
+        self.strategy_truth = np.asarray(arrays.truth, dtype=float)
+        measures = performance(
+            arrays.estimate,
+            arrays.se,
+            arrays.ci_low,
+            arrays.ci_high,
+            arrays.p_value,
+            arrays.truth,
+            self.alpha,
+            truth_mcse=arrays.truth_mcse,
+        )
+        also_measures = []
+        also_halfwidth = np.full((len(self.names), len(self.also)), np.nan)
+        correlation = also_halfwidth.copy()
+        if self.also:
+            index = [list(arrays.also_names).index(v) for v in self.also]
+            for a, v in enumerate(self.also):
+                j = index[a]
+                low, high = arrays.also_ci_low[:, :, j], arrays.also_ci_high[:, :, j]
+                also_measures.append(
+                    performance(
+                        arrays.also_estimate[:, :, j],
+                        arrays.also_se[:, :, j],
+                        low,
+                        high,
+                        arrays.also_p_value[:, :, j],
+                        self.also_truth[v],
+                        self.alpha,
+                    )
+                )
+                also_halfwidth[:, a] = _mean_halfwidth(low, high)
+            correlation = _correlation(arrays.estimate, arrays.also_estimate[:, :, index])
+        point = _Point(
+            n,
+            measures,
+            _mean_halfwidth(arrays.ci_low, arrays.ci_high),
+            also_measures,
+            also_halfwidth,
+            correlation,
+            str(arrays.engine),
+        )
+        self.points[n] = point
+        self.runs_planned = max(self.runs_planned, len(self.points))
+        self._report(len(self.points) * R, self.runs_planned * R)
+        return point
+
+    # ---- the search for the smallest n ---------------------------------------------------------------
+    def criteria(self) -> list[_Criterion]:
+        power, width = self.target_power, self.target_halfwidth
+        out = []
+        for i, name in enumerate(self.names):
+            out.append(_Criterion(("power", name), lambda p, i=i: p.measures["power"][i] >= power))
+            if width is not None:
+                out.append(_Criterion(("halfwidth", name), lambda p, i=i: p.halfwidth[i] <= width))
+        for i, a in self.also_pairs:
+            key = ("also_power", self.names[i], self.also[a])
+            out.append(_Criterion(key, lambda p, i=i, a=a: p.also_measures[a]["power"][i] >= power))
+        return out
+
+    def search(self) -> dict[tuple, _Criterion]:
+        """Bracket every criterion on the grid, then bisect all open brackets together."""
+        criteria = self.criteria()
+        for c in criteria:
+            _bracket(c, self.sizes, self.points, self.floor)
+            if not c.done and _narrow_enough(c.low, c.high):
+                c.done = True
+        while open_criteria := [c for c in criteria if not c.done]:
+            self.runs_planned = len(self.points) + sum(_search_steps(c.low, c.high) for c in open_criteria)
+            wanted = set()
+            for c in open_criteria:
+                # a size already simulated inside the bracket (for another criterion) narrows it for free
+                if not any(c.low < n < c.high for n in self.points):
+                    wanted.add((c.low + c.high) // 2)
+            for n in sorted(wanted):
+                self.evaluate(n)
+            for c in open_criteria:
+                middle = (c.low + c.high) / 2
+                n = min((m for m in self.points if c.low < m < c.high), key=lambda m: (abs(m - middle), m))
+                if c.reached(self.points[n]):
+                    c.high = n
+                else:
+                    c.low = n
+                c.done = _narrow_enough(c.low, c.high)
+        done = len(self.points) * self.replicates
+        self._report(done, done)
+        return {c.key: c for c in criteria}
+
+    # ---- tables ----------------------------------------------------------------------------------------
+    def table(self) -> pd.DataFrame:
+        grid = np.array(self.sizes)
+        nan = np.full(len(grid), np.nan)
+        curves = [
+            (ls.power(grid, self.alpha), ls.se(grid), ls.halfwidth(grid, self.alpha)) if ls else (nan,) * 3
+            for ls in self.analytic
+        ]
+        flags = [
+            ""
+            if v.valid
+            else "invalid: " + ("; ".join(v.reasons[:2]) or "the graph says this set is not valid")
+            for v in self.verdicts
+        ]
+        rows = []
+        for g, n in enumerate(self.sizes):
+            p = self.points[n]
+            for i, name in enumerate(self.names):
+                row = {"n": n, "strategy": name}
+                for key in (
+                    "power",
+                    "power_mcse",
+                    "bias",
+                    "bias_mcse",
+                    "emp_se",
+                    "model_se",
+                    "coverage",
+                    "coverage_mcse",
+                    "rmse",
+                ):
+                    row[key] = p.measures[key][i]
+                row["mean_ci_halfwidth"] = p.halfwidth[i]
+                row["analytic_power"], row["analytic_se"], row["analytic_ci_halfwidth"] = (
+                    c[g] for c in curves[i]
+                )
+                row.update(failures=p.measures["failures"][i], valid=bool(self.valid[i]), flag=flags[i])
+                rows.append(row)
+        table = pd.DataFrame(rows, columns=TABLE_COLUMNS)
+        for column in TABLE_COLUMNS[2:-3]:
+            table[column] = table[column].astype(float)
+        table["failures"] = table["failures"].astype(int)
+        return table
+
+    def _analytic_n(self, ls, what: str) -> int | None:
+        if ls is None:
+            return None
+        if what == "power":
+            return _analytic_n(lambda m: ls.power(m, self.alpha) >= self.target_power, ls, self.floor)
+        if self.target_halfwidth is None:
+            return None
+        return _analytic_n(lambda m: ls.halfwidth(m, self.alpha) <= self.target_halfwidth, ls, self.floor)
+
+    def smallest_n(self, found: dict[tuple, _Criterion]) -> pd.DataFrame:
+        largest = self.points[self.sizes[-1]]
+        rows = []
+        for i, name in enumerate(self.names):
+            ls = self.analytic[i]
+            power, width = found["power", name], found.get(("halfwidth", name))
+            truth = self.strategy_truth[i]
+            notes = []
+            if not self.valid[i]:
+                reasons = self.verdicts[i].reasons
+                estimand = ls.estimand if ls else float(largest.measures["mean"][i])
+                notes.append(
+                    f"misleading: '{name}' is not a valid adjustment set ({reasons[0] if reasons else 'see check'}); "
+                    f"its power detects {estimand:.4g}, a biased quantity, not the effect {truth:.4g}"
+                )
+            notes += _criterion_notes(
+                power, "power", self.target_power, largest.measures["power"][i], self.sizes
+            )
+            if width is not None:
+                notes += _criterion_notes(
+                    width, "CI half-width", self.target_halfwidth, largest.halfwidth[i], self.sizes
+                )
+            if self.valid[i] and abs(truth) < 1e-12:
+                notes.append(f"the true effect is 0: power stays at alpha = {self.alpha:g} whatever n")
+            rows.append(
+                {
+                    "strategy": name,
+                    "n_for_power": power.high,
+                    "n_for_halfwidth": width.high if width is not None else None,
+                    "valid": bool(self.valid[i]),
+                    "note": "; ".join(notes),
+                    "analytic_n_for_power": self._analytic_n(ls, "power"),
+                    "analytic_n_for_halfwidth": self._analytic_n(ls, "halfwidth"),
+                }
+            )
+        return _with_sizes(pd.DataFrame(rows, columns=SMALLEST_COLUMNS))
+
+    def search_table(self) -> pd.DataFrame:
+        rows = []
+        for n in sorted(self.points):
+            p = self.points[n]
+            for i, name in enumerate(self.names):
+                rows.append(
+                    {
+                        "n": n,
+                        "strategy": name,
+                        "variable": self.exposure,
+                        "power": p.measures["power"][i],
+                        "power_mcse": p.measures["power_mcse"][i],
+                        "mean_ci_halfwidth": p.halfwidth[i],
+                        "on_grid": n in self.sizes,
+                    }
+                )
+                for j, a in self.also_pairs:
+                    if j == i:
+                        m = p.also_measures[a]
+                        rows.append(
+                            {
+                                "n": n,
+                                "strategy": name,
+                                "variable": self.also[a],
+                                "power": m["power"][i],
+                                "power_mcse": m["power_mcse"][i],
+                                "mean_ci_halfwidth": p.also_halfwidth[i, a],
+                                "on_grid": n in self.sizes,
+                            }
+                        )
+        return pd.DataFrame(rows, columns=SEARCH_COLUMNS)
+
+    def also_tables(self, found: dict[tuple, _Criterion]) -> tuple[pd.DataFrame | None, pd.DataFrame | None]:
+        if not self.also:
+            return None, None
+        rows = []
+        for n in self.sizes:
+            p = self.points[n]
+            for i, a in self.also_pairs:
+                m, verdict, ls = p.also_measures[a], self.also_verdicts[i, a], self.also_analytic[i, a]
+                row = {
+                    "n": n,
+                    "strategy": self.names[i],
+                    "variable": self.also[a],
+                    "truth": self.also_truth[self.also[a]],
+                }
+                for key in (
+                    "power",
+                    "power_mcse",
+                    "bias",
+                    "bias_mcse",
+                    "emp_se",
+                    "coverage",
+                    "coverage_mcse",
+                ):
+                    row[key] = m[key][i]
+                row.update(
+                    mean_ci_halfwidth=p.also_halfwidth[i, a],
+                    correlation=p.correlation[i, a],
+                    analytic_power=ls.power(n, self.alpha) if ls else np.nan,
+                    valid=bool(verdict.valid),
+                    flag=""
+                    if verdict.valid
+                    else "invalid for the direct effect: " + "; ".join(verdict.reasons[:2]),
+                )
+                rows.append(row)
+        table = pd.DataFrame(rows, columns=ALSO_COLUMNS)
+        for column in ALSO_COLUMNS[3:-2]:
+            table[column] = table[column].astype(float)
+
+        largest = self.points[self.sizes[-1]]
+        small = []
+        for i, a in self.also_pairs:
+            name, v = self.names[i], self.also[a]
+            c, verdict = found["also_power", name, v], self.also_verdicts[i, a]
+            notes = []
+            if not verdict.valid:
+                why = verdict.reasons[0] if verdict.reasons else "the single-door criterion fails"
+                notes.append(f"misleading: the model does not identify the direct effect of {v} ({why})")
+            notes += _criterion_notes(
+                c, "power", self.target_power, largest.also_measures[a]["power"][i], self.sizes
+            )
+            small.append(
+                {
+                    "strategy": name,
+                    "variable": v,
+                    "n_for_power": c.high,
+                    "valid": bool(verdict.valid),
+                    "note": "; ".join(notes),
+                    "analytic_n_for_power": self._analytic_n(self.also_analytic[i, a], "power"),
+                }
+            )
+        return table, _with_sizes(pd.DataFrame(small, columns=ALSO_SMALLEST_COLUMNS))
+
+
+def _with_sizes(frame: pd.DataFrame) -> pd.DataFrame:
+    """Size columns as nullable integers (missing where a target is not reached)."""
+    for column in frame.columns:
+        if column.startswith(("n_for", "analytic_n_for")):
+            frame[column] = frame[column].astype("Int64")
+    return frame
+
+
 def plan(
     scenario: Scenario,
     *,
@@ -517,346 +886,51 @@ def plan(
     >>> result.table[["n", "strategy"]].head(2).to_dict(orient="records")
     [{'n': 50, 'strategy': 'unadjusted'}, {'n': 50, 'strategy': 'adjust_soil'}]
     >>> row = result.smallest_n.set_index("strategy").loc["adjust_soil"]
-    >>> 100 < row["n_for_power"] < 200, bool(row["valid"])
+    >>> bool(100 < row["n_for_power"] < 200), bool(row["valid"])
     (True, True)
     >>> result.smallest_n.set_index("strategy").loc["unadjusted", "note"][:10]
     'misleading'
     """
-    import time
-
     started = time.perf_counter()
     sizes, replicates, target_power, target_halfwidth, floor = _check_arguments(
         scenario, sample_sizes, replicates, target_power, target_halfwidth, progress
     )
     seed = _normalise_seed(seed, scenario.study.seed)
-    alpha = float(scenario.study.alpha)
-    question = scenario.question
-    strategies = list(scenario.strategies)
-    names = [s.name for s in strategies]
-    also = list(question.also)
-
-    truth = true_effect(scenario)
-    truth_value = float(truth.value)
-    truth_mcse = float(getattr(truth, "mcse", 0.0) or 0.0)
-
-    verdicts = [judge(scenario, s.adjust) for s in strategies]
-    valid = np.array([v.valid for v in verdicts], dtype=bool)
-
-    sigma = analytic_covariance(scenario)
-    analytic = [large_sample(scenario, s.adjust, sigma=sigma) if sigma is not None else None for s in strategies]
-
-    # also variables: which strategies contain them, their truth (the arrow), their validity (single door)
-    also_truth = {v: sum(effect for source, effect in scenario.parents(question.outcome) if source == v) for v in also}
-    also_in = np.array([[v in s.adjust for v in also] for s in strategies], dtype=bool).reshape(len(strategies), -1)
-    also_verdicts: dict[tuple[int, int], Any] = {}
-    also_analytic: dict[tuple[int, int], Any] = {}
-    for i, s in enumerate(strategies):
-        for a, v in enumerate(also):
-            if also_in[i, a]:
-                regressors = (question.exposure, *s.adjust)
-                also_verdicts[i, a] = judge(scenario, regressors, target="direct", exposure=v)
-                if sigma is not None:
-                    also_analytic[i, a] = large_sample(scenario, regressors, variable=v, sigma=sigma)
-
-    # ---- simulation with progress over the whole plan -------------------------------------------------
-    points: dict[int, _Point] = {}
-    state = {"runs_done": 0, "runs_planned": len(sizes), "reported": 0}
-
-    def report(done: int, total: int) -> None:
-        if progress is None:
-            return
-        done = max(done, state["reported"])
-        state["reported"] = done
-        progress(int(done), int(max(total, done)))
-
-    def evaluate(n: int) -> _Point:
-        if n in points:
-            return points[n]
-        base = state["runs_done"] * replicates
-
-        def inner(done, total):
-            share = done / total if total else 1.0
-            report(base + int(share * replicates), state["runs_planned"] * replicates)
-
-        arrays = run_replicates(
-            scenario, n, replicates, seed, alpha=alpha, progress=inner if progress is not None else None
-        )
-        measures = performance(
-            arrays.estimate, arrays.se, arrays.ci_low, arrays.ci_high, arrays.p_value, truth_value, alpha,
-            truth_mcse=truth_mcse,
-        )
-        halfwidth = _mean_halfwidth(arrays.ci_low, arrays.ci_high)
-        also_measures, also_halfwidth, correlation = [], np.full((len(names), len(also)), np.nan), None
-        if also:
-            index = [list(arrays.also_names).index(v) for v in also]
-            for a, v in enumerate(also):
-                j = index[a]
-                also_measures.append(
-                    performance(
-                        arrays.also_estimate[:, :, j], arrays.also_se[:, :, j], arrays.also_ci_low[:, :, j],
-                        arrays.also_ci_high[:, :, j], arrays.also_p_value[:, :, j], also_truth[v], alpha,
-                    )
-                )
-                also_halfwidth[:, a] = _mean_halfwidth(arrays.also_ci_low[:, :, j], arrays.also_ci_high[:, :, j])
-            correlation = _correlation(arrays.estimate, arrays.also_estimate[:, :, index])
-        point = _Point(n, measures, halfwidth, also_measures, also_halfwidth, correlation, str(arrays.engine))
-        points[n] = point
-        state["runs_done"] += 1
-        state["runs_planned"] = max(state["runs_planned"], state["runs_done"])
-        report(state["runs_done"] * replicates, state["runs_planned"] * replicates)
-        return point
-
+    planner = _Planner(scenario, sizes, replicates, target_power, target_halfwidth, floor, seed, progress)
     for n in sizes:
-        evaluate(n)
-
-    # ---- criteria and the bisection -------------------------------------------------------------------
-    criteria: list[_Criterion] = []
-    for i, name in enumerate(names):
-        criteria.append(_Criterion(("power", name), lambda p, i=i: p.measures["power"][i] >= target_power))
-        if target_halfwidth is not None:
-            criteria.append(_Criterion(("halfwidth", name), lambda p, i=i: p.halfwidth[i] <= target_halfwidth))
-        for a, v in enumerate(also):
-            if also_in[i, a]:
-                criteria.append(
-                    _Criterion(
-                        ("also_power", name, v),
-                        lambda p, i=i, a=a: p.also_measures[a]["power"][i] >= target_power,
-                    )
-                )
-    for c in criteria:
-        _bracket(c, sizes, points, floor)
-        if not c.done and _narrow_enough(c.low, c.high):
-            c.done = True
-
-    while True:
-        open_criteria = [c for c in criteria if not c.done]
-        if not open_criteria:
-            break
-        state["runs_planned"] = state["runs_done"] + sum(_search_steps(c.low, c.high) for c in open_criteria)
-        wanted: set[int] = set()
-        for c in open_criteria:
-            middle = (c.low + c.high) // 2
-            known = [n for n in points if c.low < n < c.high]
-            if known:
-                continue  # a size simulated for another criterion narrows this one for free
-            wanted.add(middle)
-        for n in sorted(wanted):
-            evaluate(n)
-        for c in open_criteria:
-            inside = sorted(n for n in points if c.low < n < c.high)
-            if not inside:
-                continue
-            middle = (c.low + c.high) / 2
-            n = min(inside, key=lambda m: (abs(m - middle), m))
-            if c.reached(points[n]):
-                c.high = n
-            else:
-                c.low = n
-            if _narrow_enough(c.low, c.high):
-                c.done = True
-    report(state["runs_done"] * replicates, state["runs_done"] * replicates)
-    found = {c.key: c for c in criteria}
-
-    # ---- tables ---------------------------------------------------------------------------------------
-    engine = points[sizes[0]].engine
-    flags = [
-        ""
-        if v.valid
-        else "invalid: " + ("; ".join(v.reasons[:2]) if v.reasons else "the graph says this set is not valid")
-        for v in verdicts
-    ]
-    rows = []
-    for n in sizes:
-        p = points[n]
-        for i, name in enumerate(names):
-            ls = analytic[i]
-            rows.append(
-                {
-                    "n": n,
-                    "strategy": name,
-                    "power": p.measures["power"][i],
-                    "power_mcse": p.measures["power_mcse"][i],
-                    "bias": p.measures["bias"][i],
-                    "bias_mcse": p.measures["bias_mcse"][i],
-                    "emp_se": p.measures["emp_se"][i],
-                    "model_se": p.measures["model_se"][i],
-                    "coverage": p.measures["coverage"][i],
-                    "coverage_mcse": p.measures["coverage_mcse"][i],
-                    "rmse": p.measures["rmse"][i],
-                    "mean_ci_halfwidth": p.halfwidth[i],
-                    "analytic_power": ls.power(n, alpha) if ls else np.nan,
-                    "analytic_se": ls.se(n) if ls else np.nan,
-                    "analytic_ci_halfwidth": ls.halfwidth(n, alpha) if ls else np.nan,
-                    "failures": p.measures["failures"][i],
-                    "valid": bool(valid[i]),
-                    "flag": flags[i],
-                }
-            )
-    table = pd.DataFrame(rows, columns=TABLE_COLUMNS)
-    for column in TABLE_COLUMNS[2:-2]:
-        table[column] = table[column].astype(float)
-    table["failures"] = table["failures"].astype(int)
-
-    largest = points[sizes[-1]]
-    smallest_rows = []
-    for i, name in enumerate(names):
-        ls = analytic[i]
-        power_c = found["power", name]
-        width_c = found.get(("halfwidth", name))
-        notes = []
-        if not valid[i]:
-            estimand = ls.estimand if ls else truth_value + float(largest.measures["bias"][i])
-            notes.append(
-                f"misleading: '{name}' is not a valid adjustment set ({verdicts[i].reasons[0] if verdicts[i].reasons else 'see check'}); "
-                f"its power detects {estimand:.4g}, a biased quantity, not the effect {truth_value:.4g}"
-            )
-        notes.extend(_criterion_notes(power_c, "power", target_power, largest.measures["power"][i], sizes))
-        if width_c is not None:
-            notes.extend(_criterion_notes(width_c, "CI half-width", target_halfwidth, largest.halfwidth[i], sizes))
-        if valid[i] and abs(truth_value) < 1e-12:
-            notes.append(f"the true effect is 0: power stays at alpha = {alpha:g} whatever n")
-        smallest_rows.append(
-            {
-                "strategy": name,
-                "n_for_power": power_c.high if power_c.high is not None else None,
-                "n_for_halfwidth": (width_c.high if width_c is not None else None),
-                "valid": bool(valid[i]),
-                "note": "; ".join(notes),
-                "analytic_n_for_power": _analytic_n(lambda m, ls=ls: ls.power(m, alpha) >= target_power, ls, floor),
-                "analytic_n_for_halfwidth": (
-                    _analytic_n(lambda m, ls=ls: ls.halfwidth(m, alpha) <= target_halfwidth, ls, floor)
-                    if target_halfwidth is not None
-                    else None
-                ),
-            }
-        )
-    smallest = pd.DataFrame(smallest_rows, columns=SMALLEST_COLUMNS)
-    for column in ("n_for_power", "n_for_halfwidth", "analytic_n_for_power", "analytic_n_for_halfwidth"):
-        smallest[column] = smallest[column].astype("Int64")
-
-    search_rows = []
-    for n in sorted(points):
-        p = points[n]
-        for i, name in enumerate(names):
-            search_rows.append(
-                {
-                    "n": n,
-                    "strategy": name,
-                    "variable": question.exposure,
-                    "power": p.measures["power"][i],
-                    "power_mcse": p.measures["power_mcse"][i],
-                    "mean_ci_halfwidth": p.halfwidth[i],
-                    "on_grid": n in sizes,
-                }
-            )
-            for a, v in enumerate(also):
-                if also_in[i, a]:
-                    search_rows.append(
-                        {
-                            "n": n,
-                            "strategy": name,
-                            "variable": v,
-                            "power": p.also_measures[a]["power"][i],
-                            "power_mcse": p.also_measures[a]["power_mcse"][i],
-                            "mean_ci_halfwidth": p.also_halfwidth[i, a],
-                            "on_grid": n in sizes,
-                        }
-                    )
-    search = pd.DataFrame(search_rows, columns=SEARCH_COLUMNS)
-
-    also_table = also_smallest = None
-    if also:
-        also_rows, also_small_rows = [], []
-        for n in sizes:
-            p = points[n]
-            for i, name in enumerate(names):
-                for a, v in enumerate(also):
-                    if not also_in[i, a]:
-                        continue
-                    m = p.also_measures[a]
-                    verdict = also_verdicts[i, a]
-                    ls = also_analytic.get((i, a))
-                    also_rows.append(
-                        {
-                            "n": n,
-                            "strategy": name,
-                            "variable": v,
-                            "truth": float(also_truth[v]),
-                            "power": m["power"][i],
-                            "power_mcse": m["power_mcse"][i],
-                            "bias": m["bias"][i],
-                            "bias_mcse": m["bias_mcse"][i],
-                            "emp_se": m["emp_se"][i],
-                            "coverage": m["coverage"][i],
-                            "coverage_mcse": m["coverage_mcse"][i],
-                            "mean_ci_halfwidth": p.also_halfwidth[i, a],
-                            "correlation": p.correlation[i, a],
-                            "analytic_power": ls.power(n, alpha) if ls else np.nan,
-                            "valid": bool(verdict.valid),
-                            "flag": "" if verdict.valid else "invalid for the direct effect: " + "; ".join(verdict.reasons[:2]),
-                        }
-                    )
-        for i, name in enumerate(names):
-            for a, v in enumerate(also):
-                if not also_in[i, a]:
-                    continue
-                c = found["also_power", name, v]
-                verdict = also_verdicts[i, a]
-                ls = also_analytic.get((i, a))
-                notes = []
-                if not verdict.valid:
-                    notes.append(
-                        f"misleading: the model does not identify the direct effect of {v} "
-                        f"({verdict.reasons[0] if verdict.reasons else 'single-door criterion fails'})"
-                    )
-                notes.extend(
-                    _criterion_notes(c, "power", target_power, largest.also_measures[a]["power"][i], sizes)
-                )
-                also_small_rows.append(
-                    {
-                        "strategy": name,
-                        "variable": v,
-                        "n_for_power": c.high,
-                        "valid": bool(verdict.valid),
-                        "note": "; ".join(notes),
-                        "analytic_n_for_power": _analytic_n(
-                            lambda m, ls=ls: ls.power(m, alpha) >= target_power, ls, floor
-                        ),
-                    }
-                )
-        also_table = pd.DataFrame(also_rows, columns=ALSO_COLUMNS)
-        for column in ALSO_COLUMNS[3:-2]:
-            also_table[column] = also_table[column].astype(float)
-        also_smallest = pd.DataFrame(also_small_rows, columns=ALSO_SMALLEST_COLUMNS)
-        for column in ("n_for_power", "analytic_n_for_power"):
-            also_smallest[column] = also_smallest[column].astype("Int64")
-
+        planner.evaluate(n)
+    found = planner.search()
+    also_table, also_smallest = planner.also_tables(found)
     return PlanResult(
         title=scenario.title,
         replicates=replicates,
         seed=seed,
-        alpha=alpha,
+        alpha=planner.alpha,
         target_power=target_power,
         target_halfwidth=target_halfwidth,
         sample_sizes=sizes,
-        truth=truth_value,
-        truth_mcse=truth_mcse,
-        engine=engine,
-        exposure=question.exposure,
-        outcome=question.outcome,
-        table=table,
-        smallest_n=smallest,
+        truth=planner.truth,
+        truth_mcse=planner.truth_mcse,
+        engine=", ".join(sorted({p.engine for p in planner.points.values()})),
+        exposure=scenario.question.exposure,
+        outcome=scenario.question.outcome,
+        table=planner.table(),
+        smallest_n=planner.smallest_n(found),
         also_table=also_table,
         also_smallest_n=also_smallest,
-        search=search,
+        search=planner.search_table(),
         elapsed=time.perf_counter() - started,
     )
 
 
-def _criterion_notes(c: _Criterion, what: str, target: float, at_largest: float, sizes: list[int]) -> list[str]:
+def _criterion_notes(
+    c: _Criterion, what: str, target: float, at_largest: float, sizes: list[int]
+) -> list[str]:
     if c.high is None:
-        return [f"{what} target {target:g} not reached within the largest size {sizes[-1]} ({at_largest:.3g} there)"]
-    if c.below_grid:
+        return [
+            f"{what} target {target:g} not reached within the largest size {sizes[-1]} ({at_largest:.3g} there)"
+        ]
+    if c.below_grid and c.high < sizes[0]:
         return [f"{what} target reached below the smallest size on the grid ({sizes[0]})"]
     return []
 

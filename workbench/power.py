@@ -103,7 +103,10 @@ def noncentral_t_power(noncentrality, df, alpha: float = 0.05):
     noncentrality = np.asarray(noncentrality, dtype=float)
     df = np.asarray(df, dtype=float)
     critical = stats.t.ppf(1.0 - alpha / 2.0, df)
-    power = stats.nct.sf(critical, df, noncentrality) + stats.nct.cdf(-critical, df, noncentrality)
+    size = np.abs(noncentrality)
+    # the far tail P(T < -c) is written as P(-T > c) = sf(c; -size), which scipy keeps finite
+    far = np.nan_to_num(stats.nct.sf(critical, df, -size), nan=0.0)
+    power = np.clip(stats.nct.sf(critical, df, size) + far, 0.0, 1.0)
     power = np.where(noncentrality == 0, alpha, power)
     return _scalar(power)
 

@@ -722,7 +722,7 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
     so the file says everything it assumes."""
     q = scenario.question
     out: dict[str, Any] = {"title": scenario.title}
-    if scenario.summary:
+    if scenario.summary is not None:
         out["summary"] = scenario.summary
     question: dict[str, Any] = {
         "exposure": q.exposure,
@@ -742,7 +742,7 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
             table["noise_sd"] = v.noise_sd
             table["baseline"] = v.baseline
         table["observed"] = v.observed
-        if v.label:
+        if v.label is not None:
             table["label"] = v.label
         if v.position is not None:
             table["position"] = list(v.position)

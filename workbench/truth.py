@@ -104,22 +104,29 @@ def _words(scenario: Scenario, scale: str) -> str:
     q = scenario.question
     x, y = scenario.exposure, scenario.outcome
     if q.target == "direct":
-        return (f"change in the mean of '{y.name}' per unit of '{x.name}' with every other direct cause of "
-                f"'{y.name}' held fixed (the arrow's effect)")
+        return (
+            f"change in the mean of '{y.name}' per unit of '{x.name}' with every other direct cause of "
+            f"'{y.name}' held fixed (the arrow's effect)"
+        )
     if x.is_binary:
         contrast = f"if every unit had '{x.name}' = 1 versus if every unit had '{x.name}' = 0"
     else:
         contrast = f"if every unit's '{x.name}' were one unit higher versus as it is"
     if y.is_binary:
-        what = ("difference in the share of '{y}' = 1" if scale == "difference"
-                else "log odds ratio of '{y}' = 1 (marginal, over the whole population)").format(y=y.name)
+        what = (
+            "difference in the share of '{y}' = 1"
+            if scale == "difference"
+            else "log odds ratio of '{y}' = 1 (marginal, over the whole population)"
+        ).format(y=y.name)
     else:
         what = f"difference in the mean of '{y.name}'"
     return f"{what} {contrast}"
 
 
 @functools.lru_cache(maxsize=128)
-def _simulated(variables: tuple, arrows: tuple, exposure: str, outcome: str, scale: str) -> tuple[float, float]:
+def _simulated(
+    variables: tuple, arrows: tuple, exposure: str, outcome: str, scale: str
+) -> tuple[float, float]:
     st = _structure_cached(variables, arrows)
     x = st.index(exposure)
     y = st.index(outcome)

@@ -108,7 +108,11 @@ def lesson_common_cause(sc):
     """Omitted-variable bias (Wooldridge, Introductory Econometrics, sec. 3.3): the short regression's slope
     is beta_X + beta_C * cov(X, C) / var(X); adjusting for the common cause C removes the bias."""
     e = _effects(sc)
-    a, c, b = e["soil_quality", "fertiliser"], e["soil_quality", "wheat_yield"], e["fertiliser", "wheat_yield"]
+    a, c, b = (
+        e["soil_quality", "fertiliser"],
+        e["soil_quality", "wheat_yield"],
+        e["fertiliser", "wheat_yield"],
+    )
     var_c = _sd(sc, "soil_quality") ** 2
     var_x = a**2 * var_c + _sd(sc, "fertiliser") ** 2
     short = b + c * (a * var_c) / var_x
@@ -124,7 +128,9 @@ def lesson_mediator(sc):
     e = _effects(sc)
     direct, a, c = e["training", "output"], e["training", "skill"], e["skill", "output"]
     total = direct + a * c
-    assert linear.total_effects(sc)[sc.names.index("training"), sc.names.index("output")] == pytest.approx(total)
+    assert linear.total_effects(sc)[sc.names.index("training"), sc.names.index("output")] == pytest.approx(
+        total
+    )
     assert _estimate(sc, "unadjusted")[0] == pytest.approx(total, rel=1e-10)
     assert _estimate(sc, "adjust_skill")[0] == pytest.approx(direct, rel=1e-10)
     assert abs(a * c) >= MATERIAL * abs(total)
@@ -166,7 +172,11 @@ def lesson_instrument_latent_confounder(sc):
     e = _effects(sc)
     a, c = e["canal_distance", "irrigation"], e["diligence", "irrigation"]
     d, b = e["diligence", "harvest"], e["irrigation", "harvest"]
-    var_z, var_u, var_ex = _sd(sc, "canal_distance") ** 2, _sd(sc, "diligence") ** 2, _sd(sc, "irrigation") ** 2
+    var_z, var_u, var_ex = (
+        _sd(sc, "canal_distance") ** 2,
+        _sd(sc, "diligence") ** 2,
+        _sd(sc, "irrigation") ** 2,
+    )
     var_x = a**2 * var_z + c**2 * var_u + var_ex
     var_x_given_z = c**2 * var_u + var_ex
     unadjusted, se_unadjusted = _estimate(sc, "unadjusted")
@@ -276,7 +286,14 @@ def lesson_larger_graph(sc):
     assert min(se, key=se.get) == "adjust_optimal"
     assert len(sc.variables) >= 8 and sc.latent_names
     roles = {role for found in find_roles(sc).values() for role, _ in found}
-    wanted = {"confounder", "mediator", "common_effect", "instrument", "outcome_cause", "pre_exposure_collider"}
+    wanted = {
+        "confounder",
+        "mediator",
+        "common_effect",
+        "instrument",
+        "outcome_cause",
+        "pre_exposure_collider",
+    }
     assert wanted <= roles
     return "adjust_confounders"
 

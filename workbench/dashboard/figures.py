@@ -82,10 +82,13 @@ _FONT = "11px"
 
 def _style(fig, title: str | None = None) -> None:
     fig.toolbar.logo = None
-    fig.title.text_font_size = "13px"
-    fig.title.text_font_style = "bold"
-    if title is not None:
-        fig.title.text = title
+    if title is not None and fig.title is None:
+        from bokeh.models import Title
+
+        fig.title = Title(text=title)
+    if fig.title is not None:
+        fig.title.text_font_size = "13px"
+        fig.title.text_font_style = "bold"
     for axis in (*fig.xaxis, *fig.yaxis):
         axis.axis_label_text_font_size = "12px"
         axis.axis_label_text_font_style = "normal"
@@ -243,7 +246,7 @@ def graph_figure(scenario: Scenario, roles: dict | None = None, verdict=None, *,
     fig.add_layout(Arrow(
         end=VeeHead(size=11, line_color="colour", fill_color="colour", line_alpha="alpha", fill_alpha="alpha"),
         x_start="x0", y_start="y0", x_end="x1", y_end="y1", source=source,
-        line_width="width", line_alpha="alpha", line_dash="dash", line_color="colour",
+        line_width="width", line_alpha="alpha", line_dash="dash", line_color="colour", level="underlay",
     ))
     fig.text("x", "y", "text", source=ColumnDataSource(label_data), text_font_size=_FONT, text_align="center",
              text_baseline="middle", text_alpha="alpha", background_fill_color="#ffffff",
@@ -389,11 +392,12 @@ def se_figure(result, *, width: int = 540):
                   labels=_labels(table))
 
 
-def interval_figure(result, *, first: int = 100, columns: int = 4, width: int = 1060):
+def interval_figure(result, *, first: int = 100, columns: int = 4, width: int = 1060, grid: bool = True):
     """Ranked confidence intervals of the first ``first`` replicates per strategy, coloured by coverage.
 
     Each panel sorts the replicates by their estimate; an interval that misses the truth is drawn in
-    vermillion, one that covers it in grey.
+    vermillion, one that covers it in grey. Returns a grid of panels, or with ``grid=False`` the list of
+    panels (one per strategy).
     """
     table = result.table
     names = list(table["name"])
@@ -430,7 +434,7 @@ def interval_figure(result, *, first: int = 100, columns: int = 4, width: int = 
         fig.ygrid.visible = False
         fig.tags = [share]
         figs.append(fig)
-    return gridplot(figs, ncols=cols, toolbar_location=None)
+    return gridplot(figs, ncols=cols, toolbar_location=None) if grid else figs
 
 
 # ------------------------------------------------------------------------------------------------------
@@ -576,15 +580,12 @@ def dataset_scatter(data: pd.DataFrame, exposure: str, outcome: str, covariate: 
         c = data[covariate].to_numpy(dtype=float)
         source["c"] = c
         if _is_binary(data[covariate]):
-            source["colour"] = np.where(c > 0.5, "#D55E00", "#0072B2")
-            src = ColumnDataSource(source)
             for value, colour in ((0, "#0072B2"), (1, "#D55E00")):
-                view_src = ColumnDataSource({k: np.asarray(v)[c == value] for k, v in source.items()})
-                fig.scatter("x", "y", source=view_src, color=colour, size=5, alpha=0.6,
+                chosen = ColumnDataSource({k: np.asarray(v)[c == value] for k, v in source.items()})
+                fig.scatter("x", "y", source=chosen, color=colour, size=5, alpha=0.6,
                             legend_label=f"{covariate} = {value}")
             fig.legend.label_text_font_size = _FONT
             fig.legend.location = "top_left"
-            del src
         else:
             mapper = LinearColorMapper(palette=Cividis256, low=float(np.nanmin(c)), high=float(np.nanmax(c)))
             fig.scatter("x", "y", source=ColumnDataSource(source), size=5, alpha=0.7,

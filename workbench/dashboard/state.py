@@ -122,6 +122,12 @@ class ScenarioState(param.Parameterized):
 
     # --- internals -------------------------------------------------------------------------------------
     def _commit(self, scenario: Scenario, section: str, note: str = "") -> None:
+        if self.scenario is not None and scenario == self.scenario:
+            with param.parameterized.batch_call_watchers(self):
+                self.error = ""
+                self.error_section = ""
+                self.note = note
+            return
         report, report_error = None, ""
         if library_has("check"):
             try:
@@ -770,6 +776,8 @@ class Workbench(param.Parameterized):
         Re-run a linear-Gaussian scenario at once after every valid change.
     background : bool
         Run computations in a worker thread (False runs them in the caller, for tests).
+    dispatch : callable, optional
+        Runs a function on the user interface's thread (see :class:`BackgroundJob`).
     """
 
     live = param.Boolean(default=True, doc="Re-run linear-Gaussian scenarios at once on every change.")
@@ -779,11 +787,11 @@ class Workbench(param.Parameterized):
     planning = param.ClassSelector(class_=PlanJob)
     sample = param.ClassSelector(class_=SampleState)
 
-    def __init__(self, preset: str | None = None, **params):
+    def __init__(self, preset: str | None = None, dispatch: Callable | None = None, **params):
         super().__init__(**params)
         self.scenario_state = ScenarioState(preset=preset or DEFAULT_PRESET)
-        self.simulation = SimulationJob()
-        self.planning = PlanJob()
+        self.simulation = SimulationJob(dispatch=dispatch)
+        self.planning = PlanJob(dispatch=dispatch)
         self.sample = SampleState()
         self.scenario_state.param.watch(self._scenario_changed, "scenario")
         self._scenario_changed()

@@ -1,0 +1,187 @@
+"""Properties of the batched logistic fit, the standardised contrasts and the HC3 least squares."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+from scipy.special import expit
+
+from workbench.errors import SimulationError
+from workbench.logistic import LogitFit, design_matrix, fit_logit_batch, standardized_contrast
+from workbench.robust import ols_hc3_batch
+
+
+def _draw(seed, R=8, n=300, effects=(-0.5, 0.8, 1.2)):
+    rng = np.random.default_rng(seed)
+    data = np.stack([rng.integers(0, 2, (R, n)), rng.normal(size=(R, n))], axis=-1).astype(float)
+    X = design_matrix(data, 0, [1])
+    y = (rng.random((R, n)) < expit(X @ np.asarray(effects))).astype(float)
+    return X, y
+
+
+def test_design_matrix_columns_and_order():
+    data = np.random.default_rng(0).normal(size=(3, 5, 4))
+    X = design_matrix(data, 2, [3, 0])
+    assert X.shape == (3, 5, 4)
+    np.testing.assert_array_equal(X[..., 0], 1.0)
+    np.testing.assert_array_equal(X[..., 1], data[..., 2])
+    np.testing.assert_array_equal(X[..., 2:], data[..., [3, 0]])
+    assert design_matrix(data, 1, intercept=False).shape == (3, 5, 1)
+
+
+def test_score_is_zero_at_the_fit():
+    X, y = _draw(1)
+    fit = fit_logit_batch(X, y)
+    assert fit.converged.all() and (fit.failure == "").all()
+    score = np.einsum("rnp,rn->rp", X, y - expit(np.einsum("rnp,rp->rn", X, fit.coef)))
+    assert np.abs(score).max() < 1e-8
+    assert fit.iterations.max() < 15
+
+
+def test_each_replicate_is_fitted_independently_of_the_others():
+    X, y = _draw(2, R=12)
+    together = fit_logit_batch(X, y, workers=1)
+    threaded = fit_logit_batch(X, y, workers=3)
+    alone = [fit_logit_batch(X[r : r + 1], y[r : r + 1]) for r in (0, 5, 11)]
+    for fit in (threaded,):
+        np.testing.assert_array_equal(fit.coef, together.coef)
+        np.testing.assert_array_equal(fit.cov, together.cov)
+    for r, fit in zip((0, 5, 11), alone, strict=True):
+        np.testing.assert_allclose(fit.coef[0], together.coef[r], rtol=0, atol=1e-12)
+
+
+def test_row_order_does_not_matter():
+    X, y = _draw(3, R=4)
+    order = np.random.default_rng(0).permutation(X.shape[1])
+    a, b = fit_logit_batch(X, y), fit_logit_batch(X[:, order], y[:, order])
+    np.testing.assert_allclose(a.coef, b.coef, atol=1e-10)
+    np.testing.assert_allclose(a.cov, b.cov, atol=1e-10)
+
+
+def test_covariance_is_symmetric_positive_definite():
+    X, y = _draw(4)
+    fit = fit_logit_batch(X, y)
+    np.testing.assert_allclose(fit.cov, np.swapaxes(fit.cov, 1, 2), atol=1e-14)
+    assert (np.linalg.eigvalsh(fit.cov) > 0).all()
+
+
+def test_data_problems_fail_per_replicate_and_never_raise():
+    X, y = _draw(5, R=7, n=80)
+    X[1, 3, 2] = np.nan  # missing value
+    y[2, 0] = 0.5  # not a 0/1 outcome
+    X[3, :, 2] = 0.0  # a column constant within the replicate
+    y[4] = 0.0  # no events at all: the intercept runs to -infinity
+    X[5, :, 2] = 2 * X[5, :, 1]  # collinear columns
+    y[6] = (X[6, :, 2] > 0).astype(float)  # outcome fixed by a threshold on a covariate
+    fit = fit_logit_batch(X, y)
+    assert fit.failure.tolist() == [
+        "",
+        "non-finite values in the data",
+        "outcome values other than 0 and 1",
+        "singular information matrix",
+        "complete separation",
+        "singular information matrix",
+        "complete separation",
+    ]
+    assert np.isfinite(fit.coef[0]).all()
+    assert np.isnan(fit.coef[1:]).all() and np.isnan(fit.cov[1:]).all()
+    assert fit.converged.tolist() == [True] + [False] * 6
+    estimate, se = standardized_contrast(fit, X, 1)
+    assert np.isfinite(estimate[0]) and np.isnan(estimate[1:]).all() and np.isnan(se[1:]).all()
+
+
+def test_too_few_iterations_is_reported():
+    X, y = _draw(6, R=3)
+    fit = fit_logit_batch(X, y, max_iter=2)
+    assert (fit.failure == "did not converge in 2 iterations").all()
+    assert np.isnan(fit.coef).all()
+
+
+def test_quasi_complete_separation_by_a_rare_trait():
+    X, y = _draw(7, R=1, n=200)
+    X[0, :, 2] = 0.0
+    X[0, :5, 2] = 1.0  # five rows carry the trait ...
+    y[0, :5] = 1.0  # ... and all five have the outcome; the other rows overlap
+    fit = fit_logit_batch(X, y)
+    assert fit.failure.tolist() == ["quasi-complete separation"]
+
+
+def test_wrong_shapes_raise_a_workbench_error():
+    with pytest.raises(SimulationError, match="shape"):
+        fit_logit_batch(np.ones((2, 3)), np.ones(2))
+    with pytest.raises(SimulationError, match="max_iter"):
+        fit_logit_batch(np.ones((1, 3, 1)), np.ones((1, 3)), max_iter=0)
+    fit = LogitFit(np.zeros((1, 2)), np.zeros((1, 2, 2)), np.ones(1, bool), np.array([""], object), np.ones(1))
+    with pytest.raises(SimulationError, match="exposure_kind"):
+        standardized_contrast(fit, np.ones((1, 3, 2)), 1, exposure_kind="ordinal")
+    with pytest.raises(SimulationError, match="scale"):
+        standardized_contrast(fit, np.ones((1, 3, 2)), 1, scale="ratio")
+    with pytest.raises(SimulationError, match="shape"):
+        ols_hc3_batch(np.ones((2, 3)), np.ones(2))
+
+
+def test_standardized_contrast_without_effect_is_zero_and_sign_follows_the_effect():
+    X, y = _draw(8, R=3)
+    fit = fit_logit_batch(X, y)
+    zero = LogitFit(fit.coef * np.array([1, 0, 1]), fit.cov, fit.converged, fit.failure, fit.iterations)
+    for scale in ("difference", "log_odds_ratio"):
+        estimate, _ = standardized_contrast(zero, X, 1, scale=scale)
+        np.testing.assert_allclose(estimate, 0.0, atol=1e-15)
+        estimate, se = standardized_contrast(fit, X, 1, scale=scale)
+        assert (np.sign(estimate) == np.sign(fit.coef[:, 1])).all() and (se > 0).all()
+
+
+def test_continuous_shift_equals_binary_contrast_when_the_exposure_is_zero():
+    """Shifting a continuous exposure by +1 from 0 is the same contrast as setting it to 1 versus 0."""
+    X, y = _draw(9, R=2)
+    fit = fit_logit_batch(X, y)
+    X0 = X.copy()
+    X0[..., 1] = 0.0
+    for scale in ("difference", "log_odds_ratio"):
+        a = standardized_contrast(fit, X0, 1, exposure_kind="continuous", scale=scale)
+        b = standardized_contrast(fit, X, 1, exposure_kind="binary", scale=scale)
+        np.testing.assert_allclose(a, b, atol=1e-14)
+
+
+def test_hc3_failures_and_coefficients():
+    X, y = _draw(10, R=4, n=50)
+    X[1, :, 2] = X[1, :, 1]  # collinear
+    X[2, 0, 2] = 1e6  # a single row far out: leverage of practically 1
+    y[3, 7] = np.inf
+    coef, se, failed = ols_hc3_batch(X, y)
+    assert failed.tolist() == [False, True, True, True]
+    np.testing.assert_allclose(coef[0], np.linalg.lstsq(X[0], y[0], rcond=None)[0], atol=1e-12)
+    assert np.isnan(coef[1:]).all() and np.isnan(se[1:]).all()
+
+
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(
+    seed=st.integers(0, 2**32 - 1),
+    n=st.integers(8, 60),
+    p=st.integers(1, 4),
+    slope=st.floats(-4, 4),
+)
+def test_every_replicate_either_fails_with_a_reason_or_solves_the_score_equations(seed, n, p, slope):
+    rng = np.random.default_rng(seed)
+    R = 6
+    X = np.concatenate([np.ones((R, n, 1)), rng.normal(size=(R, n, p - 1))], axis=2)
+    eta = slope * X[..., -1] - 0.3
+    y = (rng.random((R, n)) < expit(eta)).astype(float)
+    fit = fit_logit_batch(X, y)
+    ok = ~fit.failed
+    assert set(fit.failure[fit.failed]) <= {
+        "complete separation",
+        "quasi-complete separation",
+        "singular information matrix",
+        "did not converge in 50 iterations",
+    }
+    assert np.isnan(fit.coef[fit.failed]).all()
+    assert np.isfinite(fit.coef[ok]).all() and np.isfinite(fit.cov[ok]).all()
+    if ok.any():
+        mu = expit(np.einsum("rnp,rp->rn", X[ok], fit.coef[ok]))
+        score = np.einsum("rnp,rn->rp", X[ok], y[ok] - mu)
+        assert np.abs(score).max() < 1e-6
+        coef, se, failed = ols_hc3_batch(X, y)
+        assert (np.isfinite(se[~failed])).all()

@@ -1,0 +1,319 @@
+"""Behaviour of the sample-size planner (workbench.plan) and of the analytic helpers (workbench.power).
+
+Checks against outside sources live in tests/reference/test_plan_reference.py.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pandas as pd
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from workbench.errors import Cancelled, SimulationError
+from workbench.plan import (
+    ABSOLUTE_RESOLUTION,
+    ALSO_COLUMNS,
+    RELATIVE_RESOLUTION,
+    SMALLEST_COLUMNS,
+    TABLE_COLUMNS,
+    PlanResult,
+    plan,
+)
+from workbench.power import find_smallest_n, large_sample, noncentral_t_power, regression_power
+from workbench.presets import load_preset
+from workbench.scenario import load_scenario
+
+REPLICATES = 400
+TWO_STRATEGIES = """
+[[strategies]]
+name = "unadjusted"
+adjust = []
+[[strategies]]
+name = "adjust_crew"
+adjust = ["crew"]
+"""
+
+
+def chain(effect: float = 0.3, confounding: float = 0.0, strategies: str = "") -> str:
+    """A small scenario text: c -> x, c -> y, x -> y."""
+    return f"""
+title = "Shelf height and picking speed"
+[question]
+exposure = "shelf"
+outcome = "speed"
+[variables.crew]
+[variables.shelf]
+[variables.speed]
+[[arrows]]
+from = "crew"
+to = "shelf"
+effect = 0.7
+[[arrows]]
+from = "crew"
+to = "speed"
+effect = {confounding}
+[[arrows]]
+from = "shelf"
+to = "speed"
+effect = {effect}
+{strategies or TWO_STRATEGIES}
+[study]
+sample_sizes = [40, 80, 160, 320]
+replicates = {REPLICATES}
+seed = 7
+"""
+
+
+@pytest.fixture(scope="module")
+def common_cause_plan() -> PlanResult:
+    return plan(load_preset("common_cause"), replicates=REPLICATES, seed=11, target_halfwidth=0.15)
+
+
+@pytest.fixture(scope="module")
+def two_exposures_plan() -> PlanResult:
+    return plan(load_preset("two_exposures"), replicates=REPLICATES, seed=5)
+
+
+# ---- shapes and contents ------------------------------------------------------------------------------
+def test_table_is_long_with_one_row_per_size_and_strategy(common_cause_plan):
+    sc = load_preset("common_cause")
+    table = common_cause_plan.table
+    assert list(table.columns) == TABLE_COLUMNS
+    assert len(table) == len(sc.study.sample_sizes) * len(sc.strategies)
+    assert sorted(table["n"].unique()) == list(sc.study.sample_sizes)
+    assert table["power"].between(0, 1).all()
+    assert table["analytic_power"].notna().all()  # linear-Gaussian: the closed form applies
+
+
+def test_smallest_n_has_one_row_per_strategy(common_cause_plan):
+    smallest = common_cause_plan.smallest_n
+    assert list(smallest.columns) == SMALLEST_COLUMNS
+    assert list(smallest["strategy"]) == ["unadjusted", "adjust_soil"]
+    row = smallest.set_index("strategy").loc["adjust_soil"]
+    assert bool(row["valid"]) and row["note"] == ""
+    assert 50 < row["n_for_power"] < 400 and 50 < row["n_for_halfwidth"] < 800
+
+
+def test_invalid_strategy_is_flagged_and_its_smallest_n_marked_misleading(common_cause_plan):
+    table = common_cause_plan.table.set_index("strategy")
+    assert not table.loc["unadjusted", "valid"].any()
+    assert table.loc["unadjusted", "flag"].str.startswith("invalid:").all()
+    assert (table.loc["adjust_soil", "flag"] == "").all()
+    note = common_cause_plan.smallest_n.set_index("strategy").loc["unadjusted", "note"]
+    assert note.startswith("misleading") and "soil_quality" in note and "biased quantity" in note
+
+
+def test_bisection_brackets_within_resolution(common_cause_plan):
+    """The reported n reaches the target, and a simulated size at most max(5, 2% of n) below it does not
+    (or the bracket's lower end is the smallest size every strategy can be fitted at)."""
+    search = common_cause_plan.search
+    target = common_cause_plan.target_power
+    floor = 3 + 2  # widest strategy: 3 coefficients
+    for _, row in common_cause_plan.smallest_n.iterrows():
+        n = int(row["n_for_power"])
+        mine = search[(search["strategy"] == row["strategy"]) & (search["variable"] == "fertiliser")]
+        assert mine.set_index("n").loc[n, "power"] >= target
+        step = max(ABSOLUTE_RESOLUTION, RELATIVE_RESOLUTION * n)
+        near = mine[(mine["n"] < n) & (mine["n"] >= n - step)]
+        assert (near["power"] < target).any() or n - step <= floor - 1
+
+
+def test_target_not_reached_is_said():
+    sc = load_scenario(chain(effect=0.02))
+    result = plan(sc, replicates=200, seed=1)
+    row = result.smallest_n.set_index("strategy").loc["adjust_crew"]
+    assert pd.isna(row["n_for_power"])
+    assert "not reached within the largest size 320" in row["note"]
+
+
+def test_target_reached_below_the_grid_is_said():
+    sc = load_scenario(chain(effect=1.0))
+    result = plan(sc, replicates=200, seed=1)
+    row = result.smallest_n.set_index("strategy").loc["adjust_crew"]
+    assert row["n_for_power"] < 40
+    assert "below the smallest size on the grid (40)" in row["note"]
+
+
+def test_zero_effect_says_power_stays_at_alpha():
+    sc = load_scenario(chain(effect=0.0))
+    result = plan(sc, sample_sizes=[40, 80], replicates=200, seed=1)
+    note = result.smallest_n.set_index("strategy").loc["adjust_crew", "note"]
+    assert "true effect is 0" in note
+
+
+def test_json_follows_the_contract_and_has_no_nan(common_cause_plan, tmp_path):
+    text = common_cause_plan.to_json()
+    assert "NaN" not in text
+    data = json.loads(text)
+    for key in (
+        "title",
+        "replicates",
+        "seed",
+        "alpha",
+        "target_power",
+        "target_halfwidth",
+        "table",
+        "smallest_n",
+    ):
+        assert key in data
+    assert set(TABLE_COLUMNS) <= set(data["table"][0])
+    assert set(SMALLEST_COLUMNS) <= set(data["smallest_n"][0])
+    assert data["replicates"] == REPLICATES and data["seed"] == 11
+    assert "also" not in data
+
+
+def test_json_writes_null_for_missing_values():
+    sc = load_scenario(chain(effect=0.02))
+    data = json.loads(plan(sc, sample_sizes=[40, 80], replicates=100, seed=1).to_json())
+    assert data["smallest_n"][1]["n_for_power"] is None
+    assert data["target_halfwidth"] is None
+
+
+def test_csv_is_written_and_reads_back(common_cause_plan, tmp_path):
+    path = tmp_path / "plan.csv"
+    common_cause_plan.to_csv(path)
+    back = pd.read_csv(path)
+    assert list(back.columns) == TABLE_COLUMNS
+    assert len(back) == len(common_cause_plan.table)
+    assert [p.name for p in tmp_path.iterdir()] == ["plan.csv"]  # no temporary file left
+
+
+def test_text_names_every_strategy_and_the_flags(common_cause_plan):
+    text = common_cause_plan.to_text()
+    assert "adjust_soil" in text and "unadjusted (invalid!)" in text
+    assert "Smallest n" in text and "misleading" in text
+
+
+def test_same_seed_gives_the_same_plan_and_generators_are_accepted():
+    sc = load_preset("common_cause")
+    a = plan(sc, sample_sizes=[50, 100], replicates=200, seed=3)
+    b = plan(sc, sample_sizes=[50, 100], replicates=200, seed=3)
+    pd.testing.assert_frame_equal(a.table, b.table)
+    pd.testing.assert_frame_equal(a.smallest_n, b.smallest_n)
+    c = plan(sc, sample_sizes=[50, 100], replicates=200, seed=np.random.default_rng(3))
+    assert isinstance(c.seed, int)
+
+
+def test_defaults_come_from_the_study():
+    sc = load_preset("common_cause")
+    sc = sc.replace(
+        study=sc.study.__class__(replicates=150, seed=9, sample_sizes=(60, 120), target_power=0.7)
+    )
+    result = plan(sc)
+    assert result.replicates == 150 and result.seed == 9 and result.sample_sizes == [60, 120]
+    assert result.target_power == 0.7
+
+
+# ---- separating two effects -----------------------------------------------------------------------------
+def test_also_table_reports_the_second_effect(two_exposures_plan):
+    also = two_exposures_plan.also_table
+    assert list(also.columns) == ALSO_COLUMNS
+    assert set(also["strategy"]) == {"adjust_heating"}  # the only strategy whose model has heating
+    assert (also["variable"] == "heating").all()
+    assert (also["truth"] == 0.5).all()
+    assert also["valid"].all()
+    # the two inputs move together, so their estimates are negatively correlated
+    assert (also["correlation"] < -0.5).all()
+    assert also.set_index("n")["power"].iloc[-1] > 0.9
+    small = two_exposures_plan.also_smallest_n
+    assert len(small) == 1 and small["n_for_power"].iloc[0] > 100
+    data = json.loads(two_exposures_plan.to_json())
+    assert {"n", "strategy", "variable", "power", "correlation"} <= set(data["also"][0])
+    assert "Separating the effects" in two_exposures_plan.to_text()
+
+
+# ---- progress, cancelling and bad input ---------------------------------------------------------------
+def test_progress_is_monotone_and_ends_complete():
+    calls = []
+    plan(
+        load_preset("common_cause"),
+        sample_sizes=[50, 100, 200],
+        replicates=200,
+        seed=1,
+        progress=lambda done, total: calls.append((done, total)),
+    )
+    assert calls
+    done = [d for d, _ in calls]
+    assert done == sorted(done)
+    assert all(d <= t for d, t in calls)
+    assert calls[-1][0] == calls[-1][1]
+
+
+def test_progress_can_cancel():
+    def stop(done, total):
+        raise Cancelled("cancelled by the user")
+
+    with pytest.raises(Cancelled):
+        plan(load_preset("common_cause"), sample_sizes=[50, 100], replicates=200, seed=1, progress=stop)
+
+
+@pytest.mark.parametrize(
+    "changes, words",
+    [
+        ({"sample_sizes": [2, 100]}, "sample_sizes[1] = 2 is too small"),
+        ({"sample_sizes": []}, "at least one size"),
+        ({"sample_sizes": [50.5]}, "must be an integer"),
+        ({"replicates": 0}, "replicates must be an integer >= 2"),
+        ({"target_power": 1.5}, "target_power must lie strictly between 0 and 1"),
+        ({"target_halfwidth": -1.0}, "target_halfwidth must be a number > 0"),
+        ({"seed": -4}, "seed must be"),
+        ({"progress": 3}, "progress must be callable"),
+    ],
+)
+def test_bad_settings_raise_one_line_errors(changes, words):
+    with pytest.raises(SimulationError) as info:
+        plan(load_preset("common_cause"), **changes)
+    assert words in str(info.value) and "\n" not in str(info.value)
+
+
+# ---- the analytic helpers -----------------------------------------------------------------------------
+def test_noncentral_t_power_is_alpha_at_zero_and_rises():
+    assert noncentral_t_power(0.0, 50, 0.05) == pytest.approx(0.05)
+    powers = noncentral_t_power(np.array([0.5, 1.0, 2.0, 3.0]), 50)
+    assert np.all(np.diff(powers) > 0)
+
+
+def test_regression_power_is_nan_without_a_finite_se():
+    assert math.isnan(regression_power(0.3, float("inf"), 100, 3))
+
+
+def test_large_sample_of_an_invalid_set_is_the_biased_coefficient():
+    sc = load_preset("common_cause")
+    assert large_sample(sc, ()).estimand == pytest.approx(0.25 + 0.5 * 0.6 / 1.36)
+    assert large_sample(sc, ("soil_quality",)).estimand == pytest.approx(0.25)
+
+
+def test_find_smallest_n_respects_resolution():
+    n = find_smallest_n(lambda m: m >= 1000, 0, 4000, relative=0.02, absolute=5)
+    assert 1000 <= n <= 1000 + 0.02 * n + 1
+
+
+# ---- properties -----------------------------------------------------------------------------------------
+@settings(max_examples=12, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(effect=st.floats(0.1, 0.6), confounding=st.floats(-0.5, 0.5), n=st.integers(30, 300))
+def test_power_rises_with_n_for_a_valid_strategy(effect, confounding, n):
+    """Property (common practice, no source): with a nonzero effect, power of a valid strategy rises with n;
+    with common random numbers, quadrupling n never lowers simulated power beyond Monte Carlo noise."""
+    sc = load_scenario(chain(effect=effect, confounding=confounding))
+    result = plan(sc, sample_sizes=[n, 4 * n], replicates=300, seed=2, target_power=0.999)
+    rows = result.table[result.table["strategy"] == "adjust_crew"].sort_values("n")
+    low, high = rows["power"].to_numpy()
+    mcse = rows["power_mcse"].to_numpy()
+    assert high >= low - 3 * max(mcse.max(), 0.01)
+    assert rows["analytic_power"].is_monotonic_increasing
+
+
+@settings(max_examples=12, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(effect=st.floats(-0.6, 0.6), n=st.integers(40, 400))
+def test_ci_halfwidth_falls_as_one_over_root_n(effect, n):
+    """Property (common practice, no source): the CI half-width falls roughly as 1/sqrt(n)."""
+    sc = load_scenario(chain(effect=effect, confounding=0.3))
+    result = plan(sc, sample_sizes=[n, 4 * n], replicates=300, seed=4, target_power=0.5)
+    for _, rows in result.table.groupby("strategy"):
+        small, large = rows.sort_values("n")["mean_ci_halfwidth"].to_numpy()
+        assert small / large == pytest.approx(2.0, rel=0.1)

@@ -1,0 +1,214 @@
+"""HTML tables built from library results (no Panel import), for the dashboard and the HTML report.
+
+The performance table flags a cell when the Monte Carlo evidence says something is off (Morris, White &
+Crowther 2019, "Using simulation studies to evaluate statistical methods", Statistics in Medicine
+38:2074-2102): the bias when ``|bias| > 3 x MCSE(bias)``, and the coverage when it lies outside
+``nominal +/- 3 x MCSE(coverage)``. Every number cell carries ``data-strategy``, ``data-field`` and
+``data-value`` attributes so tests and scripts can read the exact values.
+
+Examples
+--------
+>>> import pandas as pd
+>>> row = dict(name="a", adjust=[], valid=True, mean=0.25, bias=0.01, bias_mcse=0.002, relative_bias=4.0,
+...            emp_se=0.07, emp_se_mcse=0.001, model_se=0.07, model_se_mcse=0.0005, rmse=0.07,
+...            coverage=0.95, coverage_mcse=0.005, power=0.9, power_mcse=0.007, failures=0)
+>>> html = performance_table(pd.DataFrame([row]), alpha=0.05)
+>>> 'class="flag"' in html
+True
+"""
+
+from __future__ import annotations
+
+import html
+import math
+from typing import Any
+
+import pandas as pd
+
+__all__ = ["TABLE_CSS", "flags", "performance_table", "signals_table", "strategies_table", "smallest_n_table",
+           "fmt"]
+
+#: Styles of the tables (no web fonts: the system's sans-serif).
+TABLE_CSS = """
+table.wb { border-collapse: collapse; font-family: system-ui, -apple-system, "Segoe UI", sans-serif;
+  font-size: 13px; margin: 4px 0 8px 0; }
+table.wb th { text-align: right; padding: 4px 8px; border-bottom: 2px solid #333; font-weight: 600;
+  background: #f4f4f4; white-space: normal; vertical-align: bottom; max-width: 120px; }
+table.wb th:first-child, table.wb td:first-child { text-align: left; }
+table.wb td { text-align: right; padding: 4px 8px; border-bottom: 1px solid #ddd; white-space: nowrap;
+  font-variant-numeric: tabular-nums; }
+table.wb td.text { text-align: left; white-space: normal; }
+table.wb td.text div { max-width: 460px; min-width: 90px; }
+table.wb td.flag { background: #F0E442; font-weight: 600; }
+table.wb td.invalid { color: #A33C00; font-weight: 600; }
+table.wb td.valid { color: #00603F; font-weight: 600; }
+table.wb span.mcse { color: #666; font-size: 11px; }
+"""
+
+
+def fmt(value: Any, digits: int = 3) -> str:
+    """A number for a table: fixed decimals, '-' for missing.
+
+    Examples
+    --------
+    >>> fmt(0.123456), fmt(None), fmt(float("nan")), fmt(12)
+    ('0.123', '-', '-', '12')
+    """
+    if value is None or value is pd.NA:
+        return "-"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, int):
+        return f"{value:,}"
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return html.escape(str(value))
+    if not math.isfinite(number):
+        return "-"
+    return f"{number:.{digits}f}"
+
+
+def _get(row: Any, key: str) -> Any:
+    try:
+        value = row[key]
+    except (KeyError, IndexError):
+        return None
+    if not isinstance(value, list | tuple) and pd.isna(value):
+        return None
+    return value
+
+
+def flags(row: Any, alpha: float) -> dict[str, bool]:
+    """Which cells of a performance-table row to flag: ``bias`` when |bias| > 3 MCSE, ``coverage`` when
+    outside (1 - alpha) +/- 3 MCSE.
+
+    Examples
+    --------
+    >>> flags({"bias": 0.01, "bias_mcse": 0.002, "coverage": 0.95, "coverage_mcse": 0.005}, 0.05)
+    {'bias': True, 'coverage': False}
+    """
+    bias, bias_mcse = _get(row, "bias"), _get(row, "bias_mcse")
+    cov, cov_mcse = _get(row, "coverage"), _get(row, "coverage_mcse")
+    out = {"bias": False, "coverage": False}
+    if bias is not None and bias_mcse is not None:
+        out["bias"] = abs(bias) > 3 * bias_mcse
+    if cov is not None and cov_mcse is not None:
+        out["coverage"] = abs(cov - (1 - alpha)) > 3 * cov_mcse
+    return out
+
+
+def _cell(strategy: str, field: str, value: Any, *, mcse: Any = None, digits: int = 3, flagged: bool = False,
+          title: str = "") -> str:
+    text = fmt(value, digits)
+    if mcse is not None:
+        text += f' <span class="mcse">({fmt(mcse, digits)})</span>'
+    raw = "" if value is None else html.escape(repr(float(value)) if isinstance(value, int | float) else str(value))
+    attrs = f'data-strategy="{html.escape(strategy)}" data-field="{field}" data-value="{raw}"'
+    if flagged:
+        attrs += ' class="flag"'
+    if title:
+        attrs += f' title="{html.escape(title)}"'
+    return f"<td {attrs}>{text}</td>"
+
+
+def _verdict_cell(valid: Any) -> str:
+    if valid is None:
+        return "<td>-</td>"
+    return '<td class="valid">valid</td>' if bool(valid) else '<td class="invalid">invalid</td>'
+
+
+def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "performance") -> str:
+    """The performance table: each measure with its Monte Carlo SE in brackets, suspicious cells flagged.
+
+    Parameters
+    ----------
+    table : DataFrame
+        ``SimulationResult.table``.
+    alpha : float
+        The study's alpha; nominal coverage is 1 - alpha.
+    """
+    head = ("strategy", "verdict", "adjusts for", "mean estimate", "bias (MCSE)", "relative bias %",
+            "empirical SE (MCSE)", "model SE (MCSE)", "RMSE", f"coverage of {1 - alpha:.0%} CI (MCSE)",
+            "power (MCSE)", "failures")
+    rows = []
+    for _, r in table.iterrows():
+        name = str(r["name"])
+        flag = flags(r, alpha)
+        adjust = _get(r, "adjust")
+        adjust_text = ", ".join(adjust) if isinstance(adjust, list | tuple) and adjust else (
+            adjust if isinstance(adjust, str) and adjust else "nothing")
+        cells = [
+            f"<td>{html.escape(name)}</td>",
+            _verdict_cell(_get(r, "valid")),
+            f'<td class="text"><div>{html.escape(str(adjust_text))}</div></td>',
+            _cell(name, "mean", _get(r, "mean")),
+            _cell(name, "bias", _get(r, "bias"), mcse=_get(r, "bias_mcse"), flagged=flag["bias"],
+                  title="|bias| exceeds 3 Monte Carlo SEs" if flag["bias"] else ""),
+            _cell(name, "relative_bias", _get(r, "relative_bias"), digits=1),
+            _cell(name, "emp_se", _get(r, "emp_se"), mcse=_get(r, "emp_se_mcse")),
+            _cell(name, "model_se", _get(r, "model_se"), mcse=_get(r, "model_se_mcse")),
+            _cell(name, "rmse", _get(r, "rmse")),
+            _cell(name, "coverage", _get(r, "coverage"), mcse=_get(r, "coverage_mcse"), flagged=flag["coverage"],
+                  title="coverage is outside nominal +/- 3 Monte Carlo SEs" if flag["coverage"] else ""),
+            _cell(name, "power", _get(r, "power"), mcse=_get(r, "power_mcse")),
+            _cell(name, "failures", _get(r, "failures"), digits=0),
+        ]
+        rows.append("<tr>" + "".join(cells) + "</tr>")
+    header = "".join(f"<th>{html.escape(h)}</th>" for h in head)
+    return (f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
+            + "".join(rows) + "</tbody></table>")
+
+
+def signals_table(table: pd.DataFrame, *, table_id: str = "signals") -> str:
+    """Change in estimate against the unadjusted strategy, SE ratio and the exposure's VIF per strategy."""
+    head = ("strategy", "median change in estimate vs unadjusted", "share of replicates with change > 10%",
+            "SE ratio vs unadjusted", "VIF of the exposure")
+    rows = []
+    for _, r in table.iterrows():
+        name = str(r["name"])
+        cells = [
+            f"<td>{html.escape(name)}</td>",
+            _cell(name, "change_in_estimate_median", _get(r, "change_in_estimate_median")),
+            _cell(name, "share_change_over_10pct", _get(r, "share_change_over_10pct")),
+            _cell(name, "se_ratio", _get(r, "se_ratio")),
+            _cell(name, "vif", _get(r, "vif"), digits=2),
+        ]
+        rows.append("<tr>" + "".join(cells) + "</tr>")
+    header = "".join(f"<th>{html.escape(h)}</th>" for h in head)
+    return (f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
+            + "".join(rows) + "</tbody></table>")
+
+
+def strategies_table(rows: list[dict], *, table_id: str = "verdicts") -> str:
+    """Strategies with their verdict and reasons (rows from ``CheckReport.strategies``)."""
+    out = []
+    for r in rows:
+        adjust = ", ".join(r.get("adjust") or []) or "nothing"
+        reasons = "<br>".join(html.escape(x) for x in (r.get("reasons") or []))
+        notes = "<br>".join(html.escape(x) for x in (r.get("notes") or []))
+        model = r.get("model", "ols") + (" (standardised)" if r.get("standardize") else "")
+        out.append(
+            f"<tr><td>{html.escape(r['name'])}</td>{_verdict_cell(r.get('valid'))}"
+            f'<td class="text"><div>{html.escape(adjust)}</div></td><td>{html.escape(model)}</td>'
+            f'<td class="text"><div>{reasons}{"<br><i>" + notes + "</i>" if notes else ""}</div></td></tr>'
+        )
+    header = "".join(f"<th>{h}</th>" for h in ("strategy", "verdict", "adjusts for", "model", "why"))
+    return (f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
+            + "".join(out) + "</tbody></table>")
+
+
+def smallest_n_table(smallest: pd.DataFrame, *, table_id: str = "smallest-n") -> str:
+    """The smallest n per strategy for the target power (and half-width), with notes."""
+    out = []
+    for _, r in smallest.iterrows():
+        name = str(r["strategy"])
+        cells = [f"<td>{html.escape(name)}</td>", _verdict_cell(_get(r, "valid")),
+                 _cell(name, "n_for_power", _get(r, "n_for_power"), digits=0),
+                 _cell(name, "n_for_halfwidth", _get(r, "n_for_halfwidth"), digits=0),
+                 f'<td class="text"><div>{html.escape(str(_get(r, "note") or ""))}</div></td>']
+        out.append("<tr>" + "".join(cells) + "</tr>")
+    header = "".join(f"<th>{h}</th>" for h in ("strategy", "verdict", "smallest n for target power",
+                                                  "smallest n for target half-width", "note"))
+    return (f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
+            + "".join(out) + "</tbody></table>")

@@ -1,0 +1,221 @@
+"""Plain-language stories of what each strategy does, for stakeholders.
+
+:func:`explain` turns the graph analysis (:func:`workbench.check.check`) and, when there is one, a simulation
+result (:func:`workbench.simulate.simulate`) into one short story per strategy: what it adjusts for, which
+paths between the exposure and the outcome that opens or blocks, the resulting bias and coverage with numbers
+from the run, and a recommendation. The dashboard's Explain tab and the HTML report show the same stories.
+
+The words follow the adjustment criterion for total effects and the single-door criterion for direct effects
+(Pearl J. (2009). Causality, 2nd ed., Def. 3.3.1 and Thm 5.3.1; Shpitser I., VanderWeele T., Robins J.
+(2010). On the validity of covariate adjustment for estimating causal effects. UAI), and the advice on good
+and bad controls of Cinelli C., Forney A., Pearl J. (2022). A Crash Course in Good and Bad Controls.
+Sociological Methods & Research.
+
+Examples
+--------
+>>> from workbench.check import check
+>>> from workbench.presets import load_preset
+>>> stories = explain(check(load_preset("common_cause")))
+>>> [s.name for s in stories], [s.valid for s in stories]
+(['unadjusted', 'adjust_soil'], [False, True])
+>>> print(stories[0].recommendation)
+Not recommended: it answers a different question than the one asked.
+"""
+
+from __future__ import annotations
+
+import html
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+from .check import ASSUMPTION, CheckReport
+
+__all__ = ["ASSUMPTION_NOTE", "Story", "explain"]
+
+#: The note shown beside every result: the graph is an assumption.
+ASSUMPTION_NOTE = ASSUMPTION
+
+
+@dataclass
+class Story:
+    """One strategy's story.
+
+    Attributes
+    ----------
+    name : str
+    valid : bool
+    title : str
+        One line: the name, the adjustment set and the verdict.
+    paragraphs : list of str
+        Plain sentences: what it adjusts for, the paths, the numbers.
+    recommendation : str
+    """
+
+    name: str
+    valid: bool
+    title: str
+    paragraphs: list[str] = field(default_factory=list)
+    recommendation: str = ""
+
+    def text(self) -> str:
+        """The story as plain text."""
+        return "\n".join([self.title, *self.paragraphs, self.recommendation])
+
+    def html(self) -> str:
+        """The story as HTML paragraphs (the title excluded), escaped."""
+        body = "".join(f"<p style='margin:3px 0'>{html.escape(p)}</p>" for p in self.paragraphs)
+        return body + f"<p style='margin:3px 0'><b>{html.escape(self.recommendation)}</b></p>"
+
+
+def _number(value: Any) -> float | None:
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return None
+    return number if math.isfinite(number) else None
+
+
+def _sets(names) -> str:
+    names = list(names)
+    if not names:
+        return "nothing"
+    if len(names) == 1:
+        return names[0]
+    return ", ".join(names[:-1]) + " and " + names[-1]
+
+
+def _rows_by_name(result) -> dict[str, dict]:
+    if result is None:
+        return {}
+    return {str(r["name"]): r for r in result.table.to_dict("records")}
+
+
+def explain(report: CheckReport, result=None) -> list[Story]:
+    """One plain-language story per strategy.
+
+    Parameters
+    ----------
+    report : CheckReport
+        The graph analysis of the scenario.
+    result : SimulationResult, optional
+        A simulation of the same scenario; without it the stories quote the large-sample figures of the
+        closed form where there is one.
+
+    Returns
+    -------
+    list of Story
+        In the scenario's strategy order.
+
+    Examples
+    --------
+    >>> from workbench.check import check
+    >>> from workbench.presets import load_preset
+    >>> story = explain(check(load_preset("common_cause")))[1]
+    >>> story.title
+    'adjust_soil: adjusts for soil_quality (valid)'
+    >>> print(story.paragraphs[1])
+    It blocks the non-causal path fertiliser <- soil_quality -> wheat_yield.
+    """
+    scenario = report.scenario
+    q = scenario.question
+    sim = _rows_by_name(result)
+    alpha = scenario.study.alpha if result is None else float(getattr(result, "alpha", scenario.study.alpha))
+    truth = _number(result.truth) if result is not None else _number(report.truth)
+    nominal = 1 - alpha
+
+    valid_names = [s["name"] for s in report.strategies if s["valid"]]
+    precision: dict[str, float] = {}
+    for s in report.strategies:
+        if not s["valid"]:
+            continue
+        if sim:
+            se = _number(sim.get(s["name"], {}).get("emp_se"))
+        else:
+            se = _number(s.get("large_sample_se_factor"))
+        if se is not None:
+            precision[s["name"]] = se
+    best = min(precision, key=precision.get) if precision else None
+
+    stories = []
+    for s in report.strategies:
+        name, adjust = s["name"], list(s["adjust"])
+        verdict = "valid" if s["valid"] else "invalid"
+        title = f"{name}: adjusts for {_sets(adjust)} ({verdict})"
+        paragraphs = []
+        model = s.get("model", "ols")
+        what = {
+            "ols": "a linear regression",
+            "logit": "a logistic regression" + (" standardised to the whole sample" if s.get("standardize")
+                                                 else ""),
+        }.get(model, model)
+        paragraphs.append(
+            f"It fits {what} of {q.outcome} on {q.exposure}"
+            + (f" and {_sets(adjust)}" if adjust else " alone, the raw comparison") + "."
+        )
+        open_noncausal = [p.text for p in s["open_paths"] if not p.causal]
+        blocked_noncausal = [p.text for p in s["blocked_paths"] if not p.causal]
+        blocked_causal = [p.text for p in s["blocked_paths"] if p.causal]
+        if blocked_noncausal:
+            word = "path" if len(blocked_noncausal) == 1 else "paths"
+            paragraphs.append(f"It blocks the non-causal {word} {'; '.join(blocked_noncausal)}.")
+        if open_noncausal:
+            word = "path" if len(open_noncausal) == 1 else "paths"
+            paragraphs.append(f"It leaves the non-causal {word} {'; '.join(open_noncausal)} open, so part of "
+                              f"the association between {q.exposure} and {q.outcome} is not their effect.")
+        if blocked_causal and q.target == "total":
+            paragraphs.append(f"It cuts part of the effect itself by blocking {'; '.join(blocked_causal)}.")
+        if not s["valid"]:
+            other = [r for r in s["reasons"] if not r.startswith("leaves the non-causal")]
+            if other:
+                paragraphs.append("Why it fails: " + "; ".join(other) + ".")
+        for note in s.get("notes") or []:
+            paragraphs.append(note[0].upper() + note[1:] + ("" if note.endswith(".") else "."))
+
+        row = sim.get(name)
+        if row is not None:
+            bias, bias_mcse = _number(row.get("bias")), _number(row.get("bias_mcse"))
+            cov, cov_mcse = _number(row.get("coverage")), _number(row.get("coverage_mcse"))
+            emp_se, power = _number(row.get("emp_se")), _number(row.get("power"))
+            numbers = []
+            if bias is not None and truth is not None:
+                size = f"{bias:+.3g}" + (f" (Monte Carlo SE {bias_mcse:.2g})" if bias_mcse is not None else "")
+                rel = f", {100 * abs(bias) / abs(truth):.0f}% of the true effect {truth:.3g}" if truth else ""
+                numbers.append(f"across the simulated studies its estimates were off by {size} on average{rel}")
+            if cov is not None:
+                cov_text = f"its {nominal:.0%} confidence intervals covered the truth in {cov:.1%} of studies"
+                if cov_mcse is not None and abs(cov - nominal) > 3 * cov_mcse:
+                    cov_text += f" (they should in {nominal:.0%})"
+                numbers.append(cov_text)
+            if emp_se is not None:
+                numbers.append(f"its estimates varied with a standard error of {emp_se:.3g}")
+            if power is not None:
+                numbers.append(f"it found an effect (p < {alpha:g}) in {power:.0%} of studies")
+            if numbers:
+                paragraphs.append("In the simulation, " + "; ".join(numbers) + ".")
+        else:
+            ls_bias = _number(s.get("large_sample_bias"))
+            if ls_bias is not None and truth is not None:
+                paragraphs.append(
+                    f"In a very large sample its estimate would be {truth + ls_bias:.3g} against a true effect "
+                    f"of {truth:.3g} (bias {ls_bias:+.3g}). Run the simulation to see coverage and precision at "
+                    f"n = {scenario.study.n}.")
+
+        if s["valid"]:
+            if best is None or name == best:
+                recommendation = ("Recommended: valid" + (", and the most precise valid strategy here."
+                                                          if len(valid_names) > 1 else "."))
+            else:
+                ratio = precision.get(name, math.nan) / precision[best]
+                extra = f" (its standard error is {100 * (ratio - 1):.0f}% larger)" if math.isfinite(ratio) and \
+                    ratio > 1.005 else ""
+                recommendation = f"Valid, but {best} estimates the same effect more precisely{extra}."
+        else:
+            if valid_names:
+                recommendation = "Not recommended: it answers a different question than the one asked."
+            else:
+                recommendation = ("Not recommended, but no strategy here is valid: under this graph no set of "
+                                  "observed variables removes the bias. Measuring the latent variables or "
+                                  "another design is needed.")
+        stories.append(Story(name, bool(s["valid"]), title, paragraphs, recommendation))
+    return stories
