@@ -255,6 +255,11 @@ def check(scenario: Scenario) -> CheckReport:
     sets_note = adjustment.minimal_sets_note(scenario)
     if sets_note:
         notes.append(sets_note)
+    if len(paths) >= adjustment.MAX_PATHS:
+        notes.append(
+            f"only the first {adjustment.MAX_PATHS} paths between exposure and outcome are listed; "
+            "verdicts use d-separation on the whole graph and do not depend on the list"
+        )
     minimal = adjustment.minimal_sets(scenario)
     if not minimal:
         notes.append(
