@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from scipy import special
 
 import workbench as wb
 from workbench.generate import (
@@ -101,6 +102,10 @@ def test_root_binary_intercept_is_the_logit():
         "sales",
     )
     assert calibrate_intercepts(sc)["promo"] == pytest.approx(np.log(0.2 / 0.8), abs=1e-12)
+    z = np.random.default_rng(5).standard_normal((100_000, 2))
+    values = evaluate(sc, z)
+    np.testing.assert_array_equal(values[:, 0], (special.ndtr(z[:, 0]) < 0.2).astype(float))
+    assert values[:, 0].mean() == pytest.approx(0.2, abs=0.005)
 
 
 def test_evaluate_interventions_recompute_descendants():

@@ -8,6 +8,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy.special import expit
 
+from workbench import logistic
 from workbench.errors import SimulationError
 from workbench.logistic import LogitFit, design_matrix, fit_logit_batch, standardized_contrast
 from workbench.robust import ols_hc3_batch
@@ -40,16 +41,23 @@ def test_score_is_zero_at_the_fit():
     assert fit.iterations.max() < 15
 
 
-def test_each_replicate_is_fitted_independently_of_the_others():
-    X, y = _draw(2, R=12)
-    together = fit_logit_batch(X, y, workers=1)
+def test_each_replicate_is_fitted_independently_of_the_others(monkeypatch):
+    X, y = _draw(2, R=30)
+    y[3] = 0.0  # a failing replicate in the first block
+    together = fit_logit_batch(X, y)
+    monkeypatch.setattr(logistic, "_CACHE_BYTES", 1)  # blocks of 8 replicates: 4 blocks
+    blocked = fit_logit_batch(X, y)
     threaded = fit_logit_batch(X, y, workers=3)
-    alone = [fit_logit_batch(X[r : r + 1], y[r : r + 1]) for r in (0, 5, 11)]
-    for fit in (threaded,):
+    alone = [fit_logit_batch(X[r : r + 1], y[r : r + 1]) for r in (0, 3, 17, 29)]
+    for fit in (blocked, threaded):
         np.testing.assert_array_equal(fit.coef, together.coef)
         np.testing.assert_array_equal(fit.cov, together.cov)
-    for r, fit in zip((0, 5, 11), alone, strict=True):
+        np.testing.assert_array_equal(fit.failure, together.failure)
+        np.testing.assert_array_equal(fit.iterations, together.iterations)
+    assert together.failure[3] == "complete separation"
+    for r, fit in zip((0, 3, 17, 29), alone, strict=True):
         np.testing.assert_allclose(fit.coef[0], together.coef[r], rtol=0, atol=1e-12)
+        assert fit.failure[0] == together.failure[r]
 
 
 def test_row_order_does_not_matter():
@@ -113,7 +121,9 @@ def test_wrong_shapes_raise_a_workbench_error():
         fit_logit_batch(np.ones((2, 3)), np.ones(2))
     with pytest.raises(SimulationError, match="max_iter"):
         fit_logit_batch(np.ones((1, 3, 1)), np.ones((1, 3)), max_iter=0)
-    fit = LogitFit(np.zeros((1, 2)), np.zeros((1, 2, 2)), np.ones(1, bool), np.array([""], object), np.ones(1))
+    fit = LogitFit(
+        np.zeros((1, 2)), np.zeros((1, 2, 2)), np.ones(1, bool), np.array([""], object), np.ones(1)
+    )
     with pytest.raises(SimulationError, match="exposure_kind"):
         standardized_contrast(fit, np.ones((1, 3, 2)), 1, exposure_kind="ordinal")
     with pytest.raises(SimulationError, match="scale"):

@@ -317,3 +317,18 @@ def test_ci_halfwidth_falls_as_one_over_root_n(effect, n):
     for _, rows in result.table.groupby("strategy"):
         small, large = rows.sort_values("n")["mean_ci_halfwidth"].to_numpy()
         assert small / large == pytest.approx(2.0, rel=0.1)
+
+
+def test_raw_engine_search_fits_only_the_strategies_it_needs_with_the_same_numbers():
+    """A bisection size fitted for one strategy alone gives the same power as fitting them all."""
+    from workbench.simulate import run_replicates
+
+    sc = load_preset("binary_exposure")
+    result = plan(sc, sample_sizes=[100, 400], replicates=200, seed=8)
+    assert result.engine == "raw"
+    extra = result.search[~result.search["on_grid"]]
+    assert len(extra) and extra.groupby("n")["strategy"].nunique().min() < len(sc.strategies)
+    n, strategy = int(extra["n"].iloc[0]), extra["strategy"].iloc[0]
+    arrays = run_replicates(sc, n, 200, 8)
+    column = arrays.strategies.index(strategy)
+    assert extra["power"].iloc[0] == pytest.approx(np.mean(arrays.p_value[:, column] <= sc.study.alpha))

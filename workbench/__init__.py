@@ -1,61 +1,71 @@
 """workbench: write down an assumed causal graph with effect sizes, simulate studies from it, and compare
 adjustment strategies by bias, confidence-interval coverage, standard errors and power.
 
-The public functions are re-exported here and imported on first use, so that the command line starts fast.
-
 Examples
 --------
 >>> import workbench as wb
 >>> sc = wb.load_preset("common_cause")
 >>> sc.question.exposure
 'fertiliser'
+>>> round(wb.check(sc).truth, 3)
+0.25
 """
 
 from __future__ import annotations
 
-import importlib
-
 __version__ = "0.1.0"
 
-_EXPORTS = {
-    "WorkbenchError": "errors",
-    "ScenarioError": "errors",
-    "SimulationError": "errors",
-    "Cancelled": "errors",
-    "Scenario": "scenario",
-    "Variable": "scenario",
-    "Arrow": "scenario",
-    "Strategy": "scenario",
-    "Question": "scenario",
-    "Study": "scenario",
-    "load_scenario": "scenario",
-    "save_scenario": "scenario",
-    "dumps_scenario": "scenario",
-    "scenario_from_dict": "scenario",
-    "scenario_to_dict": "scenario",
-    "load_preset": "presets",
-    "list_presets": "presets",
-    "check": "check",
-    "CheckReport": "check",
-    "draw": "generate",
-    "estimate": "estimate",
-    "simulate": "simulate",
-    "SimulationResult": "simulate",
-    "plan": "plan",
-    "PlanResult": "plan",
-}
+from .check import CheckReport, check
+from .errors import Cancelled, ScenarioError, SimulationError, WorkbenchError
+from .estimate import estimate
+from .generate import draw
+from .plan import PlanResult, plan
+from .presets import list_presets, load_preset
+from .scenario import (
+    Arrow,
+    Question,
+    Scenario,
+    Strategy,
+    Study,
+    Variable,
+    dumps_scenario,
+    load_scenario,
+    save_scenario,
+    scenario_from_dict,
+    scenario_to_dict,
+)
+from .simulate import ReplicateArrays, SimulationResult, run_replicates, simulate
+from .truth import Truth, true_effect
 
-__all__ = sorted(_EXPORTS) + ["__version__"]
-
-
-def __getattr__(name: str):
-    module = _EXPORTS.get(name)
-    if module is None:
-        raise AttributeError(f"module 'workbench' has no attribute {name!r}")
-    value = getattr(importlib.import_module(f"{__name__}.{module}"), name)
-    globals()[name] = value
-    return value
-
-
-def __dir__():
-    return __all__
+__all__ = [
+    "__version__",
+    "WorkbenchError",
+    "ScenarioError",
+    "SimulationError",
+    "Cancelled",
+    "Scenario",
+    "Variable",
+    "Arrow",
+    "Strategy",
+    "Question",
+    "Study",
+    "load_scenario",
+    "save_scenario",
+    "dumps_scenario",
+    "scenario_from_dict",
+    "scenario_to_dict",
+    "list_presets",
+    "load_preset",
+    "check",
+    "CheckReport",
+    "draw",
+    "true_effect",
+    "Truth",
+    "simulate",
+    "run_replicates",
+    "ReplicateArrays",
+    "SimulationResult",
+    "estimate",
+    "plan",
+    "PlanResult",
+]

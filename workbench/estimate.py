@@ -35,8 +35,9 @@ import numpy as np
 import pandas as pd
 
 from .errors import ScenarioError
-from .ols import crossproducts, fit_crossproducts, hc3_se, ols_fit, t_inference
+from .ols import ols_fit, t_inference
 from .scenario import Scenario
+from .truth import estimand, model_kind
 
 __all__ = ["estimate"]
 
@@ -117,7 +118,7 @@ def estimate(scenario: Scenario, data: pd.DataFrame, alpha: float | None = None)
     workbench.errors.ScenarioError: data: the data have no column 'wheat_yield' (columns: fertiliser)
     """
     from .logistic import design_matrix, fit_logit_batch, standardized_contrast
-    from .simulate import _estimand, _kind
+    from .robust import ols_hc3_batch
 
     if not isinstance(data, pd.DataFrame):
         raise ScenarioError(f"must be a pandas DataFrame, got {type(data).__name__}", where="data")
@@ -129,8 +130,8 @@ def estimate(scenario: Scenario, data: pd.DataFrame, alpha: float | None = None)
     n = len(data)
     rows = []
     for s in scenario.strategies:
-        kind = _kind(s, binary_outcome)
-        estimand = _estimand(kind, scenario)[0]
+        kind = model_kind(s, binary_outcome)
+        target = estimand(kind, scenario, s.adjust)[0]
         names = [q.exposure, *s.adjust]
         X = np.column_stack([columns[v] for v in names])
         y = columns[q.outcome]
@@ -144,14 +145,11 @@ def estimate(scenario: Scenario, data: pd.DataFrame, alpha: float | None = None)
             fit = ols_fit(X, y, names)
             est, se, df, failure = fit.coef[0], fit.se[0], float(fit.df), fit.failure
         elif kind == "lpm":
-            stacked = np.vstack([X.T, y[None, :]])[None]
-            batch = fit_crossproducts(
-                crossproducts(stacked), n, p - 1, range(p - 1), names + [q.outcome], keep_inverse=True
-            )
-            est = batch.coef[0, 0]
-            se = hc3_se(batch, stacked, p - 1, range(p - 1))[0, 0]
-            if batch.failed[0]:
-                failure = next(iter(batch.reasons))
+            design = design_matrix(np.column_stack([X, y])[None], 0, list(range(1, p - 1)))
+            coef, robust_se, failed = ols_hc3_batch(design, y[None])
+            est, se = coef[0, 1], robust_se[0, 1]
+            if failed[0]:
+                failure = "singular design or a row with leverage 1 (HC3 undefined)"
         else:
             rows_data = np.column_stack([X, y])[None]
             design = design_matrix(rows_data, 0, list(range(1, p - 1)))
@@ -176,7 +174,7 @@ def estimate(scenario: Scenario, data: pd.DataFrame, alpha: float | None = None)
             [
                 s.name,
                 s.model + (" (standardised)" if s.standardize else ""),
-                estimand,
+                target,
                 float(est),
                 float(se),
                 float(low[0]),

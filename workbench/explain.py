@@ -135,7 +135,14 @@ def explain(report: CheckReport, result=None) -> list[Story]:
             se = _number(s.get("large_sample_se_factor"))
         if se is not None:
             precision[s["name"]] = se
-    best = min(precision, key=precision.get) if precision else None
+    def group(name: str) -> str:
+        return str(sim.get(name, {}).get("estimand") or "effect")
+
+    best_in: dict[str, str] = {}
+    for candidate, se in precision.items():
+        current = best_in.get(group(candidate))
+        if current is None or se < precision[current]:
+            best_in[group(candidate)] = candidate
 
     stories = []
     for s in report.strategies:
@@ -174,13 +181,17 @@ def explain(report: CheckReport, result=None) -> list[Story]:
 
         row = sim.get(name)
         if row is not None:
+            row_truth = _number(row.get("truth"))
+            row_truth = truth if row_truth is None else row_truth
             bias, bias_mcse = _number(row.get("bias")), _number(row.get("bias_mcse"))
             cov, cov_mcse = _number(row.get("coverage")), _number(row.get("coverage_mcse"))
             emp_se, power = _number(row.get("emp_se")), _number(row.get("power"))
             numbers = []
-            if bias is not None and truth is not None:
+            if bias is not None and row_truth is not None:
                 size = f"{bias:+.3g}" + (f" (Monte Carlo SE {bias_mcse:.2g})" if bias_mcse is not None else "")
-                rel = f", {100 * abs(bias) / abs(truth):.0f}% of the true effect {truth:.3g}" if truth else ""
+                share = 100 * abs(bias) / abs(row_truth) if row_truth else math.nan
+                rel = (f", {share:.0f}% of the true effect {row_truth:.3g}" if share >= 1 else
+                       f", under 1% of the true effect {row_truth:.3g}") if row_truth else ""
                 numbers.append(f"across the simulated studies its estimates were off by {size} on average{rel}")
             if cov is not None:
                 cov_text = f"its {nominal:.0%} confidence intervals covered the truth in {cov:.1%} of studies"
@@ -193,6 +204,9 @@ def explain(report: CheckReport, result=None) -> list[Story]:
                 numbers.append(f"it found an effect (p < {alpha:g}) in {power:.0%} of studies")
             if numbers:
                 paragraphs.append("In the simulation, " + "; ".join(numbers) + ".")
+            if row.get("note"):
+                note = str(row["note"])
+                paragraphs.append(note[0].upper() + note[1:] + ("" if note.endswith(".") else "."))
         else:
             ls_bias = _number(s.get("large_sample_bias"))
             if ls_bias is not None and truth is not None:
@@ -201,10 +215,11 @@ def explain(report: CheckReport, result=None) -> list[Story]:
                     f"of {truth:.3g} (bias {ls_bias:+.3g}). Run the simulation to see coverage and precision at "
                     f"n = {scenario.study.n}.")
 
+        best = best_in.get(group(name))
         if s["valid"]:
             if best is None or name == best:
                 recommendation = ("Recommended: valid" + (", and the most precise valid strategy here."
-                                                          if len(valid_names) > 1 else "."))
+                                                          if len(valid_names) > 1 else ", the only valid one."))
             else:
                 ratio = precision.get(name, math.nan) / precision[best]
                 extra = f" (its standard error is {100 * (ratio - 1):.0f}% larger)" if math.isfinite(ratio) and \

@@ -68,11 +68,15 @@ __all__ = [
     "draw_rows",
     "evaluate",
     "draw_noise",
+    "noise_pieces",
+    "PIECE",
     "structure",
     "Structure",
     "block_seed",
 ]
 
+PIECE = 2**16
+"""Rows per piece of a replicate's noise stream (see :func:`draw_noise`)."""
 CALIBRATION_DRAWS = 2**20
 CALIBRATION_SEED = 20_261_201
 
@@ -282,27 +286,39 @@ def evaluate(
         raise ValueError("evaluate: an intervention on a Structure needs exposure=")
     if out is None:
         out = np.empty_like(noise, dtype=float)
+    in_place = out is noise
     z = np.moveaxis(noise, axis, 0)
     v = np.moveaxis(out, axis, 0)
     prob_index = None if probability is None else st.index(probability)
     scratch = np.empty(v.shape[1:])
+    tmp = np.empty(v.shape[1:]) if st.binary.any() else None
     for j in st.order:
         idx, eff = st.parents[j]
         if intervention is not None and j == target and intervention[0] == "set":
             v[j] = intervention[1]
             continue
-        if st.binary[j]:
-            np.copyto(scratch, st.intercept[j])
-            for i, e in zip(idx, eff, strict=True):
-                scratch += e * v[i]
+        if st.binary[j] and not len(idx) and j != prob_index:
+            # no causes: Phi(Z) < p is Z < Phi^-1(p), one comparison per row
+            np.less(z[j], special.ndtri(special.expit(st.intercept[j])), out=v[j], casting="unsafe")
+        elif st.binary[j]:
+            if len(idx):
+                np.multiply(v[idx[0]], eff[0], out=scratch)
+                scratch += st.intercept[j]
+            else:
+                np.copyto(scratch, st.intercept[j])
+            for i, e in zip(idx[1:], eff[1:], strict=True):
+                np.multiply(v[i], e, out=tmp)
+                scratch += tmp
             special.expit(scratch, out=scratch)
             if j == prob_index:
                 v[j] = scratch
             else:
                 np.less(special.ndtr(z[j]), scratch, out=v[j], casting="unsafe")
         else:
-            np.multiply(z[j], st.noise_sd[j], out=v[j])
-            v[j] += st.intercept[j]
+            if st.noise_sd[j] != 1.0 or not in_place:
+                np.multiply(z[j], st.noise_sd[j], out=v[j])
+            if st.intercept[j] != 0.0:
+                v[j] += st.intercept[j]
             for i, e in zip(idx, eff, strict=True):
                 np.multiply(v[i], e, out=scratch)
                 v[j] += scratch
@@ -314,12 +330,38 @@ def evaluate(
 
 
 def draw_noise(rng: np.random.Generator, replicates: int, k: int, n: int, out: np.ndarray | None = None):
-    """Standard normal noise of shape (replicates, k, n): each replicate's ``k x n`` block is one contiguous
-    run of ``rng``'s stream, so drawing replicates one at a time or all at once gives the same numbers."""
+    """Standard normal noise of shape (replicates, k, n), in the order the engine's streams define.
+
+    Each replicate's noise is one contiguous run of ``rng``'s stream, taken in pieces of at most
+    :data:`PIECE` rows, each piece variable by variable (a ``k x rows`` block). With ``n <= PIECE`` that is
+    simply the replicate's ``k x n`` block. So drawing replicates one at a time or all at once, or one
+    replicate's rows piece by piece (:func:`noise_pieces`), gives the same numbers.
+    """
     if out is None:
-        return rng.standard_normal((replicates, k, n))
-    rng.standard_normal(out=out)
+        out = np.empty((replicates, k, n))
+    if n <= PIECE:
+        rng.standard_normal(out=out)
+        return out
+    for i in range(out.shape[0]):
+        for start, piece in noise_pieces(rng, k, n, PIECE):
+            out[i, :, start : start + piece.shape[1]] = piece
     return out
+
+
+def noise_pieces(rng: np.random.Generator, k: int, n: int, rows: int):
+    """One replicate's noise in row groups of ``rows`` (a multiple of :data:`PIECE`, or ``n``): yields
+    ``(first_row, array of shape (k, group_rows))`` in stream order (see :func:`draw_noise`)."""
+    if n <= PIECE:
+        yield 0, rng.standard_normal((k, n))
+        return
+    rows = max(PIECE, (rows // PIECE) * PIECE)
+    for start in range(0, n, rows):
+        stop = min(n, start + rows)
+        group = np.empty((k, stop - start))
+        for a in range(start, stop, PIECE):
+            b = min(stop, a + PIECE)
+            group[:, a - start : b - start] = rng.standard_normal((k, b - a))
+        yield start, group
 
 
 def draw_rows(scenario: Scenario, n: int, replicates: int, rng: np.random.Generator) -> np.ndarray:

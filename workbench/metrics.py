@@ -17,7 +17,7 @@ For each strategy, with ``R`` successful replicates (failed ones, NaN, are exclu
 
 ``Var(s_i^2)`` is the sample variance (divisor ``R - 1``) of the squared SEs. Beyond Table 6:
 
-* relative bias (%) is ``100 bias / theta`` with MCSE ``100 bias_mcse / |theta|`` (NaN when ``theta`` is 0);
+* relative bias (%) is ``100 bias / theta`` with MCSE ``100 bias_mcse / |theta|`` (NaN when ``|theta| < 1e-12``);
 * RMSE is ``sqrt(mse)`` with MCSE ``mse_mcse / (2 rmse)`` by the delta method;
 * when the true value is itself estimated by simulation with Monte Carlo error ``truth_mcse`` (independent of
   the replicates), the bias MCSE is ``sqrt(emp_se^2 / R + truth_mcse^2)``: the two errors are added in
@@ -129,10 +129,10 @@ def performance(
     count = ok.sum(axis=0).astype(float)
     failures = (~ok).sum(axis=0)
     est0 = np.where(ok, estimate, 0.0)
-    with np.errstate(invalid="ignore", divide="ignore"):
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         mean = est0.sum(axis=0) / count
         dev = np.where(ok, estimate - mean, 0.0)
-        emp_var = (dev**2).sum(axis=0) / (count - 1)
+        emp_var = np.where(count > 1, (dev**2).sum(axis=0) / (count - 1), np.nan)
         emp_se = np.sqrt(emp_var)
         bias = mean - theta
         bias_mcse = np.sqrt(emp_var / count + theta_mcse**2)
@@ -140,14 +140,16 @@ def performance(
 
         err2 = np.where(ok, (estimate - theta) ** 2, 0.0)
         mse = err2.sum(axis=0) / count
-        mse_mcse = np.sqrt((np.where(ok, err2 - mse, 0.0) ** 2).sum(axis=0) / (count * (count - 1)))
+        mse_mcse = np.where(count > 1, 1.0, np.nan) * np.sqrt(
+            (np.where(ok, err2 - mse, 0.0) ** 2).sum(axis=0) / (count * (count - 1))
+        )
         rmse = np.sqrt(mse)
         rmse_mcse = mse_mcse / (2.0 * rmse)
 
         var_i = np.where(ok, se**2, np.nan)
         mean_var = np.nansum(var_i, axis=0) / count
         model_se = np.sqrt(mean_var)
-        var_of_var = np.nansum((var_i - mean_var) ** 2, axis=0) / (count - 1)
+        var_of_var = np.where(count > 1, np.nansum((var_i - mean_var) ** 2, axis=0) / (count - 1), np.nan)
         model_se_mcse = np.sqrt(var_of_var / (4.0 * count * mean_var))
         ratio = model_se / emp_se
         relative_error = 100.0 * (ratio - 1.0)
@@ -155,7 +157,7 @@ def performance(
             100.0 * ratio * np.sqrt(var_of_var / (4.0 * count * mean_var**2) + 1.0 / (2.0 * (count - 1)))
         )
 
-        zero = theta == 0
+        zero = np.abs(theta) < 1e-12
         relative_bias = np.where(zero, np.nan, 100.0 * bias / np.where(zero, 1.0, theta))
         relative_bias_mcse = np.where(zero, np.nan, 100.0 * bias_mcse / np.abs(np.where(zero, 1.0, theta)))
 

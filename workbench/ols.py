@@ -26,14 +26,13 @@ from collections import Counter
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import special, stats
+from scipy import special
 
 __all__ = [
     "PIVOT_TOLERANCE",
     "BatchFit",
     "crossproducts",
     "fit_crossproducts",
-    "hc3_se",
     "OlsFit",
     "ols_fit",
     "t_inference",
@@ -59,8 +58,6 @@ class BatchFit:
         The exposure's variance inflation factor ``1 / (1 - R^2)`` of the exposure on the other regressors.
     residual_variance : ndarray of shape (R,)
         ``RSS / df``.
-    inverse : ndarray of shape (R, m, m) or None
-        ``S_WW^-1``, the inverse of the regressors' centred cross-products (kept on request).
     """
 
     coef: np.ndarray
@@ -70,7 +67,6 @@ class BatchFit:
     reasons: Counter = field(default_factory=Counter)
     vif: np.ndarray | None = None
     residual_variance: np.ndarray | None = None
-    inverse: np.ndarray | None = None
 
 
 def crossproducts(data: np.ndarray) -> np.ndarray:
@@ -109,7 +105,6 @@ def fit_crossproducts(
     names=None,
     *,
     tolerance: float = PIVOT_TOLERANCE,
-    keep_inverse: bool = False,
 ) -> BatchFit:
     """Fit ``outcome ~ 1 + regressors`` by OLS in every replicate from centred cross-products.
 
@@ -127,8 +122,6 @@ def fit_crossproducts(
         Variable names by index, for the failure reasons.
     tolerance : float
         Smallest accepted pivot on the correlation scale.
-    keep_inverse : bool
-        Also return ``S_WW^-1`` (needed for robust SEs).
 
     Returns
     -------
@@ -199,15 +192,11 @@ def fit_crossproducts(
         inverse_diag = -np.diagonal(A, axis1=1, axis2=2)[:, :m]
         se = np.sqrt(sigma2[:, None] * inverse_diag / (d[:, :m] ** 2))
         vif = inverse_diag[:, 0].copy()
-        inverse = None
-        if keep_inverse:
-            inverse = -A[:, :m, :m] / (d[:, :m, None] * d[:, None, :m])
-            inverse[failed] = np.nan
     coef[failed] = np.nan
     se[failed] = np.nan
     vif[failed] = np.nan
     sigma2 = np.where(failed, np.nan, sigma2)
-    return BatchFit(coef, se, df, failed, reasons, vif, sigma2, inverse)
+    return BatchFit(coef, se, df, failed, reasons, vif, sigma2)
 
 
 def t_inference(estimate, se, df, alpha: float):
@@ -233,75 +222,23 @@ def t_inference(estimate, se, df, alpha: float):
     estimate = np.asarray(estimate, dtype=float)
     se = np.asarray(se, dtype=float)
     df = np.asarray(df, dtype=float)
-    quantile = np.where(
-        np.isinf(df),
-        stats.norm.ppf(1 - alpha / 2),
-        stats.t.ppf(1 - alpha / 2, np.where(np.isinf(df), 1.0, df)),
-    )
-    half = quantile * se
+    shape = np.broadcast_shapes(estimate.shape, se.shape, df.shape)
+    estimate = np.broadcast_to(estimate, shape)
+    se = np.broadcast_to(se, shape)
     with np.errstate(divide="ignore", invalid="ignore"):
-        t = np.abs(estimate / se)
-        p = np.where(
-            np.isinf(df), 2.0 * special.ndtr(-t), 2.0 * special.stdtr(np.where(np.isinf(df), 1.0, df), -t)
-        )
+        t = -np.abs(estimate / se)
+    p = np.full(shape, np.nan)
+    quantile = np.full(shape, np.nan)
+    for d in np.unique(df):  # one special-function call per distinct df (usually one per strategy)
+        mask = np.broadcast_to(df == d, shape)
+        if np.isinf(d):
+            p[mask] = 2.0 * special.ndtr(t[mask])
+            quantile[mask] = special.ndtri(1.0 - alpha / 2.0)
+        elif d > 0:
+            p[mask] = 2.0 * special.stdtr(d, t[mask])
+            quantile[mask] = special.stdtrit(d, 1.0 - alpha / 2.0)
+    half = quantile * se
     return estimate - half, estimate + half, p
-
-
-def hc3_se(fit: BatchFit, data: np.ndarray, outcome: int, regressors) -> np.ndarray:
-    """Heteroskedasticity-robust HC3 standard errors of OLS slopes, batched over replicates.
-
-    Parameters
-    ----------
-    fit : BatchFit
-        From :func:`fit_crossproducts` with ``keep_inverse=True`` on the same data.
-    data : ndarray of shape (R, k, n)
-        Replicate, variable, row.
-    outcome : int
-    regressors : sequence of int
-        As given to :func:`fit_crossproducts`.
-
-    Returns
-    -------
-    ndarray of shape (R, m)
-        HC3 SEs of the slopes; NaN where the fit failed or a row has leverage 1.
-
-    Notes
-    -----
-    By the Frisch-Waugh theorem the slopes are ``S_WW^-1 Xc' y`` with ``Xc`` the centred regressors, so
-    their HC3 covariance is ``S_WW^-1 Xc' diag(e_i^2 / (1 - h_i)^2) Xc S_WW^-1``, with leverages
-    ``h_i = 1/n + xc_i' S_WW^-1 xc_i`` of the model with intercept (MacKinnon & White 1985; Long & Ervin
-    2000).
-
-    References
-    ----------
-    MacKinnon J.G., White H. (1985). Some heteroskedasticity-consistent covariance matrix estimators with
-    improved finite sample properties. Journal of Econometrics 29(3):305-325.
-    Long J.S., Ervin L.H. (2000). Using heteroscedasticity consistent standard errors in the linear
-    regression model. The American Statistician 54(3):217-224.
-
-    Examples
-    --------
-    >>> rng = np.random.default_rng(2)
-    >>> x = rng.standard_normal((1, 1, 100))
-    >>> y = x + rng.standard_normal((1, 1, 100)) * (1 + np.abs(x))
-    >>> data = np.concatenate([x, y], axis=1)
-    >>> fit = fit_crossproducts(crossproducts(data), 100, 1, [0], keep_inverse=True)
-    >>> hc3_se(fit, data, 1, [0]).shape
-    (1, 1)
-    """
-    regressors = list(regressors)
-    n = data.shape[-1]
-    X = data[:, regressors, :]
-    X = X - X.mean(axis=-1, keepdims=True)
-    y = data[:, outcome, :]
-    with np.errstate(all="ignore"):
-        resid = (y - y.mean(axis=-1, keepdims=True)) - np.einsum("rm,rmn->rn", fit.coef, X)
-        rows = np.matmul(fit.inverse, X)
-        leverage = 1.0 / n + np.einsum("rmn,rmn->rn", X, rows)
-        weight = resid**2 / (1.0 - leverage) ** 2
-        se = np.sqrt(np.einsum("rmn,rn->rm", rows**2, weight))
-    se[~np.isfinite(se)] = np.nan
-    return se
 
 
 @dataclass(frozen=True)

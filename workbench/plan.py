@@ -39,6 +39,7 @@ Examples
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 import time
@@ -54,7 +55,7 @@ from .errors import SimulationError
 from .metrics import performance
 from .power import analytic_covariance, find_smallest_n, large_sample
 from .scenario import Scenario, write_text_atomically
-from .simulate import run_replicates
+from .simulate import choose_engine, run_replicates
 from .truth import true_effect
 
 __all__ = ["PlanResult", "plan", "RELATIVE_RESOLUTION", "ABSOLUTE_RESOLUTION"]
@@ -92,6 +93,7 @@ SMALLEST_COLUMNS = [
     "note",
     "analytic_n_for_power",
     "analytic_n_for_halfwidth",
+    "estimand",
 ]
 ALSO_COLUMNS = [
     "n",
@@ -164,7 +166,8 @@ class PlanResult:
         apply; ``flag`` empty for a valid strategy).
     smallest_n : DataFrame
         One row per strategy: ``strategy, n_for_power, n_for_halfwidth, valid, note, analytic_n_for_power,
-        analytic_n_for_halfwidth`` (sizes are nullable integers, missing where not reached).
+        analytic_n_for_halfwidth, estimand`` (sizes are nullable integers, missing where not reached;
+        ``estimand`` says in words what the strategy's estimate targets).
     also_table : DataFrame or None
         When the question names ``also`` variables: ``n, strategy, variable, truth, power, power_mcse, bias,
         bias_mcse, emp_se, coverage, coverage_mcse, mean_ci_halfwidth, correlation, analytic_power, valid,
@@ -173,7 +176,8 @@ class PlanResult:
         ``strategy, variable, n_for_power, valid, note, analytic_n_for_power``.
     search : DataFrame
         Every size simulated (grid and bisection): ``n, strategy, variable, power, power_mcse,
-        mean_ci_halfwidth, on_grid`` (``variable`` is the exposure or an ``also`` variable).
+        mean_ci_halfwidth, on_grid`` (``variable`` is the exposure or an ``also`` variable). With the raw
+        engine a bisection size fits only the strategies whose search needs it.
     elapsed : float
         Seconds taken.
     """
@@ -385,15 +389,35 @@ def _normalise_seed(seed, study_seed: int) -> int:
 # --------------------------------------------------------------------------------------------------------
 @dataclass
 class _Point:
-    """Scores of every strategy (and every ``also`` variable) at one sample size."""
+    """Scores of the strategies fitted at one sample size (NaN for the others)."""
 
     n: int
+    fitted: np.ndarray  # (S,) bool
     measures: dict[str, np.ndarray]  # key -> (S,)
     halfwidth: np.ndarray  # (S,)
     also_measures: list[dict[str, np.ndarray]]  # per also variable, key -> (S,)
     also_halfwidth: np.ndarray  # (S, A)
     correlation: np.ndarray  # (S, A)
-    engine: str
+
+    def merge(self, other: _Point) -> None:
+        """Take the strategies fitted in ``other`` (same n, same seed, other strategies)."""
+        take = other.fitted & ~self.fitted
+        for key, values in other.measures.items():
+            self.measures[key] = np.where(take, values, self.measures[key])
+        self.halfwidth = np.where(take, other.halfwidth, self.halfwidth)
+        for mine, theirs in zip(self.also_measures, other.also_measures, strict=True):
+            for key, values in theirs.items():
+                mine[key] = np.where(take, values, mine[key])
+        self.also_halfwidth = np.where(take[:, None], other.also_halfwidth, self.also_halfwidth)
+        self.correlation = np.where(take[:, None], other.correlation, self.correlation)
+        self.fitted = self.fitted | other.fitted
+
+
+def _scatter(values: np.ndarray, index: list[int], size: int) -> np.ndarray:
+    """Columns ``index`` of a full-width (size, ...) array filled with NaN elsewhere."""
+    out = np.full((size, *np.shape(values)[1:]), np.nan)
+    out[index] = values
+    return out
 
 
 def _mean_halfwidth(low: np.ndarray, high: np.ndarray) -> np.ndarray:
@@ -430,6 +454,7 @@ class _Criterion:
     """One target for one strategy (and variable): reached(point) -> bool."""
 
     key: tuple
+    strategy: int
     reached: Callable[[_Point], bool]
     low: int = 0
     high: int | None = None
@@ -493,6 +518,7 @@ class _Planner:
         self.truth_mcse = float(truth.mcse)
         # each strategy's own target (the scale its model estimates), filled in by the engine's first run
         self.strategy_truth = np.full(len(self.names), self.truth)
+        self.estimand = [""] * len(self.names)
 
         self.verdicts = [judge(scenario, s.adjust) for s in self.strategies]
         self.valid = np.array([v.valid for v in self.verdicts], dtype=bool)
@@ -524,6 +550,9 @@ class _Planner:
                     )
 
         self.points: dict[int, _Point] = {}
+        self.subsets: dict[tuple[int, ...], Scenario] = {}
+        self.runs = 0
+        self.engines: set[str] = set()
         self.runs_planned = len(sizes)
         self.reported = 0
 
@@ -534,20 +563,46 @@ class _Planner:
         self.reported = done = max(done, self.reported)
         self.progress(int(done), int(max(total, done)))
 
-    def evaluate(self, n: int) -> _Point:
-        """Simulate ``replicates`` studies of ``n`` units (the plan's one seed) and score every strategy."""
-        if n in self.points:
-            return self.points[n]
+    def _subset_scenario(self, subset: tuple[int, ...]) -> Scenario:
+        if len(subset) == len(self.names):
+            return self.scenario
+        if subset not in self.subsets:
+            strategies = tuple(self.strategies[i] for i in subset)
+            self.subsets[subset] = dataclasses.replace(self.scenario, strategies=strategies)
+        return self.subsets[subset]
+
+    def evaluate(self, n: int, strategies=None) -> _Point:
+        """Simulate ``replicates`` studies of ``n`` units with the plan's one seed and score the strategies.
+
+        ``strategies`` (indices) limits the fits when the raw engine runs: its data do not depend on which
+        strategies are fitted, so a subset gives the same numbers for those strategies at a fraction of the
+        cost. The exact engine's draws depend on the variables the strategies use, and it is cheap, so it
+        always fits them all.
+        """
+        S = len(self.names)
+        subset = range(S) if strategies is None or choose_engine(self.scenario, n) == "exact" else strategies
+        have = self.points.get(n)
+        subset = tuple(sorted(i for i in set(subset) if have is None or not have.fitted[i]))
+        if not subset:
+            return have
         R = self.replicates
-        base = len(self.points) * R
+        base = self.runs * R
 
         def inner(done, total):
             self._report(base + int(R * done / total if total else R), self.runs_planned * R)
 
         arrays = run_replicates(
-            self.scenario, n, R, self.seed, alpha=self.alpha, progress=inner if self.progress else None
+            self._subset_scenario(subset),
+            n,
+            R,
+            self.seed,
+            alpha=self.alpha,
+            progress=inner if self.progress else None,
         )
-        self.strategy_truth = np.asarray(arrays.truth, dtype=float)
+        index = list(subset)
+        self.strategy_truth[index] = arrays.truth
+        for i, words in zip(index, arrays.estimand, strict=True):
+            self.estimand[i] = words
         measures = performance(
             arrays.estimate,
             arrays.se,
@@ -559,12 +614,12 @@ class _Planner:
             truth_mcse=arrays.truth_mcse,
         )
         also_measures = []
-        also_halfwidth = np.full((len(self.names), len(self.also)), np.nan)
+        also_halfwidth = np.full((len(index), len(self.also)), np.nan)
         correlation = also_halfwidth.copy()
         if self.also:
-            index = [list(arrays.also_names).index(v) for v in self.also]
+            columns = [list(arrays.also_names).index(v) for v in self.also]
             for a, v in enumerate(self.also):
-                j = index[a]
+                j = columns[a]
                 low, high = arrays.also_ci_low[:, :, j], arrays.also_ci_high[:, :, j]
                 also_measures.append(
                     performance(
@@ -578,32 +633,39 @@ class _Planner:
                     )
                 )
                 also_halfwidth[:, a] = _mean_halfwidth(low, high)
-            correlation = _correlation(arrays.estimate, arrays.also_estimate[:, :, index])
+            correlation = _correlation(arrays.estimate, arrays.also_estimate[:, :, columns])
+        fitted = np.zeros(S, dtype=bool)
+        fitted[index] = True
         point = _Point(
             n,
-            measures,
-            _mean_halfwidth(arrays.ci_low, arrays.ci_high),
-            also_measures,
-            also_halfwidth,
-            correlation,
-            str(arrays.engine),
+            fitted,
+            {key: _scatter(values, index, S) for key, values in measures.items()},
+            _scatter(_mean_halfwidth(arrays.ci_low, arrays.ci_high), index, S),
+            [{key: _scatter(values, index, S) for key, values in m.items()} for m in also_measures],
+            _scatter(also_halfwidth, index, S),
+            _scatter(correlation, index, S),
         )
-        self.points[n] = point
-        self.runs_planned = max(self.runs_planned, len(self.points))
-        self._report(len(self.points) * R, self.runs_planned * R)
-        return point
+        self.engines.add(str(arrays.engine))
+        if have is None:
+            self.points[n] = have = point
+        else:
+            have.merge(point)
+        self.runs += 1
+        self.runs_planned = max(self.runs_planned, self.runs)
+        self._report(self.runs * R, self.runs_planned * R)
+        return have
 
     # ---- the search for the smallest n ---------------------------------------------------------------
     def criteria(self) -> list[_Criterion]:
         power, width = self.target_power, self.target_halfwidth
         out = []
         for i, name in enumerate(self.names):
-            out.append(_Criterion(("power", name), lambda p, i=i: p.measures["power"][i] >= power))
+            out.append(_Criterion(("power", name), i, lambda p, i=i: p.measures["power"][i] >= power))
             if width is not None:
-                out.append(_Criterion(("halfwidth", name), lambda p, i=i: p.halfwidth[i] <= width))
+                out.append(_Criterion(("halfwidth", name), i, lambda p, i=i: p.halfwidth[i] <= width))
         for i, a in self.also_pairs:
             key = ("also_power", self.names[i], self.also[a])
-            out.append(_Criterion(key, lambda p, i=i, a=a: p.also_measures[a]["power"][i] >= power))
+            out.append(_Criterion(key, i, lambda p, i=i, a=a: p.also_measures[a]["power"][i] >= power))
         return out
 
     def search(self) -> dict[tuple, _Criterion]:
@@ -613,24 +675,28 @@ class _Planner:
             _bracket(c, self.sizes, self.points, self.floor)
             if not c.done and _narrow_enough(c.low, c.high):
                 c.done = True
+
+        def inside(c: _Criterion) -> list[int]:
+            return [n for n, p in self.points.items() if c.low < n < c.high and p.fitted[c.strategy]]
+
         while open_criteria := [c for c in criteria if not c.done]:
-            self.runs_planned = len(self.points) + sum(_search_steps(c.low, c.high) for c in open_criteria)
-            wanted = set()
+            self.runs_planned = self.runs + sum(_search_steps(c.low, c.high) for c in open_criteria)
+            wanted: dict[int, set[int]] = {}
             for c in open_criteria:
                 # a size already simulated inside the bracket (for another criterion) narrows it for free
-                if not any(c.low < n < c.high for n in self.points):
-                    wanted.add((c.low + c.high) // 2)
+                if not inside(c):
+                    wanted.setdefault((c.low + c.high) // 2, set()).add(c.strategy)
             for n in sorted(wanted):
-                self.evaluate(n)
+                self.evaluate(n, wanted[n])
             for c in open_criteria:
                 middle = (c.low + c.high) / 2
-                n = min((m for m in self.points if c.low < m < c.high), key=lambda m: (abs(m - middle), m))
+                n = min(inside(c), key=lambda m: (abs(m - middle), m))
                 if c.reached(self.points[n]):
                     c.high = n
                 else:
                     c.low = n
                 c.done = _narrow_enough(c.low, c.high)
-        done = len(self.points) * self.replicates
+        done = self.runs * self.replicates
         self._report(done, done)
         return {c.key: c for c in criteria}
 
@@ -708,6 +774,13 @@ class _Planner:
                 notes += _criterion_notes(
                     width, "CI half-width", self.target_halfwidth, largest.halfwidth[i], self.sizes
                 )
+            bias, bias_mcse = largest.measures["bias"][i], largest.measures["bias_mcse"][i]
+            if self.valid[i] and abs(bias) > 4 * bias_mcse and abs(bias) > 0.05 * abs(truth):
+                notes.append(
+                    f"valid by the graph but biased in simulation: bias {bias:.3g} (MCSE {bias_mcse:.2g}) at "
+                    f"n = {self.sizes[-1]}; the model estimates a {self.estimand[i] or 'different quantity'}, "
+                    f"scored against {truth:.4g}"
+                )
             if self.valid[i] and abs(truth) < 1e-12:
                 notes.append(f"the true effect is 0: power stays at alpha = {self.alpha:g} whatever n")
             rows.append(
@@ -719,6 +792,7 @@ class _Planner:
                     "note": "; ".join(notes),
                     "analytic_n_for_power": self._analytic_n(ls, "power"),
                     "analytic_n_for_halfwidth": self._analytic_n(ls, "halfwidth"),
+                    "estimand": self.estimand[i],
                 }
             )
         return _with_sizes(pd.DataFrame(rows, columns=SMALLEST_COLUMNS))
@@ -728,6 +802,8 @@ class _Planner:
         for n in sorted(self.points):
             p = self.points[n]
             for i, name in enumerate(self.names):
+                if not p.fitted[i]:
+                    continue
                 rows.append(
                     {
                         "n": n,
@@ -911,7 +987,7 @@ def plan(
         sample_sizes=sizes,
         truth=planner.truth,
         truth_mcse=planner.truth_mcse,
-        engine=", ".join(sorted({p.engine for p in planner.points.values()})),
+        engine=", ".join(sorted(planner.engines)),
         exposure=scenario.question.exposure,
         outcome=scenario.question.outcome,
         table=planner.table(),

@@ -19,8 +19,9 @@ that differs from the causal effect. Hence, with ``p`` fitted coefficients (inte
 
 The same formulas serve, as a large-sample approximation, graphs whose binary variables have no causes (a
 randomised binary exposure, for instance): their covariance is still the linear one, with variance
-``proportion (1 - proportion)``; the plain plug-in power is used there. With a binary exposure and no covariates the regression t test *is* the
-pooled two-sample t test, so the figures can be checked against Cohen (1988).
+``proportion (1 - proportion)``; the plain plug-in power is used there. With a binary exposure and no
+covariates the regression t test *is* the pooled two-sample t test, so the figures can be checked against
+Cohen (1988).
 
 References
 ----------

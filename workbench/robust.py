@@ -103,7 +103,9 @@ def ols_hc3_batch(X, y) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     cov = np.matmul(np.matmul(inverse, meat), inverse)
     se = np.sqrt(np.clip(np.diagonal(cov, axis1=1, axis2=2), 0.0, None))
 
-    failed = ~finite | singular | np.any(leverage > 1.0 - _LEVERAGE_ONE, axis=1) | ~np.all(np.isfinite(se), axis=1)
+    failed = (
+        ~finite | singular | np.any(leverage > 1.0 - _LEVERAGE_ONE, axis=1) | ~np.all(np.isfinite(se), axis=1)
+    )
     coef[failed] = np.nan
     se[failed] = np.nan
     return coef, se, failed

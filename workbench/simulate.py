@@ -45,6 +45,7 @@ True
 
 from __future__ import annotations
 
+import dataclasses
 import functools
 import json
 import math
@@ -56,13 +57,13 @@ import numpy as np
 import pandas as pd
 
 from .errors import SimulationError
-from .generate import block_seed, draw_noise, evaluate, structure
+from .generate import PIECE, block_seed, draw_noise, evaluate, noise_pieces, structure
 from .linear import implied_covariance
 from .metrics import performance
-from .ols import crossproducts, fit_crossproducts, hc3_se, t_inference
-from .scenario import Scenario, Strategy, write_text_atomically
-from .truth import Truth, conditional_log_odds_ratio, true_effect
-from .wishart import draw_wishart
+from .ols import crossproducts, fit_crossproducts, t_inference
+from .scenario import Scenario, write_text_atomically
+from .truth import KIND_WORDS, Truth, conditional_log_odds_ratio, estimand, model_kind, true_effect
+from .wishart import bartlett_draws, bartlett_matrices, square_root
 
 __all__ = [
     "BLOCK",
@@ -115,6 +116,7 @@ TABLE_COLUMNS = [
     "change_in_estimate_median",
     "share_change_over_10pct",
     "se_ratio",
+    "reference",
     "vif",
     "df",
     "note",
@@ -159,32 +161,6 @@ class _Plan:
         return any(f.kind != "ols" for f in self.fits)
 
 
-def _kind(strategy: Strategy, binary_outcome: bool) -> str:
-    if strategy.model == "logit":
-        return "logit_std" if strategy.standardize else "logit"
-    return "lpm" if binary_outcome else "ols"
-
-
-def _estimand(kind: str, scenario: Scenario) -> tuple[str, str, str]:
-    """(estimand words, truth scale, note) of a fit kind."""
-    q = scenario.question
-    per_unit = "" if scenario.exposure.is_binary else " per unit"
-    if kind == "ols":
-        target = "direct effect" if q.target == "direct" else "total effect"
-        return f"{target} (difference in means{per_unit})", "difference", ""
-    if kind == "lpm":
-        return f"marginal risk difference{per_unit}", "difference", ""
-    if kind == "logit_std":
-        words = "marginal risk difference" if q.scale == "difference" else "marginal log odds ratio"
-        return f"{words}{per_unit}", q.scale, ""
-    note = (
-        "conditional log odds ratio scored against the marginal log odds ratio; they differ even without "
-        f"confounding (non-collapsibility); the structural conditional log odds ratio is "
-        f"{conditional_log_odds_ratio(scenario):.4g}"
-    )
-    return f"conditional log odds ratio{per_unit}", "log_odds_ratio", note
-
-
 @functools.lru_cache(maxsize=256)
 def _validity(scenario: Scenario, adjust: tuple[str, ...]) -> bool:
     from .adjustment import judge
@@ -200,13 +176,13 @@ def _plan(scenario: Scenario) -> _Plan:
     binary_outcome = scenario.outcome.is_binary
     fits: list[_Fit] = []
     hidden: list[_Fit] = []
-    kinds = [_kind(s, binary_outcome) for s in scenario.strategies]
+    kinds = [model_kind(s, binary_outcome) for s in scenario.strategies]
 
     def make(name, adjust, kind, reported, reference=-1):
         regressors = (x,) + tuple(names.index(a) for a in adjust)
         also = tuple((1 + adjust.index(v)) if v in adjust else -1 for v in q.also)
-        estimand, scale, note = _estimand(kind, scenario)
-        return _Fit(name, tuple(adjust), kind, regressors, also, reference, reported, estimand, scale, note)
+        words, scale, note = estimand(kind, scenario, tuple(adjust))
+        return _Fit(name, tuple(adjust), kind, regressors, also, reference, reported, words, scale, note)
 
     for s, kind in zip(scenario.strategies, kinds, strict=True):
         fits.append(make(s.name, s.adjust, kind, True))
@@ -218,9 +194,9 @@ def _plan(scenario: Scenario) -> _Plan:
             ref = next((len(fits) + j for j, g in enumerate(hidden) if g.kind == f.kind), None)
         if ref is None:
             ref = len(fits) + len(hidden)
-            hidden.append(make(f"(unadjusted {f.kind})", (), f.kind, False, ref))
+            hidden.append(make(f"(unadjusted {KIND_WORDS[f.kind]})", (), f.kind, False, ref))
         resolved.append(ref)
-    fits = [_replace_reference(f, r) for f, r in zip(fits, resolved, strict=True)] + hidden
+    fits = [dataclasses.replace(f, reference=r) for f, r in zip(fits, resolved, strict=True)] + hidden
     used = sorted({x, y} | {i for f in fits for i in f.regressors})
     truths = {}
     for f in fits:
@@ -238,12 +214,6 @@ def _plan(scenario: Scenario) -> _Plan:
         scenario.is_linear_gaussian,
         tuple(q.also),
         truths,
-    )
-
-
-def _replace_reference(f: _Fit, reference: int) -> _Fit:
-    return _Fit(
-        f.name, f.adjust, f.kind, f.regressors, f.also, reference, f.reported, f.estimand, f.scale, f.note
     )
 
 
@@ -348,8 +318,11 @@ class ReplicateArrays:
         The question's ``also`` variables (axis ``A``).
     also_estimate, also_se, also_ci_low, also_ci_high, also_p_value : ndarray of shape (R, S, A)
         Their coefficients; NaN where the strategy does not adjust for the variable.
+    reference : list of str
+        The unadjusted strategy of the same model that each strategy is compared with (a name in parentheses
+        when it is fitted internally, not reported).
     reference_estimate, reference_se : ndarray of shape (R, S)
-        The unadjusted fit of the same model as each strategy (for the change in estimate and SE ratio).
+        That reference's estimates and SEs (for the change in estimate and the SE ratio).
     truth, truth_mcse : ndarray of shape (S,)
         What each strategy is scored against and its Monte Carlo error.
     estimand : list of str
@@ -377,6 +350,7 @@ class ReplicateArrays:
     also_ci_low: np.ndarray
     also_ci_high: np.ndarray
     also_p_value: np.ndarray
+    reference: list[str]
     reference_estimate: np.ndarray
     reference_se: np.ndarray
     truth: np.ndarray
@@ -414,21 +388,38 @@ class _Stream:
             pos += take
             self._advance(take)
 
+    def pieces(self, k: int, n: int, rows: int):
+        """The next replicate's noise in row groups (see :func:`workbench.generate.noise_pieces`)."""
+        yield from noise_pieces(self.rng, k, n, rows)
+        self._advance(1)
+
     def wishart(self, r: int, sigma: np.ndarray, df: int) -> np.ndarray:
         """The next r replicates' Wishart draws; r must cover whole blocks (or end the run)."""
-        out = np.empty((r, sigma.shape[0], sigma.shape[0]))
+        k = sigma.shape[0]
+        chi = np.empty((r, k))
+        normals = np.empty((r, k * (k - 1) // 2))
         pos = 0
         while pos < r:
             take = min(r - pos, BLOCK - self.offset)
             if self.offset != 0:
                 raise RuntimeError("exact engine chunks must start at a block boundary")
-            out[pos : pos + take] = draw_wishart(sigma, df, take, self.rng)
+            chi[pos : pos + take], normals[pos : pos + take] = bartlett_draws(k, df, take, self.rng)
             pos += take
             self._advance(take)
-        return out
+        return bartlett_matrices(square_root(sigma), chi, normals)
 
 
-def _chunk_size(engine: str, n: int, k: int, plan: _Plan, replicates: int, chunk_size: int | None) -> int:
+def _raw_bytes_per_replicate(n: int, k: int, plan: _Plan) -> int:
+    per = 8 * n * (k + 3)
+    if plan.needs_rows:
+        widest = max(len(f.regressors) for f in plan.fits) + 1
+        per += 8 * n * (widest + 10)
+    return per
+
+
+def _chunk_size(
+    engine: str, n: int, k: int, plan: _Plan, replicates: int, chunk_size: int | None, reports: bool = False
+) -> int:
     if engine == "exact":
         if chunk_size is None:
             per = 8 * (len(plan.used) + 1) ** 2 * (6 + len(plan.fits))
@@ -436,39 +427,47 @@ def _chunk_size(engine: str, n: int, k: int, plan: _Plan, replicates: int, chunk
         chunk = max(BLOCK, (int(chunk_size) // BLOCK) * BLOCK)
         return min(chunk, replicates) if replicates > chunk else replicates
     if chunk_size is None:
-        widest = max(len(f.regressors) for f in plan.fits) + 1
-        per = 8 * n * (k + 3)
-        if plan.needs_rows:
-            per += 8 * n * (widest + 10)
-        chunk_size = max(1, MEMORY_BUDGET // per)
+        chunk_size = max(1, MEMORY_BUDGET // _raw_bytes_per_replicate(n, k, plan))
+        if reports:  # about 16 progress reports per run (the numbers do not depend on the chunk size)
+            chunk_size = min(chunk_size, max(64, -(-replicates // 16)))
     return max(1, min(int(chunk_size), replicates))
+
+
+def _piecewise(n: int, k: int, plan: _Plan) -> bool:
+    """One replicate alone exceeds the memory budget: draw its rows in groups and accumulate its
+    cross-products (possible when every fit works from cross-products)."""
+    return n > PIECE and not plan.needs_rows and _raw_bytes_per_replicate(n, k, plan) > MEMORY_BUDGET
 
 
 def _fit_chunk(plan: _Plan, S: np.ndarray, data: np.ndarray | None, n: int, index: list[int], names):
     """Fit every planned fit on one chunk. ``index`` maps file-order variable indices to rows of S."""
     from .logistic import design_matrix, fit_logit_batch, standardized_contrast
+    from .robust import ols_hc3_batch
 
     out = []
     y = index[plan.outcome]
+    logit_fits = {}
     for f in plan.fits:
         regs = [index[i] for i in f.regressors]
-        batch = fit_crossproducts(S, n, y, regs, names, keep_inverse=f.kind == "lpm")
+        batch = fit_crossproducts(S, n, y, regs, names)
         reasons = Counter(batch.reasons)
         if f.kind == "ols":
             coef, se, failed = batch.coef, batch.se, batch.failed
         elif f.kind == "lpm":
-            coef, failed = batch.coef, batch.failed
-            se = hc3_se(batch, data, plan.outcome, list(f.regressors))
-            bad = np.isnan(se[:, 0]) & ~failed
-            if bad.any():
-                reasons["HC3 SE undefined: a row has leverage 1"] += int(bad.sum())
-                failed = failed | bad
-                coef = coef.copy()
-                coef[bad] = np.nan
-        else:
             rows = data.transpose(0, 2, 1)
-            X = design_matrix(rows, plan.exposure, [i for i in f.regressors[1:]])
-            logit = fit_logit_batch(X, rows[:, :, plan.outcome])
+            X = design_matrix(rows, plan.exposure, list(f.regressors[1:]))
+            coef, se, hc3_failed = ols_hc3_batch(X, rows[:, :, plan.outcome])
+            coef, se = coef[:, 1:], se[:, 1:]
+            failed = batch.failed | hc3_failed
+            extra = hc3_failed & ~batch.failed
+            if extra.any():
+                reasons["HC3 SE undefined: a row with leverage 1"] += int(extra.sum())
+        else:
+            if f.regressors not in logit_fits:  # plain and standardised logit with one set share a fit
+                rows = data.transpose(0, 2, 1)
+                X = design_matrix(rows, plan.exposure, list(f.regressors[1:]))
+                logit_fits[f.regressors] = (X, fit_logit_batch(X, rows[:, :, plan.outcome]))
+            X, logit = logit_fits[f.regressors]
             failed = logit.failed
             reasons = Counter(str(r) for r in logit.failure[failed])
             coef = logit.coef[:, 1:]
@@ -570,7 +569,7 @@ def run_replicates(
     also_se = np.full((replicates, F, A), np.nan)
     reasons = [Counter() for _ in range(F)]
 
-    chunk = _chunk_size(engine, n, k, plan, replicates, chunk_size)
+    chunk = _chunk_size(engine, n, k, plan, replicates, chunk_size, progress is not None)
     stream = _Stream(root)
     names = list(st.names)
     if engine == "exact":
@@ -581,7 +580,12 @@ def run_replicates(
     else:
         index_list = list(range(k))
         used_names = names
-        buffer = np.empty((chunk, k, n))
+        piecewise = _piecewise(n, k, plan)
+        if piecewise:
+            chunk = 1
+            group_rows = max(PIECE, MEMORY_BUDGET // (8 * (k + 3)))
+        else:
+            buffer = np.empty((chunk, k, n))
 
     done = 0
     while done < replicates:
@@ -589,6 +593,14 @@ def run_replicates(
         data = None
         if engine == "exact":
             S = stream.wishart(r, sigma, n - 1)
+        elif piecewise:
+            sums = np.zeros(k)
+            M = np.zeros((k, k))
+            for _, group in stream.pieces(k, n, group_rows):
+                evaluate(st, group, axis=0, out=group)
+                sums += group.sum(axis=1)
+                M += group @ group.T
+            S = (M - np.outer(sums, sums) / n)[None]
         else:
             data = buffer[:r]
             stream.noise(data)
@@ -609,33 +621,37 @@ def run_replicates(
             progress(done, replicates)
 
     df = np.array([n - len(f.regressors) - 1 if f.kind == "ols" else np.inf for f in plan.fits], dtype=float)
-    ci_low, ci_high, p_value = t_inference(est, se, df[None, :], alpha)
-    a_low, a_high, a_p = t_inference(also_est, also_se, df[None, :, None], alpha)
-    shown = [j for j, f in enumerate(plan.fits) if f.reported]
-    refs = [plan.fits[j].reference for j in shown]
-    truths = [plan.truths[plan.fits[j].scale] for j in shown]
+    # reported fits come first, hidden references after: basic slices keep views, not copies
+    S = len(plan.reported)
+    shown = slice(0, S)
+    fits = plan.fits[:S]
+    refs = [f.reference for f in fits]
+    ci_low, ci_high, p_value = t_inference(est[:, shown], se[:, shown], df[None, shown], alpha)
+    a_low, a_high, a_p = t_inference(also_est[:, shown], also_se[:, shown], df[None, shown, None], alpha)
+    truths = [plan.truths[f.scale] for f in fits]
     return ReplicateArrays(
-        strategies=[plan.fits[j].name for j in shown],
+        strategies=[f.name for f in fits],
         estimate=est[:, shown],
         se=se[:, shown],
-        ci_low=ci_low[:, shown],
-        ci_high=ci_high[:, shown],
-        p_value=p_value[:, shown],
+        ci_low=ci_low,
+        ci_high=ci_high,
+        p_value=p_value,
         failed=failed[:, shown],
-        reasons={plan.fits[j].name: dict(reasons[j]) for j in shown},
+        reasons={f.name: dict(reasons[j]) for j, f in enumerate(fits)},
         df=df[shown],
         vif=vif[:, shown],
         also_names=plan.also_names,
         also_estimate=also_est[:, shown],
         also_se=also_se[:, shown],
-        also_ci_low=a_low[:, shown],
-        also_ci_high=a_high[:, shown],
-        also_p_value=a_p[:, shown],
+        also_ci_low=a_low,
+        also_ci_high=a_high,
+        also_p_value=a_p,
+        reference=[plan.fits[j].name for j in refs],
         reference_estimate=est[:, refs],
         reference_se=se[:, refs],
         truth=np.array([t.value for t in truths]),
         truth_mcse=np.array([t.mcse for t in truths]),
-        estimand=[plan.fits[j].estimand for j in shown],
+        estimand=[f.estimand for f in fits],
         engine=engine,
         n=n,
         replicates=replicates,
@@ -884,7 +900,10 @@ class SimulationResult:
         def pm(value, mcse, digits=4):
             if value is None or not np.isfinite(value):
                 return "-"
-            return f"{value:.{digits}g} ({mcse:.1g})" if np.isfinite(mcse) else f"{value:.{digits}g}"
+            if not np.isfinite(mcse) or mcse <= 0:
+                return f"{value:.{digits}g}"
+            decimals = int(max(0, min(8, 1 - math.floor(math.log10(mcse)))))
+            return f"{value:.{decimals}f} ({mcse:.{decimals}f})"
 
         header = [
             "strategy",
@@ -928,6 +947,20 @@ class SimulationResult:
         if notes:
             lines.append("")
             lines.extend(notes)
+        if self.arrays.also_names:
+            also = self.also_table()
+            lines.append("")
+            lines.append(
+                "Also estimated: direct effects of further variables on the outcome (truth = the arrow)"
+            )
+            if also.empty:
+                lines.append("  no strategy adjusts for them")
+            for _, r in also.iterrows():
+                lines.append(
+                    f"  {r['variable']} in {r['strategy']}: truth {r['truth']:.4g}, mean {r['mean']:.4g}, "
+                    f"bias {pm(r['bias'], r['bias_mcse'])}, coverage {pm(r['coverage'], r['coverage_mcse'], 3)}, "
+                    f"power {pm(r['power'], r['power_mcse'], 3)}"
+                )
         lines.append("")
         lines.append(
             "Reminder: these figures hold only if the scenario's graph and effect sizes are right; the graph "
@@ -1020,9 +1053,14 @@ def simulate(
     )
     median, share = _relative_change(arrays.estimate, arrays.reference_estimate)
     with np.errstate(divide="ignore", invalid="ignore"):
-        ref_model_se = np.sqrt(np.nanmean(arrays.reference_se**2, axis=0))
+        # the reference's model SE by the arithmetic of metrics.performance
+        ok = ~np.isnan(arrays.reference_estimate)
+        ref_var = np.where(ok, arrays.reference_se**2, np.nan)
+        ref_model_se = np.sqrt(np.nansum(ref_var, axis=0) / ok.sum(axis=0))
         se_ratio = measures["model_se"] / ref_model_se
         vif = np.array([np.nanmedian(col) if np.isfinite(col).any() else np.nan for col in arrays.vif.T])
+    itself = np.array([ref == name for ref, name in zip(arrays.reference, arrays.strategies, strict=True)])
+    se_ratio[itself & np.isfinite(se_ratio)] = 1.0
     reported = plan.reported
     rows = []
     for s, f in enumerate(reported):
@@ -1048,6 +1086,7 @@ def simulate(
                 "change_in_estimate_median": float(median[s]),
                 "share_change_over_10pct": float(share[s]),
                 "se_ratio": float(se_ratio[s]),
+                "reference": arrays.reference[s],
                 "vif": float(vif[s]),
                 "df": float(arrays.df[s]),
                 "note": f.note,

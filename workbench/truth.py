@@ -36,9 +36,19 @@ from scipy import special
 
 from .generate import _structure_cached, evaluate
 from .linear import total_effects
-from .scenario import Scenario
+from .scenario import Scenario, Strategy
 
-__all__ = ["TRUTH_DRAWS", "TRUTH_SEED", "Truth", "true_effect", "conditional_log_odds_ratio", "direct_effect"]
+__all__ = [
+    "TRUTH_DRAWS",
+    "TRUTH_SEED",
+    "KIND_WORDS",
+    "Truth",
+    "true_effect",
+    "conditional_log_odds_ratio",
+    "direct_effect",
+    "model_kind",
+    "estimand",
+]
 
 TRUTH_DRAWS = 2**20
 TRUTH_SEED = 19_340_161
@@ -209,3 +219,65 @@ def true_effect(scenario: Scenario, scale: str | None = None) -> Truth:
         return Truth(value, 0.0, "closed form", words, 0, scale)
     value, mcse = _simulated(scenario.variables, scenario.arrows, q.exposure, q.outcome, scale)
     return Truth(value, mcse, "simulated intervention", words, TRUTH_DRAWS, scale)
+
+
+KIND_WORDS = {
+    "ols": "OLS",
+    "lpm": "linear probability model",
+    "logit": "logistic",
+    "logit_std": "standardised logistic",
+}
+"""Words for each kind of fit (see :func:`model_kind`)."""
+
+
+def model_kind(strategy: Strategy, binary_outcome: bool) -> str:
+    """The kind of fit a strategy is: ``"ols"`` (classical OLS, continuous outcome), ``"lpm"`` (OLS on a
+    binary outcome: the linear probability model, HC3 SEs), ``"logit"`` or ``"logit_std"`` (standardised).
+
+    Examples
+    --------
+    >>> model_kind(Strategy("s", (), "logit", True), True)
+    'logit_std'
+    """
+    if strategy.model == "logit":
+        return "logit_std" if strategy.standardize else "logit"
+    return "lpm" if binary_outcome else "ols"
+
+
+def estimand(kind: str, scenario: Scenario, adjust: tuple[str, ...] = ()) -> tuple[str, str, str]:
+    """What a fit of ``kind`` with adjustment set ``adjust`` estimates, the scale of the truth it is scored
+    against, and a note when the two differ by design (see ``docs/targets.md``).
+
+    Returns
+    -------
+    words : str
+        For example ``"marginal risk difference"`` or ``"conditional log odds ratio"``.
+    scale : {"difference", "log_odds_ratio"}
+        The scale of the true effect it is compared with (:func:`true_effect` with that ``scale``).
+    note : str
+        Empty, or why the estimate and its truth differ even without bias (non-collapsibility).
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> estimand("ols", load_preset("common_cause"))
+    ('total effect (difference in means per unit)', 'difference', '')
+    """
+    q = scenario.question
+    per_unit = "" if scenario.exposure.is_binary else " per unit"
+    if kind == "ols":
+        target = "direct effect" if q.target == "direct" else "total effect"
+        return f"{target} (difference in means{per_unit})", "difference", ""
+    if kind == "lpm":
+        return f"marginal risk difference{per_unit}", "difference", ""
+    if kind == "logit_std":
+        words = "marginal risk difference" if q.scale == "difference" else "marginal log odds ratio"
+        return f"{words}{per_unit}", q.scale, ""
+    if not adjust:
+        return f"marginal log odds ratio{per_unit}", "log_odds_ratio", ""
+    note = (
+        "conditional log odds ratio scored against the marginal log odds ratio; they differ even without "
+        f"confounding (non-collapsibility); the structural conditional log odds ratio is "
+        f"{conditional_log_odds_ratio(scenario):.4g}"
+    )
+    return f"conditional log odds ratio{per_unit}", "log_odds_ratio", note

@@ -19,7 +19,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["draw_wishart", "square_root"]
+__all__ = ["draw_wishart", "bartlett_draws", "bartlett_matrices", "square_root"]
 
 
 def square_root(sigma: np.ndarray) -> np.ndarray:
@@ -72,16 +72,36 @@ def draw_wishart(sigma: np.ndarray, df: float, size: int, rng: np.random.Generat
     ((20000, 2, 2), True)
     """
     sigma = np.asarray(sigma, dtype=float)
-    k = sigma.shape[0]
+    chi, normals = bartlett_draws(sigma.shape[0], df, size, rng)
+    return bartlett_matrices(square_root(sigma), chi, normals)
+
+
+def bartlett_draws(k: int, df: float, size: int, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
+    """The random numbers of ``size`` Bartlett draws, in stream order: chi-squares with ``df - i`` degrees of
+    freedom, shape (size, k), then standard normals, shape (size, k(k-1)/2)."""
     if not df > k - 1:
         raise ValueError(f"draw_wishart: df must exceed k - 1 = {k - 1}, got {df}")
-    L = square_root(sigma)
     chi = rng.chisquare(df - np.arange(k), size=(size, k))
+    normals = rng.standard_normal((size, k * (k - 1) // 2))
+    return chi, normals
+
+
+def bartlett_matrices(L: np.ndarray, chi: np.ndarray, normals: np.ndarray) -> np.ndarray:
+    """Wishart matrices ``L A A^T L^T`` from Bartlett draws (see :func:`bartlett_draws`), shape (size, k, k).
+
+    Examples
+    --------
+    >>> W = bartlett_matrices(np.eye(2), np.array([[4.0, 1.0]]), np.array([[0.5]]))
+    >>> W[0]  # A = [[2, 0], [0.5, 1]]
+    array([[4.  , 1.  ],
+           [1.  , 1.25]])
+    """
+    size, k = chi.shape
     A = np.zeros((size, k, k))
     diag = np.arange(k)
     A[:, diag, diag] = np.sqrt(chi)
     if k > 1:
         rows, cols = np.tril_indices(k, -1)
-        A[:, rows, cols] = rng.standard_normal((size, rows.size))
+        A[:, rows, cols] = normals
     LA = np.matmul(L, A)
     return np.matmul(LA, LA.transpose(0, 2, 1))

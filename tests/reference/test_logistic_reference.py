@@ -282,3 +282,21 @@ def test_coverage_of_standardized_risk_difference():
     coverage = covered.mean()
     mcse = np.sqrt(0.95 * 0.05 / R)
     assert abs(coverage - 0.95) <= 3 * mcse, coverage
+
+
+def test_step_halving_case_matches_statsmodels():
+    """Source: statsmodels ``Logit`` and ``GLM(Binomial)``. A covariate with two far outliers (a Cauchy
+    draw): here the undamped Newton step from the intercept-only start overshoots into a region where the
+    information matrix underflows; with step halving the batched fit converges to the statsmodels optimum."""
+    x = [-0.876, 19.114, -0.57, -1.286, -1.002, -1.658, -0.978, -0.276, -0.487, -105.741, -0.051, -0.758]
+    x += [-0.817, -0.514, -0.44, -3.654]
+    y = np.zeros((1, len(x)))
+    y[0, [1, 9]] = 1.0
+    X = np.stack([np.ones(len(x)), x], axis=-1)[None]
+    fit = fit_logit_batch(X, y)
+    assert fit.failure.tolist() == [""]
+    ref = sm.Logit(y[0], X[0]).fit(disp=0)
+    glm = sm.GLM(y[0], X[0], family=sm.families.Binomial()).fit(tol=1e-12)
+    np.testing.assert_allclose(fit.coef[0], ref.params, rtol=0, atol=1e-6)
+    np.testing.assert_allclose(fit.coef[0], glm.params, rtol=0, atol=1e-6)
+    np.testing.assert_allclose(fit.se[0], ref.bse, rtol=0, atol=1e-6)

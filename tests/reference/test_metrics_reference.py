@@ -111,3 +111,30 @@ def test_zero_truth_gives_nan_relative_bias_and_per_strategy_truths_work():
     )
     assert np.isnan(m["relative_bias"][0])
     assert m["relative_bias"][1] == pytest.approx(25.0)
+
+
+def test_too_few_successes_give_nan_not_negative_zero():
+    """Morris et al. (2019) Table 6: SD-based measures need at least two successful replicates."""
+    one = performance(
+        np.array([[1.0], [np.nan]]),
+        np.array([[0.1], [np.nan]]),
+        np.zeros((2, 1)),
+        np.ones((2, 1)) * 2,
+        np.zeros((2, 1)),
+        1.0,
+        0.05,
+    )
+    none = performance(
+        np.full((3, 1), np.nan),
+        np.full((3, 1), np.nan),
+        np.zeros((3, 1)),
+        np.ones((3, 1)),
+        np.zeros((3, 1)),
+        1.0,
+        0.05,
+    )
+    assert one["mean"][0] == 1.0 and one["coverage"][0] == 1.0
+    for m in (one, none):
+        for key in ("emp_se", "emp_se_mcse", "bias_mcse", "mse_mcse", "model_se_mcse"):
+            assert np.isnan(m[key][0]), key
+    assert np.isnan(none["mean"][0]) and none["failures"][0] == 3 and none["n_ok"][0] == 0

@@ -55,18 +55,29 @@ class App(pn.viewable.Viewer):
             ("Variables", VariablesEditor(state=state)),
             ("Strategies", StrategiesEditor(state=state)),
             ("Scenario text (TOML)", TomlEditor(state=state)),
-            css_classes=["wb-editor-tabs"], margin=(6, 0),
+            css_classes=["wb-editor-tabs"], margin=(6, 0), dynamic=False,
         )
         graph_tab = pn.Column(GraphView(state=state), editors, margin=(6, 10))
+        self.result_views = {
+            1: EstimatesView(workbench=wb),
+            2: SampleSizeView(workbench=wb),
+            3: ExplainView(workbench=wb),
+        }
         self.tabs = pn.Tabs(
             ("Graph", graph_tab),
-            ("Estimates", pn.Column(EstimatesView(workbench=wb), margin=(6, 10))),
-            ("Sample size", pn.Column(SampleSizeView(workbench=wb), margin=(6, 10))),
-            ("Explain", pn.Column(ExplainView(workbench=wb), margin=(6, 10))),
+            ("Estimates", pn.Column(self.result_views[1], margin=(6, 10))),
+            ("Sample size", pn.Column(self.result_views[2], margin=(6, 10))),
+            ("Explain", pn.Column(self.result_views[3], margin=(6, 10))),
             ("Export", pn.Column(ExportView(workbench=wb), margin=(6, 10))),
             css_classes=["wb-tabs"], dynamic=False, margin=(0, 6),
         )
+        self.tabs.param.watch(self._tab_shown, "active")
         self.sidebar = Sidebar(workbench=wb)
+
+    def _tab_shown(self, event):
+        """Result views rebuild their figures only while shown (a hidden tab's changes wait)."""
+        for index, view in self.result_views.items():
+            view.active = index == event.new
 
     def _header(self, *_):
         sc = self.workbench.scenario
@@ -86,17 +97,19 @@ class App(pn.viewable.Viewer):
 def create_app(preset: str | None = None) -> pn.viewable.Viewable:
     """Build the page for one browser session.
 
-    Background computations hand their results to the session's document through its next-tick callback,
-    so the page stays responsive while they run.
+    Computations run in worker threads; a periodic callback on the session's own thread applies their
+    progress and results, so the page stays responsive while they run.
     """
     pn.extension("tabulator", raw_css=[GLOBAL_CSS], notifications=False)
     doc = pn.state.curdoc
+    if doc is not None:
+        # Panel learns where its own static files live only when the page is rendered; components built
+        # before that point would otherwise reference its CDN. Tell the document now: served locally.
+        from panel.io.resources import LOCAL_DIST
 
-    def dispatch(function):
-        if doc is None or doc.session_context is None:
-            function()
-        else:
-            doc.add_next_tick_callback(function)
-
-    workbench = Workbench(preset=preset, dispatch=dispatch)
-    return App(workbench=workbench).__panel__()
+        doc._template_variables.setdefault("dist_url", LOCAL_DIST)
+    workbench = Workbench(preset=preset, deferred=True)
+    page = App(workbench=workbench).__panel__()
+    if pn.state.curdoc is not None and pn.state.curdoc.session_context is not None:
+        pn.state.add_periodic_callback(workbench.poll, period=200)
+    return page

@@ -50,6 +50,7 @@ __all__ = [
     "graph_layout",
     "graph_figure",
     "strategy_colours",
+    "truth_groups",
     "estimates_figure",
     "se_figure",
     "interval_figure",
@@ -293,12 +294,13 @@ def graph_figure(scenario: Scenario, roles: dict | None = None, verdict=None, *,
              y_offset=radius_px + 5, text_color="#111111", background_fill_color="#ffffff",
              background_fill_alpha=0.75, padding=1)
     if verdict is not None:
-        open_line = fig.line([], [], line_width=4, line_dash="dashed", line_color="#000000")
-        faded_line = fig.line([], [], line_width=1.8, line_color=_EDGE, line_alpha=0.25)
+        far_x, far_y = [x0 - 10, x0 - 9], [y0 - 10, y0 - 10]  # legend samples drawn outside the view
+        open_line = fig.line(far_x, far_y, line_width=4, line_dash="dashed", line_color="#000000")
+        faded_line = fig.line(far_x, far_y, line_width=1.8, line_color=_EDGE, line_alpha=0.25)
         items.append(LegendItem(label="path left open", renderers=[open_line]))
         items.append(LegendItem(label="path blocked", renderers=[faded_line]))
-    legend = Legend(items=items, location="top_left", label_text_font_size=_FONT, glyph_height=16,
-                    glyph_width=16, spacing=3, border_line_color=None)
+    legend = Legend(items=items, location="top_left", label_text_font_size=_FONT, glyph_height=20,
+                    glyph_width=24, spacing=4, border_line_color=None)
     fig.add_layout(legend, "right")
     fig.add_tools(HoverTool(renderers=node_renderers, tooltips=[
         ("variable", "@name"), ("label", "@label"), ("type", "@kind"), ("role", "@roles")]))
@@ -313,7 +315,8 @@ def _ridge(values: dict[str, np.ndarray], colours: dict[str, str], *, title: str
            line_label: str = "", width: int = 540, labels: dict[str, str] | None = None):
     """Histograms of several samples stacked one row each, on a shared x axis."""
     names = list(values)
-    pooled = np.concatenate([v[np.isfinite(v)] for v in values.values()] or [np.zeros(1)])
+    finite = [v[np.isfinite(v)] for v in values.values()]
+    pooled = np.concatenate(finite) if finite else np.zeros(1)
     if pooled.size == 0:
         pooled = np.zeros(1)
     lo, hi = np.quantile(pooled, [0.002, 0.998])
@@ -322,8 +325,9 @@ def _ridge(values: dict[str, np.ndarray], colours: dict[str, str], *, title: str
     if hi <= lo:
         lo, hi = lo - 0.5, hi + 0.5
     edges = np.linspace(lo, hi, 41)
-    fig = figure(width=width, height=70 + 62 * len(names), title=title, tools="save,reset,xwheel_zoom,xpan",
-                 toolbar_location=None, x_axis_label=x_label, y_range=Range1d(-0.15, len(names) + 0.1))
+    pad = 0.04 * (hi - lo)
+    fig = figure(width=width, height=80 + 60 * len(names), title=title, tools="save", toolbar_location=None,
+                 x_axis_label=x_label, y_range=Range1d(-0.15, len(names) + 0.1), x_range=Range1d(lo - pad, hi + pad))
     _style(fig)
     for i, name in enumerate(reversed(names)):
         v = values[name]
@@ -340,17 +344,18 @@ def _ridge(values: dict[str, np.ndarray], colours: dict[str, str], *, title: str
     fig.yaxis.major_label_overrides = {i + 0.35: shown.get(n, n) for i, n in enumerate(reversed(names))}
     fig.ygrid.visible = False
     items = []
+    far = [lo - 10 * (hi - lo)] * 2  # legend samples drawn outside the view
     if line is not None and np.isfinite(line):
         fig.add_layout(Span(location=line, dimension="height", line_color="#000000", line_dash="dashed",
                             line_width=2))
-        items.append(LegendItem(label=line_label, renderers=[fig.line([], [], line_color="#000000",
+        items.append(LegendItem(label=line_label, renderers=[fig.line(far, [0, 0], line_color="#000000",
                                                                         line_dash="dashed", line_width=2)]))
     if marks:
-        items.append(LegendItem(label=mark_label, renderers=[fig.line([], [], line_color="#000000",
+        items.append(LegendItem(label=mark_label, renderers=[fig.line(far, [0, 0], line_color="#000000",
                                                                         line_width=2.5)]))
     if items:
-        fig.add_layout(Legend(items=items, location="top_right", label_text_font_size=_FONT,
-                              orientation="horizontal", border_line_color=None), "above")
+        fig.add_layout(Legend(items=items, location="top_left", label_text_font_size=_FONT,
+                              orientation="horizontal", border_line_color=None, padding=2, margin=2), "above")
     return fig
 
 
@@ -362,78 +367,108 @@ def _labels(table: pd.DataFrame) -> dict[str, str]:
     return out
 
 
-def estimates_figure(result, *, width: int = 540):
+def truth_groups(result) -> list[tuple[str, float, list[str]]]:
+    """Strategies grouped by the quantity they are scored against: ``(estimand, truth, names)``.
+
+    Strategies on different scales (a risk difference and a log odds ratio) get separate figures.
+    """
+    table = result.table
+    groups: dict[tuple[str, float], list[str]] = {}
+    for _, row in table.iterrows():
+        truth = float(row["truth"]) if "truth" in row and pd.notna(row["truth"]) else float(result.truth)
+        estimand = str(row["estimand"]) if "estimand" in row and pd.notna(row["estimand"]) else "effect"
+        scale = "log odds ratio" if "log odds" in estimand else estimand
+        key = next((k for k in groups if k[0] == scale and math.isclose(k[1], truth, rel_tol=1e-9,
+                                                                          abs_tol=1e-12)), (scale, truth))
+        groups.setdefault(key, []).append(str(row["name"]))
+    return [(scale, truth, names) for (scale, truth), names in groups.items()]
+
+
+def estimates_figure(result, *, width: int = 540) -> list:
     """Distribution of each strategy's estimates across replicates, with the truth as a dashed line.
+
+    Returns one figure per group of :func:`truth_groups` (usually one).
 
     Parameters
     ----------
     result : SimulationResult
-        Uses ``result.table`` (name, valid) and ``result.estimates`` (strategy, estimate).
+        Uses ``result.table`` (name, valid, mean, truth, estimand) and ``result.estimates``.
     """
     table = result.table
-    names = list(table["name"])
+    colours = strategy_colours(list(table["name"]))
     est = result.estimates
-    values = {n: est.loc[est["strategy"] == n, "estimate"].to_numpy(dtype=float) for n in names}
     means = dict(zip(table["name"], table["mean"], strict=True))
-    return _ridge(values, strategy_colours(names), title="Estimates across replicates",
-                  x_label="estimated effect", marks=means, mark_label="mean estimate", line=float(result.truth),
-                  line_label="truth", width=width, labels=_labels(table))
+    groups = truth_groups(result)
+    figs = []
+    for scale, truth, names in groups:
+        values = {n: est.loc[est["strategy"] == n, "estimate"].to_numpy(dtype=float) for n in names}
+        title = "Estimates across replicates" + (f": {scale}" if len(groups) > 1 else "")
+        figs.append(_ridge(values, colours, title=title, x_label="estimated effect", marks=means,
+                           mark_label="mean estimate", line=truth, line_label=f"truth {truth:.3g}", width=width,
+                           labels=_labels(table)))
+    return figs
 
 
-def se_figure(result, *, width: int = 540):
-    """Distribution of each strategy's model-based SEs, with its empirical SE (SD of the estimates) marked."""
+def se_figure(result, *, width: int = 540) -> list:
+    """Distribution of each strategy's model-based SEs, with its empirical SE (SD of the estimates) marked.
+
+    Returns one figure per group of :func:`truth_groups`.
+    """
     table = result.table
-    names = list(table["name"])
+    colours = strategy_colours(list(table["name"]))
     est = result.estimates
-    values = {n: est.loc[est["strategy"] == n, "se"].to_numpy(dtype=float) for n in names}
     emp = dict(zip(table["name"], table["emp_se"], strict=True))
-    return _ridge(values, strategy_colours(names), title="Model standard errors across replicates",
-                  x_label="model-based SE", marks=emp, mark_label="empirical SE", width=width,
-                  labels=_labels(table))
+    groups = truth_groups(result)
+    figs = []
+    for scale, _truth, names in groups:
+        values = {n: est.loc[est["strategy"] == n, "se"].to_numpy(dtype=float) for n in names}
+        title = "Model standard errors across replicates" + (f": {scale}" if len(groups) > 1 else "")
+        figs.append(_ridge(values, colours, title=title, x_label="model-based SE", marks=emp,
+                           mark_label="empirical SE", width=width, labels=_labels(table)))
+    return figs
 
 
 def interval_figure(result, *, first: int = 100, columns: int = 4, width: int = 1060, grid: bool = True):
     """Ranked confidence intervals of the first ``first`` replicates per strategy, coloured by coverage.
 
-    Each panel sorts the replicates by their estimate; an interval that misses the truth is drawn in
-    vermillion, one that covers it in grey. Returns a grid of panels, or with ``grid=False`` the list of
-    panels (one per strategy).
+    Each panel sorts the replicates by their estimate; an interval that misses the strategy's truth (dashed)
+    is drawn in vermillion, one that covers it in grey. Returns a grid of panels, or with ``grid=False`` the
+    list of panels (one per strategy).
     """
     table = result.table
-    names = list(table["name"])
-    truth = float(result.truth)
     est = result.estimates
     est = est[est["replicate"] < est["replicate"].min() + first]
     finite = est[np.isfinite(est["ci_low"]) & np.isfinite(est["ci_high"])]
-    lo = float(min(finite["ci_low"].min(), truth)) if len(finite) else truth - 1
-    hi = float(max(finite["ci_high"].max(), truth)) if len(finite) else truth + 1
-    pad = 0.05 * (hi - lo or 1.0)
-    x_range = Range1d(lo - pad, hi + pad)
-    cols = max(1, min(columns, len(names)))
+    cols = max(1, min(columns, len(table)))
     panel_width = max(220, width // cols - 10)
-    figs = []
     labels = _labels(table)
-    for name in names:
-        rows = finite[finite["strategy"] == name].sort_values("estimate")
-        covers = (rows["ci_low"] <= truth) & (truth <= rows["ci_high"])
-        source = ColumnDataSource({
-            "rank": np.arange(1, len(rows) + 1), "low": rows["ci_low"].to_numpy(), "high": rows["ci_high"].to_numpy(),
-            "estimate": rows["estimate"].to_numpy(),
-            "colour": np.where(covers, "#999999", "#D55E00"),
-        })
-        share = float(covers.mean()) if len(rows) else float("nan")
-        fig = figure(width=panel_width, height=300, x_range=x_range, tools="save", toolbar_location=None,
-                     title=f"{labels[name]}: {covers.sum()} of {len(rows)} cover" if len(rows) else labels[name],
-                     x_axis_label="confidence interval", y_axis_label="replicate (ranked)")
-        _style(fig)
-        fig.title.text_font_size = "12px"
-        fig.segment(x0="low", x1="high", y0="rank", y1="rank", line_color="colour", line_width=1.6, source=source)
-        fig.scatter("estimate", "rank", size=2.5, color="#000000", source=source)
-        fig.add_layout(Span(location=truth, dimension="height", line_color="#000000", line_dash="dashed",
-                            line_width=1.5))
-        fig.ygrid.visible = False
-        fig.tags = [share]
-        figs.append(fig)
+    figs = []
+    for _scale, truth, names in truth_groups(result):
+        rows_all = finite[finite["strategy"].isin(names)]
+        lo = float(min(rows_all["ci_low"].min(), truth)) if len(rows_all) else truth - 1
+        hi = float(max(rows_all["ci_high"].max(), truth)) if len(rows_all) else truth + 1
+        pad = 0.05 * (hi - lo or 1.0)
+        x_range = Range1d(lo - pad, hi + pad)
+        for name in names:
+            rows = rows_all[rows_all["strategy"] == name].sort_values("estimate")
+            covers = (rows["ci_low"] <= truth) & (truth <= rows["ci_high"])
+            source = ColumnDataSource({
+                "rank": np.arange(1, len(rows) + 1), "low": rows["ci_low"].to_numpy(),
+                "high": rows["ci_high"].to_numpy(), "estimate": rows["estimate"].to_numpy(),
+                "colour": np.where(covers, "#999999", "#D55E00"),
+            })
+            title = f"{labels[name]}: {int(covers.sum())}/{len(rows)} cover" if len(rows) else labels[name]
+            fig = figure(width=panel_width, height=280, x_range=x_range, tools="save", toolbar_location=None,
+                         title=title, x_axis_label="confidence interval", y_axis_label="replicate (ranked)")
+            _style(fig)
+            fig.title.text_font_size = "11px"
+            fig.segment(x0="low", x1="high", y0="rank", y1="rank", line_color="colour", line_width=1.6,
+                        source=source)
+            fig.scatter("estimate", "rank", size=2.5, color="#000000", source=source)
+            fig.add_layout(Span(location=truth, dimension="height", line_color="#000000", line_dash="dashed",
+                                line_width=1.5))
+            fig.ygrid.visible = False
+            figs.append(fig)
     return gridplot(figs, ncols=cols, toolbar_location=None) if grid else figs
 
 

@@ -109,6 +109,7 @@ class ScenarioState(param.Parameterized):
     report = param.Parameter(default=None, doc="The CheckReport of the scenario in effect, or None.")
     report_error = param.String(default="", doc="Why the check report is missing, '' when present.")
     revision = param.Integer(default=0, doc="Counts valid changes of the scenario.")
+    source = param.String(default="preset", doc="Where the scenario in effect came from (the last section).")
 
     SECTIONS = ("preset", "upload", "toml", "variables", "arrows", "question", "strategies", "study")
 
@@ -148,6 +149,7 @@ class ScenarioState(param.Parameterized):
             self.report_error = report_error
             self.selected_strategy = selected
             self.text = dumps_scenario(scenario)
+            self.source = section
             self.scenario = scenario
             self.revision += 1
 
@@ -546,8 +548,8 @@ class BackgroundJob(param.Parameterized):
     """A cancellable computation on a scenario, run in a worker thread, with progress and a result cache.
 
     Subclasses name the library module they need (``module``) and implement :meth:`compute`.
-    ``dispatch``, when set, is called with a function to run on the user interface's thread (the view sets
-    it to the document's next-tick scheduler); by default updates are applied directly.
+    With ``deferred`` set, the worker thread's progress and result are queued and applied by :meth:`poll`,
+    which a user interface calls periodically on its own thread; otherwise they are applied at once.
     """
 
     status = param.Selector(default="idle", objects=["idle", "running", "done", "cancelled", "failed"])
@@ -555,7 +557,7 @@ class BackgroundJob(param.Parameterized):
     message = param.String(default="")
     result = param.Parameter(default=None, doc="The result for ``result_key``, or None.")
     result_key = param.String(default="", doc="Cache key of the scenario the result belongs to.")
-    dispatch = param.Callable(default=None, doc="Runs a function on the interface's thread.")
+    deferred = param.Boolean(default=False, doc="Queue updates from worker threads for :meth:`poll`.")
 
     module = ""
     label = "run"
@@ -567,6 +569,7 @@ class BackgroundJob(param.Parameterized):
         self._cancel = threading.Event()
         self._lock = threading.Lock()
         self._thread: threading.Thread | None = None
+        self._pending: dict[str, Any] = {}
 
     @property
     def available(self) -> bool:
@@ -599,26 +602,46 @@ class BackgroundJob(param.Parameterized):
             return True
         return False
 
+    def clear(self) -> None:
+        """Forget the result shown (the cache stays), cancelling any running computation."""
+        self.cancel()
+        with param.parameterized.batch_call_watchers(self):
+            self.result, self.result_key = None, ""
+            self.status, self.progress, self.message = "idle", 0.0, ""
+
     def cancel(self) -> None:
         """Ask the running computation to stop; its result, if any, is discarded."""
         with self._lock:
             self._token += 1
             self._cancel.set()
+            self._pending = {}
         if self.status == "running":
-            self._publish(self._token, status="cancelled", message="cancelled", progress=0.0)
+            with param.parameterized.batch_call_watchers(self):
+                self.status, self.message, self.progress = "cancelled", f"{self.label} cancelled", 0.0
 
     def _publish(self, token: int, **values: Any) -> None:
-        def apply():
+        """Hand values to the interface: at once, or (with ``deferred``) at the next :meth:`poll`."""
+        with self._lock:
             if token != self._token:
                 return
-            with param.parameterized.batch_call_watchers(self):
-                for name, value in values.items():
-                    setattr(self, name, value)
+            if self.deferred:
+                self._pending.update(values)
+                return
+        with param.parameterized.batch_call_watchers(self):
+            for name, value in values.items():
+                setattr(self, name, value)
 
-        if self.dispatch is None:
-            apply()
-        else:
-            self.dispatch(apply)
+    def poll(self) -> bool:
+        """Apply the values a worker thread handed over since the last call (the interface calls this
+        periodically on its own thread). Returns whether anything changed."""
+        with self._lock:
+            pending, self._pending = self._pending, {}
+        if not pending:
+            return False
+        with param.parameterized.batch_call_watchers(self):
+            for name, value in pending.items():
+                setattr(self, name, value)
+        return True
 
     def start(self, scenario: Scenario, *, background: bool = True) -> None:
         """Compute for ``scenario`` (from the cache when possible). A running computation is cancelled."""
@@ -626,6 +649,7 @@ class BackgroundJob(param.Parameterized):
             with self._lock:
                 self._token += 1
                 self._cancel.set()
+                self._pending = {}
             return
         if not self.available:
             with param.parameterized.batch_call_watchers(self):
@@ -635,6 +659,7 @@ class BackgroundJob(param.Parameterized):
         with self._lock:
             self._cancel.set()
             self._token += 1
+            self._pending = {}
             token = self._token
             cancel = threading.Event()
             self._cancel = cancel
@@ -776,8 +801,8 @@ class Workbench(param.Parameterized):
         Re-run a linear-Gaussian scenario at once after every valid change.
     background : bool
         Run computations in a worker thread (False runs them in the caller, for tests).
-    dispatch : callable, optional
-        Runs a function on the user interface's thread (see :class:`BackgroundJob`).
+    deferred : bool
+        Queue the worker threads' updates until :meth:`poll` (see :class:`BackgroundJob`).
     """
 
     live = param.Boolean(default=True, doc="Re-run linear-Gaussian scenarios at once on every change.")
@@ -787,11 +812,11 @@ class Workbench(param.Parameterized):
     planning = param.ClassSelector(class_=PlanJob)
     sample = param.ClassSelector(class_=SampleState)
 
-    def __init__(self, preset: str | None = None, dispatch: Callable | None = None, **params):
+    def __init__(self, preset: str | None = None, deferred: bool = False, **params):
         super().__init__(**params)
         self.scenario_state = ScenarioState(preset=preset or DEFAULT_PRESET)
-        self.simulation = SimulationJob(dispatch=dispatch)
-        self.planning = PlanJob(dispatch=dispatch)
+        self.simulation = SimulationJob(deferred=deferred)
+        self.planning = PlanJob(deferred=deferred)
         self.sample = SampleState()
         self.scenario_state.param.watch(self._scenario_changed, "scenario")
         self._scenario_changed()
@@ -808,10 +833,15 @@ class Workbench(param.Parameterized):
     def _scenario_changed(self, *_events) -> None:
         scenario = self.scenario
         self.sample.update(scenario)
+        replaced = self.scenario_state.source in ("preset", "upload")
         for job in (self.simulation, self.planning):
             if self.runs_live:
                 job.start(scenario, background=self.background)
-            elif not job.show_cached(scenario) and job.status == "running":
+            elif job.show_cached(scenario):
+                continue
+            elif replaced:
+                job.clear()  # a different scenario: the old results would only confuse
+            elif job.status == "running":
                 job.cancel()
 
     def run(self) -> None:
@@ -823,3 +853,8 @@ class Workbench(param.Parameterized):
         """Cancel the running computations."""
         self.simulation.cancel()
         self.planning.cancel()
+
+    def poll(self) -> None:
+        """Apply the progress and results the worker threads handed over (see :meth:`BackgroundJob.poll`)."""
+        self.simulation.poll()
+        self.planning.poll()

@@ -128,10 +128,15 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
     alpha : float
         The study's alpha; nominal coverage is 1 - alpha.
     """
-    head = ("strategy", "verdict", "adjusts for", "mean estimate", "bias (MCSE)", "relative bias %",
-            "empirical SE (MCSE)", "model SE (MCSE)", "RMSE", f"coverage of {1 - alpha:.0%} CI (MCSE)",
-            "power (MCSE)", "failures")
+    scored = "truth" in table and "estimand" in table and (
+        table["truth"].nunique(dropna=True) > 1 or table["estimand"].nunique(dropna=True) > 1)
+    head = ["strategy", "verdict", "adjusts for"]
+    if scored:
+        head += ["estimates", "its truth"]
+    head += ["mean estimate", "bias (MCSE)", "relative bias %", "empirical SE (MCSE)", "model SE (MCSE)", "RMSE",
+             f"coverage of {1 - alpha:.0%} CI (MCSE)", "power (MCSE)", "failures"]
     rows = []
+    notes = []
     for _, r in table.iterrows():
         name = str(r["name"])
         flag = flags(r, alpha)
@@ -142,6 +147,11 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
             f"<td>{html.escape(name)}</td>",
             _verdict_cell(_get(r, "valid")),
             f'<td class="text"><div>{html.escape(str(adjust_text))}</div></td>',
+        ]
+        if scored:
+            cells += [f'<td class="text"><div>{html.escape(str(_get(r, "estimand") or ""))}</div></td>',
+                      _cell(name, "truth", _get(r, "truth"))]
+        cells += [
             _cell(name, "mean", _get(r, "mean")),
             _cell(name, "bias", _get(r, "bias"), mcse=_get(r, "bias_mcse"), flagged=flag["bias"],
                   title="|bias| exceeds 3 Monte Carlo SEs" if flag["bias"] else ""),
@@ -155,9 +165,19 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
             _cell(name, "failures", _get(r, "failures"), digits=0),
         ]
         rows.append("<tr>" + "".join(cells) + "</tr>")
+        note = _get(r, "note")
+        if note:
+            notes.append(f"<li><b>{html.escape(name)}</b>: {html.escape(str(note))}</li>")
+        reasons = _get(r, "failure_reasons")
+        if isinstance(reasons, dict) and reasons:
+            text = ", ".join(f"{k}: {v}" for k, v in reasons.items())
+            notes.append(f"<li><b>{html.escape(name)}</b> failed fits: {html.escape(text)}</li>")
     header = "".join(f"<th>{html.escape(h)}</th>" for h in head)
-    return (f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
-            + "".join(rows) + "</tbody></table>")
+    out = (f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
+           + "".join(rows) + "</tbody></table>")
+    if notes:
+        out += f'<ul class="wb-notes" style="font-size:12px;margin:2px 0 6px 0">{"".join(notes)}</ul>'
+    return out
 
 
 def signals_table(table: pd.DataFrame, *, table_id: str = "signals") -> str:

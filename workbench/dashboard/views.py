@@ -348,7 +348,9 @@ class VariablesEditor(pn.viewable.Viewer):
         return pd.DataFrame(rows, columns=self._COLUMNS)
 
     def _refresh(self, *_):
-        self.table.value = self._frame()
+        frame = self._frame()
+        if not frame.equals(self.table.value):
+            self.table.value = frame
 
     def _edited(self, event):
         name = self.state.scenario.variables[event.row].name if event.row < len(self.state.scenario.variables) \
@@ -415,11 +417,14 @@ class ArrowsEditor(pn.viewable.Viewer):
                              "effect": [a.effect for a in arrows]})
 
     def _refresh(self, *_):
-        self.table.editors = self._editors()
-        self.table.value = self._frame()
         names = self.state.scenario.names
-        self.new_from.options = names
-        self.new_to.options = names
+        if names != self.new_from.options:
+            self.table.editors = self._editors()
+            self.new_from.options = names
+            self.new_to.options = names
+        frame = self._frame()
+        if not frame.equals(self.table.value):
+            self.table.value = frame
 
     def _edited(self, event):
         key = {"from": "source", "to": "target", "effect": "effect"}.get(event.column)
@@ -466,10 +471,18 @@ class StrategiesEditor(pn.viewable.Viewer):
         self.state.param.watch(self._refresh, ["scenario", "report"])
         self._refresh()
 
+    _signature = None
+
     def _refresh(self, *_):
         state = self.state
         sc = state.scenario
         binary = sc.outcome.is_binary
+        signature = (repr(state.strategy_rows()), tuple(state.adjustable), binary,
+                     repr(state.report.minimal_sets if state.report else None),
+                     repr(state.report.optimal_set if state.report else None))
+        if signature == self._signature:
+            return
+        self._signature = signature
         widgets = []
         for row in state.strategy_rows():
             name = row["name"]
@@ -545,28 +558,63 @@ class TomlEditor(pn.viewable.Viewer):
 # Results
 # ------------------------------------------------------------------------------------------------------
 def _result_header(wb: Workbench, job, result) -> str:
+    """A banner when the result shown belongs to an earlier version of the scenario."""
+    if job.status == "running":
+        return ("<div class='wb-running' style='background:#e8f1fb;padding:4px 8px;margin-bottom:4px'>"
+                "Updating for the current scenario ...</div>")
     stale = "" if job.is_current(wb.scenario) else (
         "<div class='wb-stale' style='background:#fff3cd;padding:4px 8px;margin-bottom:4px'>These results "
         "belong to an earlier version of the scenario. Press <b>Run</b> to update them.</div>")
     return stale
 
 
-class EstimatesView(pn.viewable.Viewer):
-    """Distributions of estimates and SEs, ranked intervals, the performance table and the signals."""
+class _TabView(pn.viewable.Viewer):
+    """A view that rebuilds its figures only while its tab is shown; changes made while hidden wait."""
 
     workbench = param.ClassSelector(class_=Workbench)
+    active = param.Boolean(default=False, doc="Whether the view's tab is shown.")
+
+    def __init__(self, **params):
+        super().__init__(**params)
+        self._waiting: dict[str, object] = {}
+
+    def _when_shown(self, update) -> None:
+        if self.active:
+            update()
+        else:
+            self._waiting[update.__name__] = update
+
+    @param.depends("active", watch=True)
+    def _catch_up(self) -> None:
+        if self.active:
+            waiting, self._waiting = self._waiting, {}
+            for update in waiting.values():
+                update()
+
+
+class EstimatesView(_TabView):
+    """Distributions of estimates and SEs, ranked intervals, the performance table and the signals."""
 
     def __init__(self, **params):
         super().__init__(**params)
         self.body = pn.Column(margin=0, css_classes=["wb-estimates"])
-        self.workbench.simulation.param.watch(self._refresh, ["result", "status"])
-        self.workbench.scenario_state.param.watch(self._refresh, "scenario")
+        self.banner = pn.pane.HTML("", margin=(0, 5))
+        self._shown = None
+        self.workbench.simulation.param.watch(self._changed, ["result", "status"])
+        self.workbench.scenario_state.param.watch(self._changed, "scenario")
         self._refresh()
 
-    def _refresh(self, *_):
+    def _changed(self, *_):
+        self._when_shown(self._refresh)
+
+    def _refresh(self):
         wb = self.workbench
         job = wb.simulation
         result = job.result
+        self.banner.object = _result_header(wb, job, result) if result is not None else ""
+        if result is not None and result is self._shown:
+            return
+        self._shown = result
         if not job.available:
             self.body.objects = [_placeholder(
                 "**The simulation engine is not installed yet** (workbench.simulate). The graph, editors and "
@@ -600,10 +648,11 @@ class EstimatesView(pn.viewable.Viewer):
             "collinearity (a strong cause of the exposure), not confounding. Neither signal can tell a "
             "confounder from a mediator or a common effect: only the graph can.</div>")
         self.body.objects = [
-            _html(_result_header(wb, job, result) + summary),
+            self.banner,
+            _html(summary),
             _html(tables.performance_table(table, alpha=alpha) + legend, css_classes=["wb-performance"]),
-            pn.Row(pn.pane.Bokeh(figures.estimates_figure(result, width=530)),
-                   pn.pane.Bokeh(figures.se_figure(result, width=530))),
+            *[pn.Row(pn.pane.Bokeh(a), pn.pane.Bokeh(b)) for a, b in zip(
+                figures.estimates_figure(result, width=530), figures.se_figure(result, width=530), strict=True)],
             pn.pane.Markdown("**Confidence intervals of the first 100 replicates**, ranked by estimate: grey "
                              "intervals cover the truth (dashed), vermillion ones miss it.", styles=_NOTE_STYLE),
             pn.GridBox(*[pn.pane.Bokeh(f) for f in figures.interval_figure(result, width=_MAIN_WIDTH - 30,
@@ -615,22 +664,29 @@ class EstimatesView(pn.viewable.Viewer):
         return self.body
 
 
-class SampleSizeView(pn.viewable.Viewer):
+class SampleSizeView(_TabView):
     """Power curves, bias and empirical SE against n, the smallest n per strategy, separation figures."""
-
-    workbench = param.ClassSelector(class_=Workbench)
 
     def __init__(self, **params):
         super().__init__(**params)
         self.body = pn.Column(margin=0, css_classes=["wb-sample-size"])
-        self.workbench.planning.param.watch(self._refresh, ["result", "status"])
-        self.workbench.scenario_state.param.watch(self._refresh, "scenario")
+        self.banner = pn.pane.HTML("", margin=(0, 5))
+        self._shown = None
+        self.workbench.planning.param.watch(self._changed, ["result", "status"])
+        self.workbench.scenario_state.param.watch(self._changed, "scenario")
         self._refresh()
 
-    def _refresh(self, *_):
+    def _changed(self, *_):
+        self._when_shown(self._refresh)
+
+    def _refresh(self):
         wb = self.workbench
         job = wb.planning
         result = job.result
+        self.banner.object = _result_header(wb, job, result) if result is not None else ""
+        if result is not None and result is self._shown:
+            return
+        self._shown = result
         if not job.available:
             self.body.objects = [_placeholder(
                 "**The sample-size planner is not installed yet** (workbench.plan). Power curves appear here "
@@ -645,7 +701,7 @@ class SampleSizeView(pn.viewable.Viewer):
             return
         target = float(getattr(result, "target_power", None) or wb.scenario.study.target_power)
         objects = [
-            _html(_result_header(wb, job, result)),
+            self.banner,
             pn.pane.Bokeh(figures.power_figure(result, target_power=target, width=_MAIN_WIDTH - 40)),
             _html(tables.smallest_n_table(result.smallest_n), css_classes=["wb-smallest-n"]),
             pn.Row(pn.pane.Bokeh(figures.by_n_figure(result, "bias", title="Bias against n", y_label="bias",
@@ -665,10 +721,8 @@ class SampleSizeView(pn.viewable.Viewer):
         return self.body
 
 
-class ExplainView(pn.viewable.Viewer):
+class ExplainView(_TabView):
     """Plain-language stories per strategy and the one-dataset view."""
-
-    workbench = param.ClassSelector(class_=Workbench)
 
     def __init__(self, **params):
         super().__init__(**params)
@@ -678,11 +732,11 @@ class ExplainView(pn.viewable.Viewer):
         self.covariate.param.watch(self._covariate_chosen, "value")
         self.redraw = pn.widgets.Button(name="Draw another dataset", width=180)
         self.redraw.on_click(lambda e: setattr(wb.sample, "draw_number", wb.sample.draw_number + 1))
-        self.plots = pn.Row(margin=0)
+        self.plots = pn.Row(margin=0, css_classes=["wb-explain-plots"])
         self.caption = pn.pane.Markdown("", styles=_NOTE_STYLE)
-        wb.simulation.param.watch(self._refresh_stories, ["result"])
-        wb.scenario_state.param.watch(self._refresh_stories, ["report"])
-        wb.sample.param.watch(self._refresh_plots, ["data", "covariate"])
+        wb.simulation.param.watch(lambda *_: self._when_shown(self._refresh_stories), ["result"])
+        wb.scenario_state.param.watch(lambda *_: self._when_shown(self._refresh_stories), ["report"])
+        wb.sample.param.watch(lambda *_: self._when_shown(self._refresh_plots), ["data", "covariate"])
         self._refresh_stories()
         self._refresh_plots()
 
@@ -690,7 +744,7 @@ class ExplainView(pn.viewable.Viewer):
         if event.new is not None and event.new != self.workbench.sample.covariate:
             self.workbench.sample.covariate = event.new
 
-    def _refresh_stories(self, *_):
+    def _refresh_stories(self):
         from ..explain import explain
 
         wb = self.workbench
@@ -713,7 +767,7 @@ class ExplainView(pn.viewable.Viewer):
                                       "has run; then they quote its bias and coverage."))
         self.stories.objects = cards
 
-    def _refresh_plots(self, *_):
+    def _refresh_plots(self):
         wb = self.workbench
         sample = wb.sample
         self.covariate.options = list(sample.param.covariate.objects)

@@ -1,0 +1,157 @@
+"""End-to-end: the dashboard in a real headless Chromium.
+
+One user session, in order: the graph on the default preset; pick another preset, run, and compare the
+performance table with the library's own numbers for the same seed; edit an arrow and see the truth change;
+open a broken file and see the error with the previous scenario still in effect; download the HTML report and
+open it with the network cut off. Screenshots of each tab at 1440x900 go to ``test-artifacts/``.
+
+Common practice, no source: the reference for every number is :func:`workbench.simulate.simulate` with the
+same scenario and seed (the dashboard must show exactly what the library computes).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from pathlib import Path
+
+import pytest
+
+from workbench.presets import list_presets, load_preset
+from workbench.simulate import simulate
+
+pytestmark = pytest.mark.browser
+
+ARTIFACTS = Path(__file__).resolve().parents[2] / "test-artifacts"
+
+
+def _tab(page, name: str) -> None:
+    page.page.locator(".wb-tabs .bk-tab", has_text=name).first.click()
+
+
+def _editor_tab(page, name: str) -> None:
+    page.page.locator(".wb-editor-tabs .bk-tab", has_text=name).first.click()
+
+
+def _pick_preset(page, name: str) -> None:
+    label = f"{list_presets()[name]} ({name})"
+    page.page.locator(".wb-preset select").select_option(label=label)
+    page.wait_for_text(".wb-header", list_presets()[name])
+
+
+def test_graph_tab_shows_the_question_the_truth_and_the_paths(page):
+    page.wait_for_text(".wb-truth", "True effect under this graph: 0.25")
+    page.page.locator(".wb-highlight select").select_option("unadjusted")
+    verdict = page.wait_for_text(".wb-verdict", "invalid")
+    assert "fertiliser <- soil_quality -> wheat_yield" in verdict
+    page.screenshot("01_graph")
+    _editor_tab(page, "Strategies")
+    page.wait_for_text(".wb-strategies", "valid blocks every non-causal path")
+    page.screenshot("01b_graph_strategies")
+    _editor_tab(page, "Variables")
+    page.page.wait_for_selector(".wb-variables .tabulator-row")
+    page.screenshot("01c_graph_variables")
+    _editor_tab(page, "Scenario text")
+    page.page.wait_for_selector(".wb-toml textarea")
+    page.screenshot("01d_graph_toml")
+    _editor_tab(page, "Arrows")
+
+
+def test_pick_a_preset_run_and_read_the_performance_table(page):
+    _pick_preset(page, "binary_exposure")
+    _tab(page, "Estimates")
+    page.wait_for_text(".wb-estimates", "Press Run")
+    page.page.locator(".wb-run button").click()
+    page.page.wait_for_selector(".wb-performance table", timeout=60_000)
+    expected = simulate(load_preset("binary_exposure")).table.set_index("name")
+    cells = page.page.locator(".wb-performance td[data-field]")
+    seen = 0
+    for i in range(cells.count()):
+        cell = cells.nth(i)
+        strategy, field, value = (cell.get_attribute(a) for a in ("data-strategy", "data-field", "data-value"))
+        if field in ("mean", "bias", "emp_se", "model_se", "coverage", "power") and value:
+            assert math.isclose(float(value), float(expected.loc[strategy, field]), rel_tol=1e-9, abs_tol=1e-12)
+            seen += 1
+    assert seen == 6 * len(expected)
+    shown = page.text(".wb-performance")
+    assert f"{expected.loc['unadjusted', 'bias']:.3f}" in shown
+    flagged = page.page.locator(".wb-performance td.flag[data-strategy='unadjusted'][data-field='bias']")
+    assert flagged.count() == 1  # the confounded comparison is biased far beyond 3 MCSE
+    page.screenshot("02_estimates")
+
+
+def test_sample_size_explain_and_export_tabs(page):
+    _tab(page, "Sample size")
+    page.page.wait_for_selector(".wb-smallest-n table", timeout=60_000)
+    page.wait_for_text(".wb-smallest-n", "adjust_night_shift", timeout=60)
+    page.screenshot("03_sample_size")
+    _tab(page, "Explain")
+    page.wait_for_text(".wb-assumption", "assumption")
+    page.wait_for_text(".wb-stories", "In the simulation")
+    page.page.wait_for_selector(".wb-explain-plots .bk-Canvas, .wb-explain-plots canvas", state="attached")
+    page.screenshot("04_explain")
+    _tab(page, "Export")
+    page.page.wait_for_selector(".wb-export-html")
+    page.screenshot("05_export")
+
+
+def test_the_html_report_opens_with_the_network_cut_off(page, browser, tmp_path):
+    with page.page.expect_download(timeout=60_000) as download_info:
+        page.page.locator(".wb-export-html button, .wb-export-html a").first.click()
+    target = tmp_path / "report.html"
+    download_info.value.save_as(target)
+    text = target.read_text(encoding="utf-8")
+    assert "Night shifts" in text or "binary_exposure" in text or load_preset("binary_exposure").title in text
+    assert not re.search(r"""<(script|link|img)\b[^>]*\b(src|href)\s*=\s*["']?(https?:)?//""", text, re.IGNORECASE)
+    context = browser.new_context(viewport={"width": 1440, "height": 900})
+    offline = context.new_page()
+    outside: list[str] = []
+    errors: list[str] = []
+
+    def block(route):
+        outside.append(route.request.url)
+        route.abort()
+
+    offline.route(re.compile(r"^https?://"), block)
+    offline.on("console", lambda m: m.type == "error" and errors.append(m.text))
+    offline.on("pageerror", lambda e: errors.append(str(e)))
+    offline.goto(target.as_uri())
+    offline.wait_for_selector(".bk-Canvas, canvas, .bk-Figure", state="attached", timeout=30_000)
+    ARTIFACTS.mkdir(exist_ok=True)
+    offline.screenshot(path=str(ARTIFACTS / "07_html_report.png"))
+    context.close()
+    assert not outside, f"the report requested {outside}"
+    assert not errors, f"the report showed errors: {errors}"
+
+
+def test_editing_an_arrow_changes_the_truth(page):
+    _tab(page, "Graph")
+    _pick_preset(page, "common_cause")
+    page.wait_for_text(".wb-truth", "0.25")
+    _editor_tab(page, "Arrows")
+    cell = page.page.locator(".wb-arrows .tabulator-row").nth(2).locator('.tabulator-cell[tabulator-field="effect"]')
+    cell.click()
+    editor = cell.locator("input")
+    editor.fill("0.5")
+    editor.press("Enter")
+    page.wait_for_text(".wb-truth", "True effect under this graph: 0.5")
+    _tab(page, "Estimates")
+    page.wait_for_text(".wb-sim-truth", "0.5", timeout=60)
+
+
+def test_a_broken_upload_shows_the_error_and_keeps_the_scenario(page):
+    title = load_preset("common_cause").title
+    page.page.locator(".wb-upload input[type=file]").set_input_files(
+        files=[{"name": "broken.toml", "mimeType": "application/toml", "buffer": b'title = "x"\n[question\n'}])
+    error = page.wait_for_text(".wb-error", "upload broken.toml")
+    assert "TOML syntax error" in error
+    assert title in page.text(".wb-header")
+    _tab(page, "Graph")
+    page.wait_for_text(".wb-truth", "True effect under this graph: 0.5")
+    page.screenshot("06_upload_error")
+
+
+def test_no_request_left_the_server_and_no_console_error(page):
+    assert page.requests, "no request was recorded"
+    assert not page.foreign_requests()
+    assert not page.errors

@@ -1,0 +1,266 @@
+"""The dashboard's state classes, tested directly (no browser, no Panel).
+
+Common practice, no source: these check the behaviour the dashboard promises (a bad edit never loses the
+last valid scenario, uploads are limited and parsed only, results are cached per scenario and settings);
+the numbers they compare come from the library's own closed form (Wright 1934 path rules via
+:func:`workbench.check.check`).
+"""
+
+from __future__ import annotations
+
+import time
+
+import pytest
+
+from workbench.dashboard.state import (
+    MAX_UPLOAD_BYTES,
+    SampleState,
+    ScenarioState,
+    SimulationJob,
+    Workbench,
+)
+from workbench.presets import load_preset, preset_text
+from workbench.scenario import dumps_scenario
+
+
+@pytest.fixture
+def state():
+    return ScenarioState(preset="common_cause")
+
+
+def test_starts_on_the_preset_with_its_report_and_text(state):
+    assert state.scenario == load_preset("common_cause")
+    assert state.text == dumps_scenario(state.scenario)
+    assert state.report is not None and state.report.truth == pytest.approx(0.25)
+    assert state.error == ""
+
+
+def test_choosing_a_preset_loads_it(state):
+    state.preset = "mediator"
+    assert state.scenario == load_preset("mediator")
+
+
+def test_preset_loading_is_by_name_only(state):
+    before = state.scenario
+    assert not state.load_preset("../pyproject")
+    assert state.error_section == "preset" and "not a preset name" in state.error
+    assert state.scenario is before
+
+
+def test_a_bad_arrow_edit_keeps_the_last_valid_scenario(state):
+    before = state.scenario
+    assert not state.set_arrow(0, effect="lots")
+    assert state.scenario is before
+    assert state.error_section == "arrows"
+    assert state.error.startswith("arrows[1].effect:")
+
+
+def test_an_arrow_edit_changes_the_truth(state):
+    assert state.set_arrow(2, effect=0.5)
+    assert state.scenario.arrows[2].effect == 0.5
+    assert state.report.truth == pytest.approx(0.5)
+    assert state.error == ""
+    assert "effect = 0.5" in state.text
+
+
+def test_a_cycle_is_refused(state):
+    assert not state.add_arrow("wheat_yield", "soil_quality")
+    assert "cycle" in state.error
+    assert len(state.scenario.arrows) == 3
+
+
+def test_broken_text_stays_in_the_editor(state):
+    before = state.scenario
+    typed = state.text.replace("effect = 0.6", "effect = ")
+    assert not state.apply_text(typed)
+    assert state.text == typed
+    assert state.scenario is before
+    assert state.error_section == "toml" and "TOML syntax error" in state.error
+
+
+def test_valid_text_is_applied_and_kept_as_typed(state):
+    typed = "# my notes\n" + state.text.replace("effect = 0.25", "effect = 0.4")
+    assert state.apply_text(typed)
+    assert state.report.truth == pytest.approx(0.4)
+    assert state.text == typed
+
+
+def test_text_is_never_read_as_a_path(state):
+    assert not state.apply_text("/etc/hostname")
+    assert state.error.startswith("line 1")
+
+
+def test_uploads_are_limited_and_parsed(state):
+    before = state.scenario
+    assert not state.upload(b"x" * (MAX_UPLOAD_BYTES + 1), "big.toml")
+    assert "over the limit" in state.error
+    assert not state.upload(b"title = 'x'", "scenario.py")
+    assert "only .toml" in state.error
+    assert not state.upload(b"\xff\xfe", "latin.toml")
+    assert "UTF-8" in state.error
+    assert not state.upload(b"title = \n", "broken.toml")
+    assert state.error.startswith("upload broken.toml:") and state.error_section == "upload"
+    assert state.scenario is before
+    assert state.upload(preset_text("mediator").encode(), "mine.toml")
+    assert state.scenario == load_preset("mediator")
+
+
+def test_renaming_a_variable_follows_every_reference(state):
+    assert state.set_variable("soil_quality", "name", "soil")
+    sc = state.scenario
+    assert "soil" in sc.names and "soil_quality" not in sc.names
+    assert ("soil", "fertiliser") in [(a.source, a.target) for a in sc.arrows]
+    assert sc.strategy("adjust_soil").adjust == ("soil",)
+    assert state.set_variable("fertiliser", "name", "dose")
+    assert state.scenario.question.exposure == "dose"
+
+
+def test_a_bad_name_is_refused(state):
+    assert not state.set_variable("soil_quality", "name", "9lives")
+    assert state.error_section == "variables" and "letter" in state.error
+
+
+def test_removing_a_variable_removes_its_arrows_and_prunes_strategies(state):
+    assert state.remove_variable("soil_quality")
+    assert state.scenario.names == ["fertiliser", "wheat_yield"]
+    assert state.scenario.strategy("adjust_soil").adjust == ()
+    assert "removed soil_quality" in state.note
+    assert not state.remove_variable("fertiliser")
+    assert "exposure" in state.error
+
+
+def test_making_a_variable_latent_prunes_strategies(state):
+    assert state.set_variable("soil_quality", "observed", False)
+    assert state.scenario.latent_names == ["soil_quality"]
+    assert state.scenario.strategy("adjust_soil").adjust == ()
+    assert state.report.minimal_sets == []
+
+
+def test_type_change_and_proportion(state):
+    assert state.set_variable("soil_quality", "type", "binary")
+    assert state.scenario.variable("soil_quality").proportion == 0.5
+    assert not state.set_variable("soil_quality", "proportion", 1.5)
+    assert "between 0 and 1" in state.error
+    assert state.set_variable("soil_quality", "proportion", 0.3)
+    assert state.scenario.variable("soil_quality").proportion == 0.3
+    assert not state.set_variable("soil_quality", "noise_sd", 2.0)
+
+
+def test_question_change_prunes_the_new_exposure_from_strategies(state):
+    assert state.set_question(exposure="soil_quality", outcome="wheat_yield")
+    assert state.scenario.question.exposure == "soil_quality"
+    assert state.scenario.strategy("adjust_soil").adjust == ()
+    assert not state.set_question(outcome="soil_quality")
+    assert state.error_section == "question"
+
+
+def test_strategies_edit_and_verdicts(state):
+    assert state.add_strategy("both", adjust=["soil_quality"])
+    assert state.set_strategy("both", adjust=[])
+    rows = {r["name"]: r for r in state.strategy_rows()}
+    assert rows["both"]["valid"] is False and rows["adjust_soil"]["valid"] is True
+    assert rows["both"]["reasons"]
+    assert state.remove_strategy("both")
+    assert state.remove_strategy("unadjusted")
+    assert not state.remove_strategy("adjust_soil")
+    assert "at least one" in state.error
+
+
+def test_suggested_sets_are_added_once(state):
+    assert state.remove_strategy("adjust_soil")
+    assert state.add_suggested_strategies()
+    added = [s for s in state.scenario.strategies if s.name not in ("unadjusted",)]
+    assert [(s.name, s.adjust) for s in added] == [("minimal_1", ("soil_quality",))]
+    assert state.add_suggested_strategies()
+    assert len(state.scenario.strategies) == 2
+    assert "already listed" in state.note
+
+
+def test_selected_strategy_gives_open_and_blocked_paths(state):
+    state.selected_strategy = "unadjusted"
+    verdict = state.verdict()
+    assert not verdict.valid
+    assert "fertiliser <- soil_quality -> wheat_yield" in [p.text for p in verdict.open_paths]
+    state.selected_strategy = "adjust_soil"
+    assert [p.text for p in state.verdict().blocked_paths] == ["fertiliser <- soil_quality -> wheat_yield"]
+
+
+def test_study_settings_are_validated(state):
+    assert state.set_study(n=300, replicates=500, seed=7)
+    assert (state.scenario.study.n, state.scenario.study.replicates, state.scenario.study.seed) == (300, 500, 7)
+    assert not state.set_study(alpha=0.9)
+    assert state.error_section == "study" and state.scenario.study.alpha == 0.05
+
+
+def test_simulation_job_runs_and_caches():
+    sc = load_preset("common_cause").replace(study=load_preset("common_cause").study.__class__(replicates=300))
+    job = SimulationJob()
+    job.start(sc, background=False)
+    assert job.status == "done" and job.is_current(sc)
+    first = job.result
+    assert first.table.set_index("name").loc["adjust_soil", "mean"] == pytest.approx(0.25, abs=0.03)
+    job.start(sc, background=False)
+    assert job.result is first and job.message == "from the cache"
+
+
+def test_a_cancelled_run_publishes_nothing():
+    base = load_preset("binary_exposure")
+    sc = base.replace(study=base.study.__class__(n=2000, replicates=20000))
+    job = SimulationJob()
+    job.start(sc)
+    time.sleep(0.05)
+    job.cancel()
+    job.wait(60)
+    assert job.status == "cancelled"
+    assert job.result is None
+
+
+def test_deferred_updates_wait_for_poll():
+    sc = load_preset("common_cause")
+    job = SimulationJob(deferred=True)
+    job.start(sc)
+    job.wait(60)
+    assert job.result is None
+    assert job.poll()
+    assert job.status == "done" and job.result is not None
+
+
+def test_live_reruns_on_linear_gaussian_edits_only():
+    wb = Workbench(preset="common_cause", background=False)
+    wb.scenario_state.set_study(replicates=300)
+    assert wb.simulation.is_current(wb.scenario)
+    truth_before = wb.simulation.result.truth
+    wb.scenario_state.set_arrow(2, effect=0.5)
+    assert wb.simulation.is_current(wb.scenario)
+    assert wb.simulation.result.truth == pytest.approx(0.5) != truth_before
+    wb.scenario_state.preset = "binary_exposure"
+    assert not wb.runs_live
+    assert wb.simulation.result is None and wb.simulation.status == "idle"
+    wb.run()
+    assert wb.simulation.is_current(wb.scenario)
+    wb.scenario_state.set_study(replicates=200)
+    assert wb.simulation.result is not None and not wb.simulation.is_current(wb.scenario)
+
+
+def test_going_back_to_a_scenario_shows_its_cached_result():
+    wb = Workbench(preset="common_cause", background=False, live=False)
+    wb.scenario_state.set_study(replicates=300)
+    wb.run()
+    first = wb.simulation.result
+    wb.scenario_state.set_arrow(2, effect=0.5)
+    assert not wb.simulation.is_current(wb.scenario)
+    wb.scenario_state.set_arrow(2, effect=0.25)
+    assert wb.simulation.result is first
+
+
+def test_sample_state_draws_and_keeps_the_covariate():
+    sample = SampleState()
+    sc = load_preset("larger_graph")
+    sample.update(sc)
+    assert sample.data.shape == (sc.study.n, len(sc.names))
+    sample.covariate = "distance"
+    first = sample.data.copy()
+    sample.draw_number += 1
+    assert not sample.data.equals(first)
+    sample.update(sc)
+    assert sample.covariate == "distance"

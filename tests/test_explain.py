@@ -1,0 +1,68 @@
+"""Plain-language stories per strategy.
+
+The verdicts the stories repeat are facts of the trade: adjusting for a common cause removes confounding
+bias, adjusting for a mediator blocks part of a total effect, and with a latent confounder no observed set
+is valid (Pearl J. (2009). Causality, 2nd ed., Def. 3.3.1; Cinelli C., Forney A., Pearl J. (2022). A Crash
+Course in Good and Bad Controls. Sociological Methods & Research). The numbers quoted must be those of the
+run (checked against the result's own table).
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from workbench.check import check
+from workbench.explain import ASSUMPTION_NOTE, explain
+from workbench.presets import load_preset
+from workbench.simulate import simulate
+
+
+@pytest.fixture(scope="module")
+def common_cause():
+    sc = load_preset("common_cause")
+    return check(sc), simulate(sc, replicates=400, seed=3)
+
+
+def test_without_a_run_the_stories_use_the_graph_and_the_closed_form(common_cause):
+    report, _ = common_cause
+    unadjusted, adjusted = explain(report)
+    assert not unadjusted.valid and adjusted.valid
+    assert "leaves the non-causal path fertiliser <- soil_quality -> wheat_yield open" in unadjusted.text()
+    assert "bias +0.221" in unadjusted.text()
+    assert adjusted.recommendation.startswith("Recommended")
+
+
+def test_with_a_run_the_stories_quote_its_numbers(common_cause):
+    report, result = common_cause
+    rows = result.table.set_index("name")
+    unadjusted, adjusted = explain(report, result)
+    assert f"{rows.loc['unadjusted', 'bias']:+.3g}" in unadjusted.text()
+    assert f"{rows.loc['unadjusted', 'coverage']:.1%}" in unadjusted.text()
+    assert f"{rows.loc['adjust_soil', 'coverage']:.1%}" in adjusted.text()
+    assert "they should in 95%" in unadjusted.text()
+    assert unadjusted.recommendation.startswith("Not recommended")
+
+
+def test_a_mediator_story_says_it_cuts_the_effect():
+    story = explain(check(load_preset("mediator")))[1]
+    assert not story.valid
+    assert "cuts part of the effect itself" in story.text()
+
+
+def test_no_valid_set_is_said_plainly():
+    stories = explain(check(load_preset("latent_confounder")))
+    assert all(not s.valid for s in stories)
+    assert all("no strategy here is valid" in s.recommendation for s in stories)
+
+
+def test_the_less_precise_valid_strategy_names_the_better_one():
+    stories = {s.name: s for s in explain(check(load_preset("larger_graph")))}
+    assert stories["adjust_optimal"].recommendation.startswith("Recommended")
+    assert "adjust_optimal estimates the same effect more precisely" in stories["adjust_confounders"].recommendation
+
+
+def test_html_is_escaped_and_the_assumption_is_stated(common_cause):
+    report, _ = common_cause
+    html = explain(report)[0].html()
+    assert "&lt;-" in html and "<-" not in html
+    assert "assumption" in ASSUMPTION_NOTE
