@@ -45,6 +45,18 @@ def _emit_json(text: str, target: str) -> None:
     print(f"wrote {target}", file=sys.stderr)
 
 
+def _deliver(result, args) -> int:
+    """Write a result as JSON and CSV where asked, and the readable table unless JSON goes to stdout."""
+    if args.json:
+        _emit_json(result.to_json(), args.json)
+    if args.csv:
+        result.to_csv(args.csv)
+        print(f"wrote {args.csv}", file=sys.stderr)
+    if args.json != "-":
+        print(result.to_text())
+    return EXIT_OK
+
+
 def _cmd_presets(args) -> int:
     from .presets import DEFAULT_PRESET, list_presets
 
@@ -85,14 +97,7 @@ def _cmd_run(args) -> int:
         )
     finally:
         bar.close()
-    if args.json:
-        _emit_json(result.to_json(), args.json)
-    if args.csv:
-        result.to_csv(args.csv)
-        print(f"wrote {args.csv}", file=sys.stderr)
-    if args.json != "-":
-        print(result.to_text())
-    return EXIT_OK
+    return _deliver(result, args)
 
 
 def _sizes(text: str) -> list[int]:
@@ -125,14 +130,7 @@ def _cmd_plan(args) -> int:
         )
     finally:
         bar.close()
-    if args.json:
-        _emit_json(result.to_json(), args.json)
-    if args.csv:
-        result.to_csv(args.csv)
-        print(f"wrote {args.csv}", file=sys.stderr)
-    if args.json != "-":
-        print(result.to_text())
-    return EXIT_OK
+    return _deliver(result, args)
 
 
 def _cmd_serve(args) -> int:

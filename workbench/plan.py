@@ -52,7 +52,6 @@ import pandas as pd
 
 from .adjustment import judge
 from .errors import SimulationError
-from .metrics import performance
 from .power import analytic_covariance, find_smallest_n, large_sample
 from .scenario import Scenario, write_text_atomically
 from .simulate import choose_engine, run_replicates
@@ -603,16 +602,7 @@ class _Planner:
         self.strategy_truth[index] = arrays.truth
         for i, words in zip(index, arrays.estimand, strict=True):
             self.estimand[i] = words
-        measures = performance(
-            arrays.estimate,
-            arrays.se,
-            arrays.ci_low,
-            arrays.ci_high,
-            arrays.p_value,
-            arrays.truth,
-            self.alpha,
-            truth_mcse=arrays.truth_mcse,
-        )
+        measures = arrays.score()
         also_measures = []
         also_halfwidth = np.full((len(index), len(self.also)), np.nan)
         correlation = also_halfwidth.copy()
@@ -621,17 +611,7 @@ class _Planner:
             for a, v in enumerate(self.also):
                 j = columns[a]
                 low, high = arrays.also_ci_low[:, :, j], arrays.also_ci_high[:, :, j]
-                also_measures.append(
-                    performance(
-                        arrays.also_estimate[:, :, j],
-                        arrays.also_se[:, :, j],
-                        low,
-                        high,
-                        arrays.also_p_value[:, :, j],
-                        self.also_truth[v],
-                        self.alpha,
-                    )
-                )
+                also_measures.append(arrays.score_also(j, self.also_truth[v]))
                 also_halfwidth[:, a] = _mean_halfwidth(low, high)
             correlation = _correlation(arrays.estimate, arrays.also_estimate[:, :, columns])
         fitted = np.zeros(S, dtype=bool)

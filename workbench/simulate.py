@@ -362,6 +362,33 @@ class ReplicateArrays:
     seed: int
     alpha: float
 
+    def score(self) -> dict[str, np.ndarray]:
+        """Performance of each strategy's exposure estimate against its truth
+        (:func:`workbench.metrics.performance`; arrays of shape (S,))."""
+        return performance(
+            self.estimate,
+            self.se,
+            self.ci_low,
+            self.ci_high,
+            self.p_value,
+            self.truth,
+            self.alpha,
+            truth_mcse=self.truth_mcse,
+        )
+
+    def score_also(self, variable: int, truth: float) -> dict[str, np.ndarray]:
+        """Performance of the ``also`` variable at index ``variable`` against ``truth`` (its arrow's
+        effect); arrays of shape (S,), NaN for strategies that do not adjust for it."""
+        return performance(
+            self.also_estimate[:, :, variable],
+            self.also_se[:, :, variable],
+            self.also_ci_low[:, :, variable],
+            self.also_ci_high[:, :, variable],
+            self.also_p_value[:, :, variable],
+            truth,
+            self.alpha,
+        )
+
 
 class _Stream:
     """Walks the replicate blocks' random streams in order, whatever the chunk size."""
@@ -799,15 +826,7 @@ class SimulationResult:
         parents = dict(self.scenario.parents(self.scenario.question.outcome))
         for v, name in enumerate(a.also_names):
             truth = float(parents.get(name, 0.0))
-            m = performance(
-                a.also_estimate[:, :, v],
-                a.also_se[:, :, v],
-                a.also_ci_low[:, :, v],
-                a.also_ci_high[:, :, v],
-                a.also_p_value[:, :, v],
-                truth,
-                self.alpha,
-            )
+            m = a.score_also(v, truth)
             for s, strategy in enumerate(a.strategies):
                 if np.all(np.isnan(a.also_se[:, s, v])):
                     continue
@@ -1041,16 +1060,7 @@ def simulate(
     alpha = study.alpha if alpha is None else alpha
     arrays = run_replicates(scenario, n, replicates, seed, engine=engine, alpha=alpha, progress=progress)
     plan = _plan(scenario)
-    measures = performance(
-        arrays.estimate,
-        arrays.se,
-        arrays.ci_low,
-        arrays.ci_high,
-        arrays.p_value,
-        arrays.truth,
-        alpha,
-        truth_mcse=arrays.truth_mcse,
-    )
+    measures = arrays.score()
     median, share = _relative_change(arrays.estimate, arrays.reference_estimate)
     with np.errstate(divide="ignore", invalid="ignore"):
         # the reference's model SE by the arithmetic of metrics.performance
