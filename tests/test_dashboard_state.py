@@ -187,20 +187,26 @@ def test_selected_strategy_gives_open_and_blocked_paths(state):
 
 def test_study_settings_are_validated(state):
     assert state.set_study(n=300, replicates=500, seed=7)
-    assert (state.scenario.study.n, state.scenario.study.replicates, state.scenario.study.seed) == (300, 500, 7)
+    assert (state.scenario.study.n, state.scenario.study.replicates, state.scenario.study.seed) == (
+        300,
+        500,
+        7,
+    )
     assert not state.set_study(alpha=0.9)
     assert state.error_section == "study" and state.scenario.study.alpha == 0.05
 
 
 def test_simulation_job_runs_and_caches():
-    sc = load_preset("common_cause").replace(study=load_preset("common_cause").study.__class__(replicates=300))
+    sc = load_preset("common_cause").replace(
+        study=load_preset("common_cause").study.__class__(replicates=300)
+    )
     job = SimulationJob()
     job.start(sc, background=False)
     assert job.status == "done" and job.is_current(sc)
     first = job.result
     assert first.table.set_index("name").loc["adjust_soil", "mean"] == pytest.approx(0.25, abs=0.03)
     job.start(sc, background=False)
-    assert job.result is first and job.message == "from the cache"
+    assert job.result is first and job.message == "simulation: from the cache"
 
 
 def test_a_cancelled_run_publishes_nothing():

@@ -58,7 +58,10 @@ def test_no_valid_set_is_said_plainly():
 def test_the_less_precise_valid_strategy_names_the_better_one():
     stories = {s.name: s for s in explain(check(load_preset("larger_graph")))}
     assert stories["adjust_optimal"].recommendation.startswith("Recommended")
-    assert "adjust_optimal estimates the same effect more precisely" in stories["adjust_confounders"].recommendation
+    assert (
+        "adjust_optimal estimates the same effect more precisely"
+        in stories["adjust_confounders"].recommendation
+    )
 
 
 def test_html_is_escaped_and_the_assumption_is_stated(common_cause):
@@ -66,3 +69,16 @@ def test_html_is_escaped_and_the_assumption_is_stated(common_cause):
     html = explain(report)[0].html()
     assert "&lt;-" in html and "<-" not in html
     assert "assumption" in ASSUMPTION_NOTE
+
+
+def test_a_conditional_odds_ratio_is_not_recommended_for_a_marginal_question():
+    """Non-collapsibility: with no confounding, the adjusted (conditional) odds ratio still differs from
+    the marginal one (Greenland S., Robins J.M., Pearl J. (1999). Confounding and collapsibility in causal
+    inference. Statistical Science 14(1):29-46), so the valid set does not rescue the wrong estimand."""
+    sc = load_preset("binary_outcome")
+    stories = {s.name: s for s in explain(check(sc), simulate(sc, replicates=500, seed=5))}
+    conditional = stories["logit_adjust_fragility"]
+    assert conditional.valid
+    assert conditional.recommendation.startswith("Not recommended for this question")
+    assert "non-collapsibility" in conditional.text()
+    assert stories["standardized_adjust_fragility"].recommendation.startswith("Recommended")

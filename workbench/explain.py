@@ -124,10 +124,32 @@ def explain(report: CheckReport, result=None) -> list[Story]:
     truth = _number(result.truth) if result is not None else _number(report.truth)
     nominal = 1 - alpha
 
-    valid_names = [s["name"] for s in report.strategies if s["valid"]]
+    def off_target(name: str) -> bool:
+        """A valid set whose estimates still miss the truth clearly in the run (e.g. a conditional odds
+        ratio scored against a marginal one): |bias| over 3 MCSE and at least 5% of the truth."""
+        row = sim.get(name)
+        if row is None:
+            return False
+        bias, mcse, row_truth = (_number(row.get(k)) for k in ("bias", "bias_mcse", "truth"))
+        if bias is None or mcse is None:
+            return False
+        scale = abs(row_truth) if row_truth else abs(truth or 0.0)
+        return abs(bias) > 3 * mcse and (scale == 0 or abs(bias) >= 0.05 * scale)
+
+    def group(name: str) -> tuple[str, float]:
+        """Strategies compared for precision: same scale and same truth."""
+        row = sim.get(name, {})
+        estimand = str(row.get("estimand") or "effect")
+        row_truth = _number(row.get("truth"))
+        return (
+            "log odds ratio" if "log odds" in estimand else estimand,
+            round(row_truth if row_truth is not None else (truth or 0.0), 9),
+        )
+
+    usable = [s["name"] for s in report.strategies if s["valid"] and not off_target(s["name"])]
     precision: dict[str, float] = {}
     for s in report.strategies:
-        if not s["valid"]:
+        if s["name"] not in usable:
             continue
         if sim:
             se = _number(sim.get(s["name"], {}).get("emp_se"))
@@ -135,10 +157,8 @@ def explain(report: CheckReport, result=None) -> list[Story]:
             se = _number(s.get("large_sample_se_factor"))
         if se is not None:
             precision[s["name"]] = se
-    def group(name: str) -> str:
-        return str(sim.get(name, {}).get("estimand") or "effect")
 
-    best_in: dict[str, str] = {}
+    best_in: dict[tuple[str, float], str] = {}
     for candidate, se in precision.items():
         current = best_in.get(group(candidate))
         if current is None or se < precision[current]:
@@ -153,12 +173,13 @@ def explain(report: CheckReport, result=None) -> list[Story]:
         model = s.get("model", "ols")
         what = {
             "ols": "a linear regression",
-            "logit": "a logistic regression" + (" standardised to the whole sample" if s.get("standardize")
-                                                 else ""),
+            "logit": "a logistic regression"
+            + (" standardised to the whole sample" if s.get("standardize") else ""),
         }.get(model, model)
         paragraphs.append(
             f"It fits {what} of {q.outcome} on {q.exposure}"
-            + (f" and {_sets(adjust)}" if adjust else " alone, the raw comparison") + "."
+            + (f" and {_sets(adjust)}" if adjust else " alone, the raw comparison")
+            + "."
         )
         open_noncausal = [p.text for p in s["open_paths"] if not p.causal]
         blocked_noncausal = [p.text for p in s["blocked_paths"] if not p.causal]
@@ -168,8 +189,10 @@ def explain(report: CheckReport, result=None) -> list[Story]:
             paragraphs.append(f"It blocks the non-causal {word} {'; '.join(blocked_noncausal)}.")
         if open_noncausal:
             word = "path" if len(open_noncausal) == 1 else "paths"
-            paragraphs.append(f"It leaves the non-causal {word} {'; '.join(open_noncausal)} open, so part of "
-                              f"the association between {q.exposure} and {q.outcome} is not their effect.")
+            paragraphs.append(
+                f"It leaves the non-causal {word} {'; '.join(open_noncausal)} open, so part of "
+                f"the association between {q.exposure} and {q.outcome} is not their effect."
+            )
         if blocked_causal and q.target == "total":
             paragraphs.append(f"It cuts part of the effect itself by blocking {'; '.join(blocked_causal)}.")
         if not s["valid"]:
@@ -188,11 +211,22 @@ def explain(report: CheckReport, result=None) -> list[Story]:
             emp_se, power = _number(row.get("emp_se")), _number(row.get("power"))
             numbers = []
             if bias is not None and row_truth is not None:
-                size = f"{bias:+.3g}" + (f" (Monte Carlo SE {bias_mcse:.2g})" if bias_mcse is not None else "")
+                size = f"{bias:+.3g}" + (
+                    f" (Monte Carlo SE {bias_mcse:.2g})" if bias_mcse is not None else ""
+                )
                 share = 100 * abs(bias) / abs(row_truth) if row_truth else math.nan
-                rel = (f", {share:.0f}% of the true effect {row_truth:.3g}" if share >= 1 else
-                       f", under 1% of the true effect {row_truth:.3g}") if row_truth else ""
-                numbers.append(f"across the simulated studies its estimates were off by {size} on average{rel}")
+                rel = (
+                    (
+                        f", {share:.0f}% of the true effect {row_truth:.3g}"
+                        if share >= 1
+                        else f", under 1% of the true effect {row_truth:.3g}"
+                    )
+                    if row_truth
+                    else ""
+                )
+                numbers.append(
+                    f"across the simulated studies its estimates were off by {size} on average{rel}"
+                )
             if cov is not None:
                 cov_text = f"its {nominal:.0%} confidence intervals covered the truth in {cov:.1%} of studies"
                 if cov_mcse is not None and abs(cov - nominal) > 3 * cov_mcse:
@@ -213,24 +247,39 @@ def explain(report: CheckReport, result=None) -> list[Story]:
                 paragraphs.append(
                     f"In a very large sample its estimate would be {truth + ls_bias:.3g} against a true effect "
                     f"of {truth:.3g} (bias {ls_bias:+.3g}). Run the simulation to see coverage and precision at "
-                    f"n = {scenario.study.n}.")
+                    f"n = {scenario.study.n}."
+                )
 
         best = best_in.get(group(name))
-        if s["valid"]:
+        if s["valid"] and off_target(name):
+            recommendation = (
+                "Not recommended for this question: the adjustment set is valid, but the simulated "
+                "estimates miss the quantity asked for (see the note above)."
+            )
+        elif s["valid"]:
             if best is None or name == best:
-                recommendation = ("Recommended: valid" + (", and the most precise valid strategy here."
-                                                          if len(valid_names) > 1 else ", the only valid one."))
+                several_scales = len({group(u) for u in usable}) > 1
+                where = f" for the {group(name)[0]}" if several_scales else " here"
+                recommendation = "Recommended: valid" + (
+                    f", and the most precise valid strategy{where}."
+                    if len(usable) > 1
+                    else ", the only valid one."
+                )
             else:
                 ratio = precision.get(name, math.nan) / precision[best]
-                extra = f" (its standard error is {100 * (ratio - 1):.0f}% larger)" if math.isfinite(ratio) and \
-                    ratio > 1.005 else ""
+                extra = (
+                    f" (its standard error is {100 * (ratio - 1):.0f}% larger)"
+                    if math.isfinite(ratio) and ratio > 1.005
+                    else ""
+                )
                 recommendation = f"Valid, but {best} estimates the same effect more precisely{extra}."
+        elif usable:
+            recommendation = "Not recommended: it answers a different question than the one asked."
         else:
-            if valid_names:
-                recommendation = "Not recommended: it answers a different question than the one asked."
-            else:
-                recommendation = ("Not recommended, but no strategy here is valid: under this graph no set of "
-                                  "observed variables removes the bias. Measuring the latent variables or "
-                                  "another design is needed.")
+            recommendation = (
+                "Not recommended, but no strategy here is valid: under this graph no set of "
+                "observed variables removes the bias. Measuring the latent variables or "
+                "another design is needed."
+            )
         stories.append(Story(name, bool(s["valid"]), title, paragraphs, recommendation))
     return stories

@@ -87,8 +87,15 @@ def _settings(scenario: Scenario, result, plan) -> str:
     return f'<dl class="settings">{body}</dl>'
 
 
-def build_report(scenario: Scenario, *, report=None, result=None, plan=None, dataset: pd.DataFrame | None = None,
-                 covariate: str | None = None) -> str:
+def build_report(
+    scenario: Scenario,
+    *,
+    report=None,
+    result=None,
+    plan=None,
+    dataset: pd.DataFrame | None = None,
+    covariate: str | None = None,
+) -> str:
     """The report as one HTML document.
 
     Parameters
@@ -115,27 +122,38 @@ def build_report(scenario: Scenario, *, report=None, result=None, plan=None, dat
     q = scenario.question
     models = {"graph": figures.graph_figure(scenario, report.roles, width=640, height=380)}
     parts: list[str] = []
-    alpha = float(getattr(result, "alpha", scenario.study.alpha)) if result is not None else scenario.study.alpha
+    alpha = (
+        float(getattr(result, "alpha", scenario.study.alpha)) if result is not None else scenario.study.alpha
+    )
 
     parts.append("<h2>The graph</h2>" + _slot("graph"))
     parts.append(tables.strategies_table(report.strategies))
     minimal = "; ".join("{" + ", ".join(m) + "}" for m in report.minimal_sets) or "none"
     optimal = "{" + ", ".join(report.optimal_set) + "}" if report.optimal_set is not None else "none"
-    parts.append(f"<p class='meta'><b>Minimal valid sets:</b> {html.escape(minimal)}. <b>Optimal valid set:</b> "
-                 f"{html.escape(optimal)} ({html.escape(report.optimal_note)}).</p>")
+    parts.append(
+        f"<p class='meta'><b>Minimal valid sets:</b> {html.escape(minimal)}. <b>Optimal valid set:</b> "
+        f"{html.escape(optimal)} ({html.escape(report.optimal_note)}).</p>"
+    )
 
     if result is not None:
         truth_mcse = getattr(result, "truth_mcse", None)
         parts.append("<h2>Estimates</h2>")
-        parts.append(f"<p class='meta'><b>True effect:</b> {result.truth:.4g}"
-                     + (f" (Monte Carlo SE {truth_mcse:.2g})" if truth_mcse else "")
-                     + f" &mdash; {html.escape(str(getattr(result, 'truth_description', '') or ''))}</p>")
+        parts.append(
+            f"<p class='meta'><b>True effect:</b> {result.truth:.4g}"
+            + (f" (Monte Carlo SE {truth_mcse:.2g})" if truth_mcse else "")
+            + f" &mdash; {html.escape(str(getattr(result, 'truth_description', '') or ''))}</p>"
+        )
         parts.append(tables.performance_table(result.table, alpha=alpha))
-        parts.append("<p class='meta'>Monte Carlo standard errors in brackets. Highlighted cells: the bias exceeds "
-                     "3 Monte Carlo SEs, or the coverage lies outside the nominal level &plusmn; 3 Monte Carlo "
-                     "SEs (Morris, White &amp; Crowther 2019).</p>")
-        for i, (a, b) in enumerate(zip(figures.estimates_figure(result, width=540),
-                                       figures.se_figure(result, width=540), strict=True)):
+        parts.append(
+            "<p class='meta'>The small &plusmn; figures are Monte Carlo standard errors (MCSE). Highlighted cells: the bias exceeds "
+            "3 Monte Carlo SEs, or the coverage lies outside the nominal level &plusmn; 3 Monte Carlo "
+            "SEs (Morris, White &amp; Crowther 2019).</p>"
+        )
+        for i, (a, b) in enumerate(
+            zip(
+                figures.estimates_figure(result, width=540), figures.se_figure(result, width=540), strict=True
+            )
+        ):
             models[f"distributions_{i}"] = row(a, b)
             parts.append(_slot(f"distributions_{i}"))
         models["intervals"] = figures.interval_figure(result, width=1080)
@@ -148,17 +166,26 @@ def build_report(scenario: Scenario, *, report=None, result=None, plan=None, dat
         models["power"] = figures.power_figure(plan, target_power=target, width=1080)
         parts.append(_slot("power"))
         parts.append(tables.smallest_n_table(plan.smallest_n))
-        models["by_n"] = gridplot([
-            figures.by_n_figure(plan, "bias", title="Bias against n", y_label="bias", zero_line=True, width=530),
-            figures.by_n_figure(plan, "emp_se", title="Empirical SE against n", y_label="empirical SE", width=530),
-        ], ncols=2, toolbar_location=None)
+        models["by_n"] = gridplot(
+            [
+                figures.by_n_figure(
+                    plan, "bias", title="Bias against n", y_label="bias", zero_line=True, width=530
+                ),
+                figures.by_n_figure(
+                    plan, "emp_se", title="Empirical SE against n", y_label="empirical SE", width=530
+                ),
+            ],
+            ncols=2,
+            toolbar_location=None,
+        )
         parts.append(_slot("by_n"))
         also = getattr(plan, "also_table", None)
         if also is not None and len(also):
-            grid = figures.separation_figure(also, width=530)
-            if grid is not None:
-                models["separation"] = grid
-                parts.append("<h3>Separating the two effects</h3>" + _slot("separation"))
+            models["separation"] = figures.separation_figure(also, plan.table, width=530)
+            parts.append("<h3>Separating the effects</h3>" + _slot("separation"))
+            also_n = getattr(plan, "also_smallest_n", None)
+            if also_n is not None and len(also_n):
+                parts.append(tables.also_smallest_n_table(also_n))
 
     parts.append("<h2>What each strategy does</h2>")
     for story in explain(report, result):
@@ -192,7 +219,9 @@ def build_report(scenario: Scenario, *, report=None, result=None, plan=None, dat
         f"{_settings(scenario, result, plan)}"
     )
     if result is None:
-        intro += "<p class='meta'>No simulation was run for this report: it holds the graph analysis only.</p>"
+        intro += (
+            "<p class='meta'>No simulation was run for this report: it holds the graph analysis only.</p>"
+        )
     return head + intro + body + "</body></html>"
 
 

@@ -70,8 +70,15 @@ def server():
     """``workbench serve --no-show`` on a free loopback port; yields its base URL."""
     _require_browser()
     port = _free_port()
-    command = [sys.executable, "-c", "import sys; from workbench.cli import main; sys.exit(main(sys.argv[1:]))",
-               "serve", "--no-show", "--port", str(port)]
+    command = [
+        sys.executable,
+        "-c",
+        "import sys; from workbench.cli import main; sys.exit(main(sys.argv[1:]))",
+        "serve",
+        "--no-show",
+        "--port",
+        str(port),
+    ]
     process = subprocess.Popen(command, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True)
     url = f"http://127.0.0.1:{port}/"
     deadline = time.monotonic() + 60
@@ -146,6 +153,7 @@ class PageRecord:
     def screenshot(self, name: str) -> Path:
         ARTIFACTS.mkdir(exist_ok=True)
         path = ARTIFACTS / f"{name}.png"
+        self.page.wait_for_timeout(700)  # let Bokeh finish drawing the canvases
         self.page.screenshot(path=str(path))
         return path
 

@@ -68,9 +68,13 @@ def test_pick_a_preset_run_and_read_the_performance_table(page):
     seen = 0
     for i in range(cells.count()):
         cell = cells.nth(i)
-        strategy, field, value = (cell.get_attribute(a) for a in ("data-strategy", "data-field", "data-value"))
+        strategy, field, value = (
+            cell.get_attribute(a) for a in ("data-strategy", "data-field", "data-value")
+        )
         if field in ("mean", "bias", "emp_se", "model_se", "coverage", "power") and value:
-            assert math.isclose(float(value), float(expected.loc[strategy, field]), rel_tol=1e-9, abs_tol=1e-12)
+            assert math.isclose(
+                float(value), float(expected.loc[strategy, field]), rel_tol=1e-9, abs_tol=1e-12
+            )
             seen += 1
     assert seen == 6 * len(expected)
     shown = page.text(".wb-performance")
@@ -88,7 +92,7 @@ def test_sample_size_explain_and_export_tabs(page):
     _tab(page, "Explain")
     page.wait_for_text(".wb-assumption", "assumption")
     page.wait_for_text(".wb-stories", "In the simulation")
-    page.page.wait_for_selector(".wb-explain-plots .bk-Canvas, .wb-explain-plots canvas", state="attached")
+    page.wait_for_text(".wb-dataset-caption", "picks_per_hour against scanner, coloured by night_shift")
     page.screenshot("04_explain")
     _tab(page, "Export")
     page.page.wait_for_selector(".wb-export-html")
@@ -102,7 +106,9 @@ def test_the_html_report_opens_with_the_network_cut_off(page, browser, tmp_path)
     download_info.value.save_as(target)
     text = target.read_text(encoding="utf-8")
     assert "Night shifts" in text or "binary_exposure" in text or load_preset("binary_exposure").title in text
-    assert not re.search(r"""<(script|link|img)\b[^>]*\b(src|href)\s*=\s*["']?(https?:)?//""", text, re.IGNORECASE)
+    assert not re.search(
+        r"""<(script|link|img)\b[^>]*\b(src|href)\s*=\s*["']?(https?:)?//""", text, re.IGNORECASE
+    )
     context = browser.new_context(viewport={"width": 1440, "height": 900})
     offline = context.new_page()
     outside: list[str] = []
@@ -129,7 +135,11 @@ def test_editing_an_arrow_changes_the_truth(page):
     _pick_preset(page, "common_cause")
     page.wait_for_text(".wb-truth", "0.25")
     _editor_tab(page, "Arrows")
-    cell = page.page.locator(".wb-arrows .tabulator-row").nth(2).locator('.tabulator-cell[tabulator-field="effect"]')
+    cell = (
+        page.page.locator(".wb-arrows .tabulator-row")
+        .nth(2)
+        .locator('.tabulator-cell[tabulator-field="effect"]')
+    )
     cell.click()
     editor = cell.locator("input")
     editor.fill("0.5")
@@ -142,13 +152,46 @@ def test_editing_an_arrow_changes_the_truth(page):
 def test_a_broken_upload_shows_the_error_and_keeps_the_scenario(page):
     title = load_preset("common_cause").title
     page.page.locator(".wb-upload input[type=file]").set_input_files(
-        files=[{"name": "broken.toml", "mimeType": "application/toml", "buffer": b'title = "x"\n[question\n'}])
+        files=[{"name": "broken.toml", "mimeType": "application/toml", "buffer": b'title = "x"\n[question\n'}]
+    )
     error = page.wait_for_text(".wb-error", "upload broken.toml")
     assert "TOML syntax error" in error
     assert title in page.text(".wb-header")
     _tab(page, "Graph")
     page.wait_for_text(".wb-truth", "True effect under this graph: 0.5")
     page.screenshot("06_upload_error")
+
+
+def test_a_bad_name_shows_its_error_next_to_the_table_and_keeps_the_text(page):
+    _tab(page, "Graph")
+    _editor_tab(page, "Variables")
+    cell = page.page.locator(".wb-variables .tabulator-row").first.locator(
+        '.tabulator-cell[tabulator-field="name"]'
+    )
+    cell.click()
+    editor = cell.locator("input")
+    editor.fill("9lives")
+    editor.press("Enter")
+    error = page.wait_for_text(".wb-error-variables", "Not applied")
+    assert "letter" in error
+    assert cell.inner_text().strip() == "9lives"
+    page.wait_for_text(".wb-truth", "True effect under this graph: 0.5")
+    page.screenshot("08_edit_error")
+    _editor_tab(page, "Arrows")
+
+
+def test_a_long_run_can_be_cancelled(page):
+    _pick_preset(page, "binary_exposure")
+    field = page.page.locator(".wb-replicates input").first
+    field.fill("200000")
+    field.press("Enter")
+    page.page.wait_for_timeout(500)
+    page.page.locator(".wb-run button").click()
+    page.wait_for_text(".wb-status", "simulation: ", timeout=30)
+    page.page.locator(".wb-cancel button").click()
+    page.wait_for_text(".wb-status", "simulation cancelled", timeout=30)
+    _tab(page, "Estimates")
+    page.wait_for_text(".wb-estimates", "Press Run")
 
 
 def test_no_request_left_the_server_and_no_console_error(page):

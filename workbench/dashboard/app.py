@@ -47,7 +47,9 @@ class App(pn.viewable.Viewer):
         super().__init__(**params)
         wb = self.workbench
         state = wb.scenario_state
-        self.header = pn.pane.HTML("", css_classes=["wb-header"], sizing_mode="stretch_width", margin=(8, 12, 0, 12))
+        self.header = pn.pane.HTML(
+            "", css_classes=["wb-header"], sizing_mode="stretch_width", margin=(8, 12, 0, 12)
+        )
         state.param.watch(self._header, "scenario")
         self._header()
         editors = pn.Tabs(
@@ -55,7 +57,9 @@ class App(pn.viewable.Viewer):
             ("Variables", VariablesEditor(state=state)),
             ("Strategies", StrategiesEditor(state=state)),
             ("Scenario text (TOML)", TomlEditor(state=state)),
-            css_classes=["wb-editor-tabs"], margin=(6, 0), dynamic=False,
+            css_classes=["wb-editor-tabs"],
+            margin=(6, 0),
+            dynamic=False,
         )
         graph_tab = pn.Column(GraphView(state=state), editors, margin=(6, 10))
         self.result_views = {
@@ -69,7 +73,9 @@ class App(pn.viewable.Viewer):
             ("Sample size", pn.Column(self.result_views[2], margin=(6, 10))),
             ("Explain", pn.Column(self.result_views[3], margin=(6, 10))),
             ("Export", pn.Column(ExportView(workbench=wb), margin=(6, 10))),
-            css_classes=["wb-tabs"], dynamic=False, margin=(0, 6),
+            css_classes=["wb-tabs"],
+            dynamic=False,
+            margin=(0, 6),
         )
         self.tabs.param.watch(self._tab_shown, "active")
         self.sidebar = Sidebar(workbench=wb)
@@ -88,7 +94,8 @@ class App(pn.viewable.Viewer):
             f"<div style='font-size:13px;color:#444;max-width:1060px;line-height:1.4'>{summary}</div>"
             f"<div style='font-size:11px;color:#777'>workbench {__version__}. The graph is an assumption: "
             f"the results show its consequences, not facts about the world."
-            f"{' ' + html.escape(status) if status else ''}</div>")
+            f"{' ' + html.escape(status) if status else ''}</div>"
+        )
 
     def __panel__(self):
         return pn.Row(self.sidebar, pn.Column(self.header, self.tabs, margin=0), margin=0)
@@ -99,6 +106,12 @@ def create_app(preset: str | None = None) -> pn.viewable.Viewable:
 
     Computations run in worker threads; a periodic callback on the session's own thread applies their
     progress and results, so the page stays responsive while they run.
+
+    Examples
+    --------
+    >>> page = create_app("common_cause")
+    >>> type(page).__name__
+    'Row'
     """
     pn.extension("tabulator", raw_css=[GLOBAL_CSS], notifications=False)
     doc = pn.state.curdoc

@@ -98,6 +98,30 @@ def _style(fig, title: str | None = None) -> None:
     fig.background_fill_color = "#ffffff"
 
 
+def _n_axis(fig, sizes) -> None:
+    """Label a log-scaled sample-size axis at the sizes simulated (at most nine labels)."""
+    ticks = sorted({int(n) for n in sizes})
+    if len(ticks) > 9:
+        step = math.ceil(len(ticks) / 9)
+        ticks = ticks[::step]
+    fig.xaxis.ticker = FixedTicker(ticks=ticks, minor_ticks=[])
+
+
+def _legend_above(fig, items) -> None:
+    fig.add_layout(
+        Legend(
+            items=items,
+            label_text_font_size=_FONT,
+            border_line_color=None,
+            orientation="horizontal",
+            padding=2,
+            margin=2,
+            spacing=8,
+        ),
+        "above",
+    )
+
+
 def strategy_colours(names: Sequence[str]) -> dict[str, str]:
     """A colour per strategy, in the order given (cycling through eight Okabe-Ito colours).
 
@@ -174,8 +198,16 @@ def _path_edges(paths: Iterable) -> set[tuple[str, str]]:
     return edges
 
 
-def graph_figure(scenario: Scenario, roles: dict | None = None, verdict=None, *, adjust: Sequence[str] = (),
-                 width: int = 760, height: int = 430, title: str | None = None):
+def graph_figure(
+    scenario: Scenario,
+    roles: dict | None = None,
+    verdict=None,
+    *,
+    adjust: Sequence[str] = (),
+    width: int = 760,
+    height: int = 430,
+    title: str | None = None,
+):
     """The causal graph: nodes coloured by role, arrows labelled with effects, optional path highlight.
 
     Parameters
@@ -193,25 +225,44 @@ def graph_figure(scenario: Scenario, roles: dict | None = None, verdict=None, *,
     Returns
     -------
     bokeh.plotting.figure
+
+    Examples
+    --------
+    >>> from workbench.adjustment import find_roles, judge
+    >>> from workbench.presets import load_preset
+    >>> sc = load_preset("common_cause")
+    >>> fig = graph_figure(sc, find_roles(sc), judge(sc, []))
+    >>> [item.label.value for item in fig.legend[0].items][-2:]
+    ['path left open', 'path blocked']
     """
     pos = graph_layout(scenario)
     xs = [p[0] for p in pos.values()]
     ys = [p[1] for p in pos.values()]
-    pad_x, pad_y = 0.55, 0.6
-    x0, x1 = min(xs) - pad_x, max(xs) + pad_x
-    y0, y1 = min(ys) - pad_y, max(ys) + pad_y
-    if x1 - x0 < 2:
-        x0, x1 = x0 - 1, x1 + 1
-    if y1 - y0 < 1.6:
-        y0, y1 = y0 - 0.5, y1 + 0.5
+    # Margins in pixels around the outermost nodes: room for the node and its name below it.
+    left = right = 75.0
+    top, bottom = 28.0, 48.0
+    span_x, span_y = max(xs) - min(xs), max(ys) - min(ys)
+    sx = (width - left - right) / span_x if span_x > 0 else 200.0
+    sy = (height - top - bottom) / span_y if span_y > 0 else 120.0
+    x0, x1 = min(xs) - left / sx, max(xs) + right / sx
+    y0, y1 = min(ys) - bottom / sy, max(ys) + top / sy
+    if span_x == 0:
+        x0, x1 = min(xs) - width / (2 * sx), min(xs) + width / (2 * sx)
+    if span_y == 0:
+        y0, y1 = min(ys) - height / (2 * sy), min(ys) + height / (2 * sy)
     fig = figure(
-        frame_width=width, frame_height=height, x_range=Range1d(x0, x1), y_range=Range1d(y0, y1),
-        tools="save", toolbar_location=None, title=title,
+        frame_width=width,
+        frame_height=height,
+        x_range=Range1d(x0, x1),
+        y_range=Range1d(y0, y1),
+        tools="save",
+        toolbar_location=None,
+        title=title,
     )
     _style(fig)
     fig.axis.visible = False
     fig.grid.visible = False
-    sx, sy = width / (x1 - x0), height / (y1 - y0)
+    sx, sy = width / (x1 - x0), height / (y1 - y0)  # pixels per unit, as drawn
     radius_px = 15.0
 
     open_edges: set[tuple[str, str]] = set()
@@ -221,7 +272,9 @@ def graph_figure(scenario: Scenario, roles: dict | None = None, verdict=None, *,
         blocked_edges = _path_edges(verdict.blocked_paths) - open_edges
 
     # arrows
-    arrow_data: dict[str, list] = {k: [] for k in ("x0", "y0", "x1", "y1", "width", "alpha", "dash", "colour")}
+    arrow_data: dict[str, list] = {
+        k: [] for k in ("x0", "y0", "x1", "y1", "width", "alpha", "dash", "colour")
+    }
     label_data: dict[str, list] = {k: [] for k in ("x", "y", "text", "alpha")}
     for a in scenario.arrows:
         (ax, ay), (bx, by) = pos[a.source], pos[a.target]
@@ -244,14 +297,37 @@ def graph_figure(scenario: Scenario, roles: dict | None = None, verdict=None, *,
         label_data["text"].append(f"{a.effect:+.3g}")
         label_data["alpha"].append(0.35 if faded else 1.0)
     source = ColumnDataSource(arrow_data)
-    fig.add_layout(Arrow(
-        end=VeeHead(size=11, line_color="colour", fill_color="colour", line_alpha="alpha", fill_alpha="alpha"),
-        x_start="x0", y_start="y0", x_end="x1", y_end="y1", source=source,
-        line_width="width", line_alpha="alpha", line_dash="dash", line_color="colour", level="underlay",
-    ))
-    fig.text("x", "y", "text", source=ColumnDataSource(label_data), text_font_size=_FONT, text_align="center",
-             text_baseline="middle", text_alpha="alpha", background_fill_color="#ffffff",
-             background_fill_alpha=0.9, padding=2, text_color="#333333")
+    fig.add_layout(
+        Arrow(
+            end=VeeHead(
+                size=11, line_color="colour", fill_color="colour", line_alpha="alpha", fill_alpha="alpha"
+            ),
+            x_start="x0",
+            y_start="y0",
+            x_end="x1",
+            y_end="y1",
+            source=source,
+            line_width="width",
+            line_alpha="alpha",
+            line_dash="dash",
+            line_color="colour",
+            level="underlay",
+        )
+    )
+    fig.text(
+        "x",
+        "y",
+        "text",
+        source=ColumnDataSource(label_data),
+        text_font_size=_FONT,
+        text_align="center",
+        text_baseline="middle",
+        text_alpha="alpha",
+        background_fill_color="#ffffff",
+        background_fill_alpha=0.9,
+        padding=2,
+        text_color="#333333",
+    )
 
     # nodes, one renderer per legend entry
     adjusted = set(adjust)
@@ -259,8 +335,10 @@ def graph_figure(scenario: Scenario, roles: dict | None = None, verdict=None, *,
     for v in scenario.variables:
         role = primary_role(scenario, v.name, roles)
         reasons = "; ".join(f"{r}: {why}" for r, why in (roles or {}).get(v.name, []))
-        group = groups.setdefault((role, v.observed), {k: [] for k in (
-            "x", "y", "name", "label", "kind", "roles", "ring", "ring_colour")})
+        group = groups.setdefault(
+            (role, v.observed),
+            {k: [] for k in ("x", "y", "name", "label", "kind", "roles", "ring", "ring_colour")},
+        )
         x, y = pos[v.name]
         group["x"].append(x)
         group["y"].append(y)
@@ -269,8 +347,9 @@ def graph_figure(scenario: Scenario, roles: dict | None = None, verdict=None, *,
         group["kind"].append(f"{v.type}{'' if v.observed else ', latent'}")
         group["roles"].append(reasons or role)
         group["ring"].append(3.5 if v.name in adjusted else (2.0 if not v.observed else 1.2))
-        group["ring_colour"].append("#000000" if v.name in adjusted else ROLE_STYLE[role][1] if not v.observed
-                                    else "#333333")
+        group["ring_colour"].append(
+            "#000000" if v.name in adjusted else ROLE_STYLE[role][1] if not v.observed else "#333333"
+        )
     items = []
     node_renderers = []
     for role in ROLE_STYLE:
@@ -280,39 +359,81 @@ def graph_figure(scenario: Scenario, roles: dict | None = None, verdict=None, *,
                 continue
             text, colour, marker = ROLE_STYLE[role]
             renderer = fig.scatter(
-                "x", "y", source=ColumnDataSource(data), marker=marker, size=2 * radius_px + (4 if marker == "diamond" else 0),
-                fill_color=colour, fill_alpha=1.0 if observed else 0.0, line_color="ring_colour",
-                line_width="ring", line_dash="solid" if observed else "dashed",
+                "x",
+                "y",
+                source=ColumnDataSource(data),
+                marker=marker,
+                size=2 * radius_px + (4 if marker == "diamond" else 0),
+                fill_color=colour,
+                fill_alpha=1.0 if observed else 0.0,
+                line_color="ring_colour",
+                line_width="ring",
+                line_dash="solid" if observed else "dashed",
             )
             node_renderers.append(renderer)
             items.append(LegendItem(label=text if observed else f"{text} (latent)", renderers=[renderer]))
-    names = ColumnDataSource({
-        "x": list(xs), "y": list(ys),
-        "text": [n + ("  (adjusted)" if n in adjusted else "") for n in pos],
-    })
-    fig.text("x", "y", "text", source=names, text_font_size="12px", text_align="center", text_baseline="top",
-             y_offset=radius_px + 5, text_color="#111111", background_fill_color="#ffffff",
-             background_fill_alpha=0.75, padding=1)
+    names = ColumnDataSource(
+        {
+            "x": list(xs),
+            "y": list(ys),
+            "text": [n + ("  (adjusted)" if n in adjusted else "") for n in pos],
+        }
+    )
+    fig.text(
+        "x",
+        "y",
+        "text",
+        source=names,
+        text_font_size="12px",
+        text_align="center",
+        text_baseline="top",
+        y_offset=radius_px + 5,
+        text_color="#111111",
+        background_fill_color="#ffffff",
+        background_fill_alpha=0.75,
+        padding=1,
+    )
     if verdict is not None:
         far_x, far_y = [x0 - 10, x0 - 9], [y0 - 10, y0 - 10]  # legend samples drawn outside the view
         open_line = fig.line(far_x, far_y, line_width=4, line_dash="dashed", line_color="#000000")
         faded_line = fig.line(far_x, far_y, line_width=1.8, line_color=_EDGE, line_alpha=0.25)
         items.append(LegendItem(label="path left open", renderers=[open_line]))
         items.append(LegendItem(label="path blocked", renderers=[faded_line]))
-    legend = Legend(items=items, location="top_left", label_text_font_size=_FONT, glyph_height=20,
-                    glyph_width=24, spacing=4, border_line_color=None)
+    legend = Legend(
+        items=items,
+        location="top_left",
+        label_text_font_size=_FONT,
+        glyph_height=20,
+        glyph_width=24,
+        spacing=4,
+        border_line_color=None,
+    )
     fig.add_layout(legend, "right")
-    fig.add_tools(HoverTool(renderers=node_renderers, tooltips=[
-        ("variable", "@name"), ("label", "@label"), ("type", "@kind"), ("role", "@roles")]))
+    fig.add_tools(
+        HoverTool(
+            renderers=node_renderers,
+            tooltips=[("variable", "@name"), ("label", "@label"), ("type", "@kind"), ("role", "@roles")],
+        )
+    )
     return fig
 
 
 # ------------------------------------------------------------------------------------------------------
 # Estimates
 # ------------------------------------------------------------------------------------------------------
-def _ridge(values: dict[str, np.ndarray], colours: dict[str, str], *, title: str, x_label: str,
-           marks: dict[str, float] | None = None, mark_label: str = "", line: float | None = None,
-           line_label: str = "", width: int = 540, labels: dict[str, str] | None = None):
+def _ridge(
+    values: dict[str, np.ndarray],
+    colours: dict[str, str],
+    *,
+    title: str,
+    x_label: str,
+    marks: dict[str, float] | None = None,
+    mark_label: str = "",
+    line: float | None = None,
+    line_label: str = "",
+    width: int = 540,
+    labels: dict[str, str] | None = None,
+):
     """Histograms of several samples stacked one row each, on a shared x axis."""
     names = list(values)
     finite = [v[np.isfinite(v)] for v in values.values()]
@@ -326,19 +447,41 @@ def _ridge(values: dict[str, np.ndarray], colours: dict[str, str], *, title: str
         lo, hi = lo - 0.5, hi + 0.5
     edges = np.linspace(lo, hi, 41)
     pad = 0.04 * (hi - lo)
-    fig = figure(width=width, height=80 + 60 * len(names), title=title, tools="save", toolbar_location=None,
-                 x_axis_label=x_label, y_range=Range1d(-0.15, len(names) + 0.1), x_range=Range1d(lo - pad, hi + pad))
+    fig = figure(
+        width=width,
+        height=80 + 60 * len(names),
+        title=title,
+        tools="save",
+        toolbar_location=None,
+        x_axis_label=x_label,
+        y_range=Range1d(-0.15, len(names) + 0.1),
+        x_range=Range1d(lo - pad, hi + pad),
+    )
     _style(fig)
     for i, name in enumerate(reversed(names)):
         v = values[name]
         v = v[np.isfinite(v)]
         counts, _ = np.histogram(np.clip(v, lo, hi), bins=edges)
         top = counts / counts.max() * 0.85 if counts.max() > 0 else counts.astype(float)
-        fig.quad(left=edges[:-1], right=edges[1:], bottom=i, top=i + top, fill_color=colours[name],
-                 fill_alpha=0.55, line_color=colours[name], line_alpha=0.9)
+        fig.quad(
+            left=edges[:-1],
+            right=edges[1:],
+            bottom=i,
+            top=i + top,
+            fill_color=colours[name],
+            fill_alpha=0.55,
+            line_color=colours[name],
+            line_alpha=0.9,
+        )
         if marks and name in marks and marks[name] is not None and np.isfinite(marks[name]):
-            fig.segment(x0=[marks[name]], x1=[marks[name]], y0=[i], y1=[i + 0.95], line_color="#000000",
-                        line_width=2.5)
+            fig.segment(
+                x0=[marks[name]],
+                x1=[marks[name]],
+                y0=[i],
+                y1=[i + 0.95],
+                line_color="#000000",
+                line_width=2.5,
+            )
     fig.yaxis.ticker = FixedTicker(ticks=[i + 0.35 for i in range(len(names))])
     shown = labels or {}
     fig.yaxis.major_label_overrides = {i + 0.35: shown.get(n, n) for i, n in enumerate(reversed(names))}
@@ -346,16 +489,34 @@ def _ridge(values: dict[str, np.ndarray], colours: dict[str, str], *, title: str
     items = []
     far = [lo - 10 * (hi - lo)] * 2  # legend samples drawn outside the view
     if line is not None and np.isfinite(line):
-        fig.add_layout(Span(location=line, dimension="height", line_color="#000000", line_dash="dashed",
-                            line_width=2))
-        items.append(LegendItem(label=line_label, renderers=[fig.line(far, [0, 0], line_color="#000000",
-                                                                        line_dash="dashed", line_width=2)]))
+        fig.add_layout(
+            Span(location=line, dimension="height", line_color="#000000", line_dash="dashed", line_width=2)
+        )
+        items.append(
+            LegendItem(
+                label=line_label,
+                renderers=[fig.line(far, [0, 0], line_color="#000000", line_dash="dashed", line_width=2)],
+            )
+        )
     if marks:
-        items.append(LegendItem(label=mark_label, renderers=[fig.line(far, [0, 0], line_color="#000000",
-                                                                        line_width=2.5)]))
+        items.append(
+            LegendItem(
+                label=mark_label, renderers=[fig.line(far, [0, 0], line_color="#000000", line_width=2.5)]
+            )
+        )
     if items:
-        fig.add_layout(Legend(items=items, location="top_left", label_text_font_size=_FONT,
-                              orientation="horizontal", border_line_color=None, padding=2, margin=2), "above")
+        fig.add_layout(
+            Legend(
+                items=items,
+                location="top_left",
+                label_text_font_size=_FONT,
+                orientation="horizontal",
+                border_line_color=None,
+                padding=2,
+                margin=2,
+            ),
+            "above",
+        )
     return fig
 
 
@@ -371,6 +532,14 @@ def truth_groups(result) -> list[tuple[str, float, list[str]]]:
     """Strategies grouped by the quantity they are scored against: ``(estimand, truth, names)``.
 
     Strategies on different scales (a risk difference and a log odds ratio) get separate figures.
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> from workbench.simulate import simulate
+    >>> result = simulate(load_preset("common_cause"), replicates=200, seed=1)
+    >>> truth_groups(result)
+    [('total effect (difference in means per unit)', 0.25, ['unadjusted', 'adjust_soil'])]
     """
     table = result.table
     groups: dict[tuple[str, float], list[str]] = {}
@@ -378,8 +547,10 @@ def truth_groups(result) -> list[tuple[str, float, list[str]]]:
         truth = float(row["truth"]) if "truth" in row and pd.notna(row["truth"]) else float(result.truth)
         estimand = str(row["estimand"]) if "estimand" in row and pd.notna(row["estimand"]) else "effect"
         scale = "log odds ratio" if "log odds" in estimand else estimand
-        key = next((k for k in groups if k[0] == scale and math.isclose(k[1], truth, rel_tol=1e-9,
-                                                                          abs_tol=1e-12)), (scale, truth))
+        key = next(
+            (k for k in groups if k[0] == scale and math.isclose(k[1], truth, rel_tol=1e-9, abs_tol=1e-12)),
+            (scale, truth),
+        )
         groups.setdefault(key, []).append(str(row["name"]))
     return [(scale, truth, names) for (scale, truth), names in groups.items()]
 
@@ -393,6 +564,14 @@ def estimates_figure(result, *, width: int = 540) -> list:
     ----------
     result : SimulationResult
         Uses ``result.table`` (name, valid, mean, truth, estimand) and ``result.estimates``.
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> from workbench.simulate import simulate
+    >>> result = simulate(load_preset("common_cause"), replicates=200, seed=1)
+    >>> [f.title.text for f in estimates_figure(result)]
+    ['Estimates across replicates']
     """
     table = result.table
     colours = strategy_colours(list(table["name"]))
@@ -403,9 +582,20 @@ def estimates_figure(result, *, width: int = 540) -> list:
     for scale, truth, names in groups:
         values = {n: est.loc[est["strategy"] == n, "estimate"].to_numpy(dtype=float) for n in names}
         title = "Estimates across replicates" + (f": {scale}" if len(groups) > 1 else "")
-        figs.append(_ridge(values, colours, title=title, x_label="estimated effect", marks=means,
-                           mark_label="mean estimate", line=truth, line_label=f"truth {truth:.3g}", width=width,
-                           labels=_labels(table)))
+        figs.append(
+            _ridge(
+                values,
+                colours,
+                title=title,
+                x_label="estimated effect",
+                marks=means,
+                mark_label="mean estimate",
+                line=truth,
+                line_label=f"truth {truth:.3g}",
+                width=width,
+                labels=_labels(table),
+            )
+        )
     return figs
 
 
@@ -413,6 +603,14 @@ def se_figure(result, *, width: int = 540) -> list:
     """Distribution of each strategy's model-based SEs, with its empirical SE (SD of the estimates) marked.
 
     Returns one figure per group of :func:`truth_groups`.
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> from workbench.simulate import simulate
+    >>> result = simulate(load_preset("common_cause"), replicates=200, seed=1)
+    >>> len(se_figure(result))
+    1
     """
     table = result.table
     colours = strategy_colours(list(table["name"]))
@@ -422,9 +620,19 @@ def se_figure(result, *, width: int = 540) -> list:
     figs = []
     for scale, _truth, names in groups:
         values = {n: est.loc[est["strategy"] == n, "se"].to_numpy(dtype=float) for n in names}
-        title = "Model standard errors across replicates" + (f": {scale}" if len(groups) > 1 else "")
-        figs.append(_ridge(values, colours, title=title, x_label="model-based SE", marks=emp,
-                           mark_label="empirical SE", width=width, labels=_labels(table)))
+        title = f"Model SEs: {scale}" if len(groups) > 1 else "Model standard errors across replicates"
+        figs.append(
+            _ridge(
+                values,
+                colours,
+                title=title,
+                x_label="model-based SE",
+                marks=emp,
+                mark_label="empirical SE",
+                width=width,
+                labels=_labels(table),
+            )
+        )
     return figs
 
 
@@ -434,6 +642,14 @@ def interval_figure(result, *, first: int = 100, columns: int = 4, width: int = 
     Each panel sorts the replicates by their estimate; an interval that misses the strategy's truth (dashed)
     is drawn in vermillion, one that covers it in grey. Returns a grid of panels, or with ``grid=False`` the
     list of panels (one per strategy).
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> from workbench.simulate import simulate
+    >>> result = simulate(load_preset("common_cause"), replicates=200, seed=1)
+    >>> [f.title.text.split(":")[0] for f in interval_figure(result, grid=False)]
+    ['unadjusted (invalid)', 'adjust_soil']
     """
     table = result.table
     est = result.estimates
@@ -452,21 +668,41 @@ def interval_figure(result, *, first: int = 100, columns: int = 4, width: int = 
         for name in names:
             rows = rows_all[rows_all["strategy"] == name].sort_values("estimate")
             covers = (rows["ci_low"] <= truth) & (truth <= rows["ci_high"])
-            source = ColumnDataSource({
-                "rank": np.arange(1, len(rows) + 1), "low": rows["ci_low"].to_numpy(),
-                "high": rows["ci_high"].to_numpy(), "estimate": rows["estimate"].to_numpy(),
-                "colour": np.where(covers, "#999999", "#D55E00"),
-            })
+            source = ColumnDataSource(
+                {
+                    "rank": np.arange(1, len(rows) + 1),
+                    "low": rows["ci_low"].to_numpy(),
+                    "high": rows["ci_high"].to_numpy(),
+                    "estimate": rows["estimate"].to_numpy(),
+                    "colour": np.where(covers, "#999999", "#D55E00"),
+                }
+            )
             title = f"{labels[name]}: {int(covers.sum())}/{len(rows)} cover" if len(rows) else labels[name]
-            fig = figure(width=panel_width, height=280, x_range=x_range, tools="save", toolbar_location=None,
-                         title=title, x_axis_label="confidence interval", y_axis_label="replicate (ranked)")
+            fig = figure(
+                width=panel_width,
+                height=280,
+                x_range=x_range,
+                tools="save",
+                toolbar_location=None,
+                title=title,
+                x_axis_label="confidence interval",
+                y_axis_label="replicate (ranked)",
+            )
             _style(fig)
             fig.title.text_font_size = "11px"
-            fig.segment(x0="low", x1="high", y0="rank", y1="rank", line_color="colour", line_width=1.6,
-                        source=source)
+            fig.segment(
+                x0="low", x1="high", y0="rank", y1="rank", line_color="colour", line_width=1.6, source=source
+            )
             fig.scatter("estimate", "rank", size=2.5, color="#000000", source=source)
-            fig.add_layout(Span(location=truth, dimension="height", line_color="#000000", line_dash="dashed",
-                                line_width=1.5))
+            fig.add_layout(
+                Span(
+                    location=truth,
+                    dimension="height",
+                    line_color="#000000",
+                    line_dash="dashed",
+                    line_width=1.5,
+                )
+            )
             fig.ygrid.visible = False
             figs.append(fig)
     return gridplot(figs, ncols=cols, toolbar_location=None) if grid else figs
@@ -484,58 +720,129 @@ def power_figure(plan_result, *, target_power: float, width: int = 700):
     plan_result : PlanResult
         Uses ``.table`` (n, strategy, power, power_mcse, analytic_power) and ``.smallest_n``.
     target_power : float
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> from workbench.plan import plan
+    >>> planned = plan(load_preset("common_cause"), sample_sizes=[50, 100], replicates=200, seed=1)
+    >>> power_figure(planned, target_power=0.8).title.text
+    'Power to detect the effect'
     """
     table = plan_result.table
     names = list(dict.fromkeys(table["strategy"]))
     colours = strategy_colours(names)
-    fig = figure(width=width, height=380, title="Power to detect the effect", x_axis_type="log",
-                 x_axis_label="sample size n", y_axis_label="power", y_range=Range1d(0, 1.04),
-                 tools="save,reset", toolbar_location=None)
+    fig = figure(
+        width=width,
+        height=380,
+        title="Power to detect the effect",
+        x_axis_type="log",
+        x_axis_label="sample size n",
+        y_axis_label="power",
+        y_range=Range1d(0, 1.04),
+        tools="save,reset",
+        toolbar_location=None,
+    )
     _style(fig)
     items = []
     smallest = getattr(plan_result, "smallest_n", None)
     invalid = set()
     if smallest is not None and "valid" in smallest:
-        invalid = {r["strategy"] for _, r in smallest.iterrows() if r["valid"] is not None and not bool(r["valid"])}
+        invalid = {
+            r["strategy"] for _, r in smallest.iterrows() if r["valid"] is not None and not bool(r["valid"])
+        }
     for name in names:
         rows = table[table["strategy"] == name].sort_values("n")
         n = rows["n"].to_numpy(dtype=float)
         power = rows["power"].to_numpy(dtype=float)
         mcse = rows["power_mcse"].to_numpy(dtype=float) if "power_mcse" in rows else np.zeros_like(power)
         colour = colours[name]
-        fig.varea(x=n, y1=np.clip(power - 2 * mcse, 0, 1), y2=np.clip(power + 2 * mcse, 0, 1), fill_color=colour,
-                  fill_alpha=0.18)
+        fig.varea(
+            x=n,
+            y1=np.clip(power - 2 * mcse, 0, 1),
+            y2=np.clip(power + 2 * mcse, 0, 1),
+            fill_color=colour,
+            fill_alpha=0.18,
+        )
         dash = "solid" if name not in invalid else "dotdash"
         line = fig.line(n, power, line_color=colour, line_width=2.2, line_dash=dash)
         dots = fig.scatter(n, power, color=colour, size=6)
         renderers = [line, dots]
         if "analytic_power" in rows and rows["analytic_power"].notna().any():
-            renderers.append(fig.line(n, rows["analytic_power"].to_numpy(dtype=float), line_color=colour,
-                                      line_width=1.5, line_dash="dashed"))
+            renderers.append(
+                fig.line(
+                    n,
+                    rows["analytic_power"].to_numpy(dtype=float),
+                    line_color=colour,
+                    line_width=1.5,
+                    line_dash="dashed",
+                )
+            )
         label = name + (" (invalid: detects a biased quantity)" if name in invalid else "")
         items.append(LegendItem(label=label, renderers=renderers))
         if smallest is not None and len(smallest):
             found = smallest[smallest["strategy"] == name]
             if len(found) and pd.notna(found["n_for_power"].iloc[0]):
-                fig.scatter([float(found["n_for_power"].iloc[0])], [target_power], marker="inverted_triangle",
-                            size=13, fill_color=colour, line_color="#000000")
-    fig.add_layout(Span(location=target_power, dimension="width", line_color="#000000", line_dash="dotted",
-                        line_width=1.5))
-    items.append(LegendItem(label=f"target power {target_power:g}; ▼ smallest n",
-                            renderers=[fig.line([], [], line_color="#000000", line_dash="dotted")]))
-    items.append(LegendItem(label="analytic approximation (dashed)",
-                            renderers=[fig.line([], [], line_color="#555555", line_dash="dashed")]))
-    fig.add_layout(Legend(items=items, label_text_font_size=_FONT, border_line_color=None, spacing=2), "right")
+                fig.scatter(
+                    [float(found["n_for_power"].iloc[0])],
+                    [target_power],
+                    marker="inverted_triangle",
+                    size=13,
+                    fill_color=colour,
+                    line_color="#000000",
+                )
+    fig.add_layout(
+        Span(
+            location=target_power, dimension="width", line_color="#000000", line_dash="dotted", line_width=1.5
+        )
+    )
+    hidden_x = [float(table["n"].min())] * 2
+    hidden_y = [-5.0, -5.0]  # legend samples below the fixed y range
+    items.append(
+        LegendItem(
+            label=f"target power {target_power:g}; ▼ smallest n",
+            renderers=[fig.line(hidden_x, hidden_y, line_color="#000000", line_dash="dotted")],
+        )
+    )
+    items.append(
+        LegendItem(
+            label="analytic approximation (dashed)",
+            renderers=[fig.line(hidden_x, hidden_y, line_color="#555555", line_dash="dashed")],
+        )
+    )
+    fig.add_layout(
+        Legend(items=items, label_text_font_size=_FONT, border_line_color=None, spacing=2), "right"
+    )
+    _n_axis(fig, table["n"])
     return fig
 
 
-def by_n_figure(plan_result, column: str, *, title: str, y_label: str, width: int = 520, zero_line: bool = False):
-    """One performance measure (``bias``, ``emp_se``, ...) against n, one line per strategy."""
+def by_n_figure(
+    plan_result, column: str, *, title: str, y_label: str, width: int = 520, zero_line: bool = False
+):
+    """One performance measure (``bias``, ``emp_se``, ...) against n, one line per strategy.
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> from workbench.plan import plan
+    >>> planned = plan(load_preset("common_cause"), sample_sizes=[50, 100], replicates=200, seed=1)
+    >>> by_n_figure(planned, "emp_se", title="Empirical SE", y_label="SE").title.text
+    'Empirical SE'
+    """
     table = plan_result.table
     names = list(dict.fromkeys(table["strategy"]))
     colours = strategy_colours(names)
-    fig = figure(width=width, height=300, title=title, x_axis_type="log", x_axis_label="sample size n",
-                 y_axis_label=y_label, tools="save,reset", toolbar_location=None)
+    fig = figure(
+        width=width,
+        height=300,
+        title=title,
+        x_axis_type="log",
+        x_axis_label="sample size n",
+        y_axis_label=y_label,
+        tools="save,reset",
+        toolbar_location=None,
+    )
     _style(fig)
     items = []
     for name in names:
@@ -543,48 +850,108 @@ def by_n_figure(plan_result, column: str, *, title: str, y_label: str, width: in
         n = rows["n"].to_numpy(dtype=float)
         y = rows[column].to_numpy(dtype=float)
         mcse_col = f"{column}_mcse"
-        renderers = [fig.line(n, y, line_color=colours[name], line_width=2),
-                     fig.scatter(n, y, color=colours[name], size=5)]
+        renderers = [
+            fig.line(n, y, line_color=colours[name], line_width=2),
+            fig.scatter(n, y, color=colours[name], size=5),
+        ]
         if mcse_col in rows:
             m = rows[mcse_col].to_numpy(dtype=float)
-            renderers.append(fig.varea(x=n, y1=y - 2 * m, y2=y + 2 * m, fill_color=colours[name], fill_alpha=0.15))
+            renderers.append(
+                fig.varea(x=n, y1=y - 2 * m, y2=y + 2 * m, fill_color=colours[name], fill_alpha=0.15)
+            )
         items.append(LegendItem(label=name, renderers=renderers))
     if zero_line:
         fig.add_layout(Span(location=0, dimension="width", line_color="#000000", line_dash="dotted"))
-    fig.add_layout(Legend(items=items, label_text_font_size=_FONT, border_line_color=None, spacing=2,
-                          location="top_right"))
+    _legend_above(fig, items)
+    _n_axis(fig, table["n"])
     return fig
 
 
-def separation_figure(also_table: pd.DataFrame, *, width: int = 520):
-    """For ``question.also``: each further effect's power and the correlation between its estimate and the
-    exposure's, against n (one line per strategy and variable)."""
-    names = list(dict.fromkeys(also_table["strategy"]))
-    colours = strategy_colours(names)
-    var_col = next((c for c in ("variable", "also", "name") if c in also_table), None)
-    power_col = next((c for c in ("power", "also_power") if c in also_table), None)
-    corr_col = next((c for c in ("correlation", "corr", "estimate_correlation") if c in also_table), None)
-    figs = []
-    for col, title, label in ((power_col, "Power for the further effect", "power"),
-                              (corr_col, "Correlation of the two estimates", "correlation across replicates")):
-        if col is None:
-            continue
-        fig = figure(width=width, height=300, title=title, x_axis_type="log", x_axis_label="sample size n",
-                     y_axis_label=label, tools="save", toolbar_location=None)
+def separation_figure(also_table: pd.DataFrame, table: pd.DataFrame | None = None, *, width: int = 530):
+    """For ``question.also``: whether n units can tell two effects apart.
+
+    Left: power against n for each further effect (solid) beside the exposure's own power under the same
+    strategy (dashed). Right: the correlation between the two estimates across replicates (a strong
+    correlation means the data cannot separate the two effects well).
+
+    Parameters
+    ----------
+    also_table : DataFrame
+        ``PlanResult.also_table`` (n, strategy, variable, power, correlation, ...).
+    table : DataFrame, optional
+        ``PlanResult.table``, for the exposure's power.
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> from workbench.plan import plan
+    >>> planned = plan(load_preset("two_exposures"), sample_sizes=[100, 200], replicates=200, seed=1)
+    >>> type(separation_figure(planned.also_table, planned.table)).__name__
+    'GridPlot'
+    """
+    strategies = list(dict.fromkeys(also_table["strategy"]))
+    colours = strategy_colours(list(dict.fromkeys(table["strategy"])) if table is not None else strategies)
+    power = figure(
+        width=width,
+        height=320,
+        title="Power: further effect (solid) and exposure (dashed)",
+        x_axis_type="log",
+        x_axis_label="sample size n",
+        y_axis_label="power",
+        y_range=Range1d(0, 1.04),
+        tools="save",
+        toolbar_location=None,
+    )
+    corr = figure(
+        width=width,
+        height=320,
+        title="Correlation of the two estimates across replicates",
+        x_axis_type="log",
+        x_axis_label="sample size n",
+        y_axis_label="correlation",
+        y_range=Range1d(-1.04, 1.04),
+        tools="save",
+        toolbar_location=None,
+    )
+    for fig in (power, corr):
         _style(fig)
-        items = []
-        groups = also_table.groupby(["strategy", var_col]) if var_col else also_table.groupby(["strategy"])
-        for key, rows in groups:
-            strategy = key[0] if isinstance(key, tuple) else key
-            rows = rows.sort_values("n")
-            colour = colours.get(strategy, "#999999")
-            r = [fig.line(rows["n"].to_numpy(float), rows[col].to_numpy(float), line_color=colour, line_width=2),
-                 fig.scatter(rows["n"].to_numpy(float), rows[col].to_numpy(float), color=colour, size=5)]
-            items.append(LegendItem(label=" / ".join(str(k) for k in (key if isinstance(key, tuple) else (key,))),
-                                    renderers=r))
-        fig.add_layout(Legend(items=items, label_text_font_size=_FONT, border_line_color=None, spacing=2))
-        figs.append(fig)
-    return gridplot(figs, ncols=2, toolbar_location=None) if figs else None
+    power_items, corr_items = [], []
+    for (strategy, variable), rows in also_table.groupby(["strategy", "variable"], sort=False):
+        rows = rows.sort_values("n")
+        n = rows["n"].to_numpy(float)
+        colour = colours.get(strategy, "#999999")
+        label = f"{variable} under {strategy}"
+        rs = [
+            power.line(n, rows["power"].to_numpy(float), line_color=colour, line_width=2),
+            power.scatter(n, rows["power"].to_numpy(float), color=colour, size=5),
+        ]
+        if table is not None:
+            own = table[table["strategy"] == strategy].sort_values("n")
+            rs.append(
+                power.line(
+                    own["n"].to_numpy(float),
+                    own["power"].to_numpy(float),
+                    line_color=colour,
+                    line_width=1.5,
+                    line_dash="dashed",
+                )
+            )
+        power_items.append(LegendItem(label=label, renderers=rs))
+        corr_items.append(
+            LegendItem(
+                label=label,
+                renderers=[
+                    corr.line(n, rows["correlation"].to_numpy(float), line_color=colour, line_width=2),
+                    corr.scatter(n, rows["correlation"].to_numpy(float), color=colour, size=5),
+                ],
+            )
+        )
+    corr.add_layout(Span(location=0, dimension="width", line_color="#000000", line_dash="dotted"))
+    _legend_above(power, power_items)
+    _legend_above(corr, corr_items)
+    for fig in (power, corr):
+        _n_axis(fig, also_table["n"])
+    return gridplot([power, corr], ncols=2, toolbar_location=None)
 
 
 # ------------------------------------------------------------------------------------------------------
@@ -594,11 +961,20 @@ def _is_binary(values: pd.Series) -> bool:
     return set(np.unique(values.dropna())) <= {0.0, 1.0}
 
 
-def dataset_scatter(data: pd.DataFrame, exposure: str, outcome: str, covariate: str | None, *,
-                    width: int = 560, seed: int = 0):
+def dataset_scatter(
+    data: pd.DataFrame, exposure: str, outcome: str, covariate: str | None, *, width: int = 560, seed: int = 0
+):
     """The outcome against the exposure in one simulated dataset, points coloured by ``covariate``.
 
     A binary exposure is jittered sideways so that the points do not sit on two lines.
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> from workbench.generate import draw
+    >>> data = draw(load_preset("common_cause"), 100, seed=1)
+    >>> dataset_scatter(data, "fertiliser", "wheat_yield", "soil_quality").title.text
+    'wheat_yield against fertiliser, coloured by soil_quality'
     """
     x = data[exposure].to_numpy(dtype=float)
     if _is_binary(data[exposure]):
@@ -608,8 +984,15 @@ def dataset_scatter(data: pd.DataFrame, exposure: str, outcome: str, covariate: 
         y = y + np.random.default_rng(seed + 1).uniform(-0.08, 0.08, size=y.size)
     source = {"x": x, "y": y}
     title = f"{outcome} against {exposure}" + (f", coloured by {covariate}" if covariate else "")
-    fig = figure(width=width, height=400, title=title, x_axis_label=exposure, y_axis_label=outcome,
-                 tools="save,reset,box_zoom", toolbar_location=None)
+    fig = figure(
+        width=width,
+        height=400,
+        title=title,
+        x_axis_label=exposure,
+        y_axis_label=outcome,
+        tools="save,reset,box_zoom",
+        toolbar_location=None,
+    )
     _style(fig)
     if covariate:
         c = data[covariate].to_numpy(dtype=float)
@@ -617,16 +1000,37 @@ def dataset_scatter(data: pd.DataFrame, exposure: str, outcome: str, covariate: 
         if _is_binary(data[covariate]):
             for value, colour in ((0, "#0072B2"), (1, "#D55E00")):
                 chosen = ColumnDataSource({k: np.asarray(v)[c == value] for k, v in source.items()})
-                fig.scatter("x", "y", source=chosen, color=colour, size=5, alpha=0.6,
-                            legend_label=f"{covariate} = {value}")
+                fig.scatter(
+                    "x",
+                    "y",
+                    source=chosen,
+                    color=colour,
+                    size=5,
+                    alpha=0.6,
+                    legend_label=f"{covariate} = {value}",
+                )
             fig.legend.label_text_font_size = _FONT
             fig.legend.location = "top_left"
         else:
             mapper = LinearColorMapper(palette=Cividis256, low=float(np.nanmin(c)), high=float(np.nanmax(c)))
-            fig.scatter("x", "y", source=ColumnDataSource(source), size=5, alpha=0.7,
-                        color={"field": "c", "transform": mapper})
-            fig.add_layout(ColorBar(color_mapper=mapper, title=covariate, width=10, title_text_font_size=_FONT,
-                                    major_label_text_font_size=_FONT), "right")
+            fig.scatter(
+                "x",
+                "y",
+                source=ColumnDataSource(source),
+                size=5,
+                alpha=0.7,
+                color={"field": "c", "transform": mapper},
+            )
+            fig.add_layout(
+                ColorBar(
+                    color_mapper=mapper,
+                    title=covariate,
+                    width=10,
+                    title_text_font_size=_FONT,
+                    major_label_text_font_size=_FONT,
+                ),
+                "right",
+            )
     else:
         fig.scatter("x", "y", source=ColumnDataSource(source), size=5, alpha=0.6, color="#0072B2")
     return fig
@@ -634,7 +1038,16 @@ def dataset_scatter(data: pd.DataFrame, exposure: str, outcome: str, covariate: 
 
 def dataset_groups(data: pd.DataFrame, exposure: str, covariate: str, *, width: int = 460):
     """The covariate in each exposure group: box plots by exposure value (binary exposure) or by exposure
-    quintile; for a binary covariate, the share of 1s per group."""
+    quintile; for a binary covariate, the share of 1s per group.
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> from workbench.generate import draw
+    >>> data = draw(load_preset("common_cause"), 100, seed=1)
+    >>> list(dataset_groups(data, "fertiliser", "soil_quality").x_range.factors)
+    ['Q1', 'Q2', 'Q3', 'Q4', 'Q5']
+    """
     if _is_binary(data[exposure]):
         groups = np.where(data[exposure].to_numpy() > 0.5, f"{exposure} = 1", f"{exposure} = 0")
         order = [f"{exposure} = 0", f"{exposure} = 1"]
@@ -642,14 +1055,21 @@ def dataset_groups(data: pd.DataFrame, exposure: str, covariate: str, *, width: 
     else:
         codes = pd.qcut(data[exposure], 5, labels=False, duplicates="drop").to_numpy()
         groups = np.array([f"Q{int(c) + 1}" for c in codes])
-        order = sorted(set(groups))
+        order = sorted({str(g) for g in groups})
         x_label = f"{exposure} quintile (Q1 lowest)"
     values = data[covariate].to_numpy(dtype=float)
     binary = _is_binary(data[covariate])
-    title = (f"Share with {covariate} = 1 in each group" if binary else f"{covariate} in each group")
-    fig = figure(width=width, height=400, x_range=order, title=title, x_axis_label=x_label,
-                 y_axis_label=(f"share {covariate} = 1" if binary else covariate), tools="save",
-                 toolbar_location=None)
+    title = f"Share with {covariate} = 1 in each group" if binary else f"{covariate} in each group"
+    fig = figure(
+        width=width,
+        height=400,
+        x_range=order,
+        title=title,
+        x_axis_label=x_label,
+        y_axis_label=(f"share {covariate} = 1" if binary else covariate),
+        tools="save",
+        toolbar_location=None,
+    )
     _style(fig)
     if binary:
         shares = [float(values[groups == g].mean()) for g in order]

@@ -9,6 +9,7 @@ request to any other host.
 from __future__ import annotations
 
 import argparse
+import socket
 import sys
 
 __all__ = ["serve", "main", "LOOPBACK"]
@@ -18,7 +19,10 @@ _MAX_MESSAGE_BYTES = 2 * 1024 * 1024
 
 
 def _origins(address: str, port: int) -> list[str]:
-    """Allowed websocket origins: the served host and port only (both loopback names on loopback).
+    """Allowed websocket origins: the host and port served, nothing else.
+
+    On loopback both loopback names are allowed; on a wildcard address (all interfaces) the machine's own
+    names; otherwise the address given.
 
     Examples
     --------
@@ -29,7 +33,11 @@ def _origins(address: str, port: int) -> list[str]:
     """
     if address in LOOPBACK:
         return [f"127.0.0.1:{port}", f"localhost:{port}"]
-    return [f"{address}:{port}"]
+    if address in ("0.0.0.0", "::", ""):
+        names = dict.fromkeys([socket.gethostname(), socket.getfqdn(), "127.0.0.1", "localhost"])
+        return [f"{name}:{port}" for name in names if name]
+    host = f"[{address}]" if ":" in address else address
+    return [f"{host}:{port}"]
 
 
 def serve(preset: str | None = None, port: int = 5006, address: str = "127.0.0.1", show: bool = True):
@@ -50,6 +58,11 @@ def serve(preset: str | None = None, port: int = 5006, address: str = "127.0.0.1
     ------
     ScenarioError
         When ``preset`` names no built-in preset (checked before the server starts).
+
+    Examples
+    --------
+    >>> serve(preset="common_cause", port=5006, show=False)  # doctest: +SKIP
+    workbench dashboard: http://127.0.0.1:5006/  (Ctrl-C to stop)
     """
     import panel as pn
 
@@ -82,7 +95,9 @@ def main(argv: list[str] | None = None) -> int:
     """``python -m workbench.dashboard.serve [--preset NAME] [--port 5006] [--address 127.0.0.1] [--no-show]``"""
     from ..errors import WorkbenchError
 
-    parser = argparse.ArgumentParser(prog="python -m workbench.dashboard.serve", description=__doc__.split("\n")[0])
+    parser = argparse.ArgumentParser(
+        prog="python -m workbench.dashboard.serve", description=__doc__.split("\n")[0]
+    )
     parser.add_argument("--preset", default=None)
     parser.add_argument("--port", type=int, default=5006)
     parser.add_argument("--address", default="127.0.0.1")

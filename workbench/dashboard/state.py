@@ -209,6 +209,9 @@ class ScenarioState(param.Parameterized):
     def apply_text(self, text: str) -> bool:
         """Use TOML text typed in the editor. On an error the text stays as typed and the error is shown."""
         self.text = text
+        if len(text.encode("utf-8")) > MAX_UPLOAD_BYTES:
+            limit = f"the text is over the limit of {MAX_UPLOAD_BYTES:,} bytes"
+            return self._fail(ScenarioError(limit, where="scenario text"), "toml")
         try:
             with warnings.catch_warnings(record=True) as caught:
                 warnings.simplefilter("always")
@@ -237,7 +240,9 @@ class ScenarioState(param.Parameterized):
             return self._fail(ScenarioError("only .toml scenario files can be opened", where=label), "upload")
         if len(content) > MAX_UPLOAD_BYTES:
             return self._fail(
-                ScenarioError(f"{len(content):,} bytes is over the limit of {MAX_UPLOAD_BYTES:,}", where=label),
+                ScenarioError(
+                    f"{len(content):,} bytes is over the limit of {MAX_UPLOAD_BYTES:,}", where=label
+                ),
                 "upload",
             )
         try:
@@ -279,8 +284,9 @@ class ScenarioState(param.Parameterized):
                 raise ScenarioError(f"no variable '{name}'", where="variables")
             if name in (q["exposure"], q["outcome"]):
                 role = "exposure" if name == q["exposure"] else "outcome"
-                raise ScenarioError(f"'{name}' is the {role}; choose another {role} first",
-                                    where=f"variables.{name}")
+                raise ScenarioError(
+                    f"'{name}' is the {role}; choose another {role} first", where=f"variables.{name}"
+                )
             del data["variables"][name]
             data["arrows"] = [a for a in data["arrows"] if name not in (a["from"], a["to"])]
             return self._prune(data, {name})
@@ -343,9 +349,13 @@ class ScenarioState(param.Parameterized):
             if field not in ("noise_sd", "baseline", "proportion"):
                 raise ScenarioError(f"cannot edit '{field}'", where=f"variables.{name}")
             if field in ("noise_sd", "baseline") and table.get("type") == "binary":
-                raise ScenarioError("a binary variable is set by its proportion", where=f"variables.{name}.{field}")
+                raise ScenarioError(
+                    "a binary variable is set by its proportion", where=f"variables.{name}.{field}"
+                )
             if field == "proportion" and table.get("type") != "binary":
-                raise ScenarioError("only a binary variable has a proportion", where=f"variables.{name}.{field}")
+                raise ScenarioError(
+                    "only a binary variable has a proportion", where=f"variables.{name}.{field}"
+                )
             table[field] = value
             return ""
 
@@ -370,8 +380,9 @@ class ScenarioState(param.Parameterized):
 
         return self._edit("arrows", change)
 
-    def set_arrow(self, index: int, *, source: str | None = None, target: str | None = None,
-                  effect: Any = None) -> bool:
+    def set_arrow(
+        self, index: int, *, source: str | None = None, target: str | None = None, effect: Any = None
+    ) -> bool:
         """Change the arrow at ``index`` (counted from 0): its source, target or effect."""
 
         def change(data):
@@ -401,8 +412,9 @@ class ScenarioState(param.Parameterized):
 
         return self._edit("question", change)
 
-    def set_study(self, **fields: Any) -> bool:
-        """Change study settings: n, replicates, seed, alpha, sample_sizes, target_power, target_halfwidth."""
+    def set_study(self, section: str = "study", **fields: Any) -> bool:
+        """Change study settings: n, replicates, seed, alpha, sample_sizes, target_power, target_halfwidth
+        (``None`` removes the optional target half-width). ``section`` names where the edit came from."""
 
         def change(data):
             for key, value in fields.items():
@@ -411,7 +423,32 @@ class ScenarioState(param.Parameterized):
                 else:
                     data["study"][key] = list(value) if isinstance(value, tuple) else value
 
-        return self._edit("study", change)
+        return self._edit(section, change)
+
+    def set_sample_sizes(self, text: str, section: str = "plan") -> bool:
+        """Set the planned sample sizes from text such as ``"100, 200, 400"``.
+
+        Examples
+        --------
+        >>> state = ScenarioState()
+        >>> state.set_sample_sizes("100, 2OO")
+        False
+        >>> state.error
+        "study.sample_sizes: '2OO' is not a whole number"
+        >>> state.set_sample_sizes("400 100, 200")
+        True
+        >>> state.scenario.study.sample_sizes
+        (100, 200, 400)
+        """
+        words = [w for w in text.replace(",", " ").split() if w]
+        sizes = []
+        for word in words:
+            if not word.isdigit():
+                return self._fail(
+                    ScenarioError(f"'{word}' is not a whole number", where="study.sample_sizes"), section
+                )
+            sizes.append(int(word))
+        return self.set_study(section=section, sample_sizes=sizes)
 
     # --- strategies ------------------------------------------------------------------------------------
     def add_strategy(self, name: str | None = None, adjust=(), model: str = "ols") -> bool:
@@ -442,12 +479,19 @@ class ScenarioState(param.Parameterized):
 
         return self._edit("strategies", change)
 
-    def set_strategy(self, name: str, *, adjust=None, model: str | None = None,
-                     standardize: bool | None = None, new_name: str | None = None) -> bool:
+    def set_strategy(
+        self,
+        name: str,
+        *,
+        adjust=None,
+        model: str | None = None,
+        standardize: bool | None = None,
+        new_name: str | None = None,
+    ) -> bool:
         """Change a strategy's adjustment set, model, standardisation or name."""
 
         def change(data):
-            for i, table in enumerate(data["strategies"], start=1):
+            for table in data["strategies"]:
                 if table["name"] == name:
                     if adjust is not None:
                         table["adjust"] = list(adjust)
@@ -470,8 +514,10 @@ class ScenarioState(param.Parameterized):
     def add_suggested_strategies(self) -> bool:
         """Add every minimal valid adjustment set and the optimal valid set not already present."""
         if self.report is None:
-            return self._fail(ScenarioError(self.report_error or "the graph analysis is not available",
-                                            where="strategies"), "strategies")
+            return self._fail(
+                ScenarioError(self.report_error or "the graph analysis is not available", where="strategies"),
+                "strategies",
+            )
         suggestions = [(f"minimal_{i}", tuple(found)) for i, found in enumerate(self.report.minimal_sets, 1)]
         if self.report.optimal_set is not None:
             suggestions.append(("optimal", tuple(self.report.optimal_set)))
@@ -530,14 +576,16 @@ class ScenarioState(param.Parameterized):
         rows = []
         for s in self.scenario.strategies:
             checked = by_name.get(s.name, {})
-            rows.append({
-                "name": s.name,
-                "adjust": list(s.adjust),
-                "model": s.model,
-                "standardize": s.standardize,
-                "valid": checked.get("valid"),
-                "reasons": list(checked.get("reasons", [])),
-            })
+            rows.append(
+                {
+                    "name": s.name,
+                    "adjust": list(s.adjust),
+                    "model": s.model,
+                    "standardize": s.standardize,
+                    "valid": checked.get("valid"),
+                    "reasons": list(checked.get("reasons", [])),
+                }
+            )
         return rows
 
 
@@ -598,7 +646,7 @@ class BackgroundJob(param.Parameterized):
                 self.result = self._cache[key]
                 self.status = "done"
                 self.progress = 1.0
-                self.message = "from the cache"
+                self.message = f"{self.label}: from the cache"
             return True
         return False
 
@@ -698,8 +746,14 @@ class BackgroundJob(param.Parameterized):
             while len(self._cache) > _CACHE_SIZE:
                 self._cache.popitem(last=False)
             seconds = time.monotonic() - started
-            self._publish(token, result_key=key, result=result, status="done", progress=1.0,
-                          message=f"{self.label}: done in {seconds:.1f} s")
+            self._publish(
+                token,
+                result_key=key,
+                result=result,
+                status="done",
+                progress=1.0,
+                message=f"{self.label}: done in {seconds:.1f} s",
+            )
 
         if background:
             self._thread = threading.Thread(target=work, name=f"workbench-{self.module}", daemon=True)
@@ -749,7 +803,9 @@ class SampleState(param.Parameterized):
     'soil_quality'
     """
 
-    covariate = param.Selector(default=None, objects=[], allow_None=True, doc="Variable that colours the points.")
+    covariate = param.Selector(
+        default=None, objects=[], allow_None=True, doc="Variable that colours the points."
+    )
     data = param.DataFrame(default=None, allow_None=True, doc="The dataset, or None before the first draw.")
     draw_number = param.Integer(default=0, bounds=(0, None), doc="Which dataset: 0 uses the study seed.")
     message = param.String(default="")

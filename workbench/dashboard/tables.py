@@ -25,25 +25,38 @@ from typing import Any
 
 import pandas as pd
 
-__all__ = ["TABLE_CSS", "flags", "performance_table", "signals_table", "strategies_table", "smallest_n_table",
-           "fmt"]
+__all__ = [
+    "fmt_mcse",
+    "effect_digits",
+    "TABLE_CSS",
+    "flags",
+    "performance_table",
+    "signals_table",
+    "strategies_table",
+    "smallest_n_table",
+    "also_smallest_n_table",
+    "fmt",
+]
 
 #: Styles of the tables (no web fonts: the system's sans-serif).
 TABLE_CSS = """
 table.wb { border-collapse: collapse; font-family: system-ui, -apple-system, "Segoe UI", sans-serif;
-  font-size: 13px; margin: 4px 0 8px 0; }
-table.wb th { text-align: right; padding: 4px 8px; border-bottom: 2px solid #333; font-weight: 600;
-  background: #f4f4f4; white-space: normal; vertical-align: bottom; max-width: 120px; }
-table.wb th:first-child, table.wb td:first-child { text-align: left; }
-table.wb td { text-align: right; padding: 4px 8px; border-bottom: 1px solid #ddd; white-space: nowrap;
-  font-variant-numeric: tabular-nums; }
+  font-size: 12.5px; margin: 4px 0 8px 0; }
+table.wb th { text-align: right; padding: 4px 7px; border-bottom: 2px solid #333; font-weight: 600;
+  background: #f4f4f4; white-space: normal; vertical-align: bottom; max-width: 96px; }
+table.wb th:first-child, table.wb td:first-child, table.wb th.text { text-align: left; }
+table.wb td { text-align: right; padding: 3px 7px; vertical-align: top; border-bottom: 1px solid #ddd;
+  white-space: nowrap; font-variant-numeric: tabular-nums; }
 table.wb td.text { text-align: left; white-space: normal; }
 table.wb td.text div { max-width: 460px; min-width: 90px; }
 table.wb td.flag { background: #F0E442; font-weight: 600; }
 table.wb td.invalid { color: #A33C00; font-weight: 600; }
 table.wb td.valid { color: #00603F; font-weight: 600; }
-table.wb span.mcse { color: #666; font-size: 11px; }
+table.wb span.mcse { color: #666; font-size: 11px; font-weight: normal; }
 """
+
+
+_TEXT_HEAD = {h: ' class="text"' for h in ("adjusts for", "estimates", "note", "why", "further effect of")}
 
 
 def fmt(value: Any, digits: int = 3) -> str:
@@ -79,6 +92,37 @@ def _get(row: Any, key: str) -> Any:
     return value
 
 
+def fmt_mcse(value: Any) -> str:
+    """A Monte Carlo SE with two significant digits.
+
+    Examples
+    --------
+    >>> fmt_mcse(0.00412), fmt_mcse(5.5e-05), fmt_mcse(None)
+    ('0.0041', '5.5e-05', '-')
+    """
+    if value is None or value is pd.NA:
+        return "-"
+    number = float(value)
+    return f"{number:.2g}" if math.isfinite(number) else "-"
+
+
+def effect_digits(emp_se: Any) -> int:
+    """Decimals that show an estimate to about a hundredth of its spread (at least 3, at most 6).
+
+    Examples
+    --------
+    >>> effect_digits(3.1), effect_digits(0.02), effect_digits(None)
+    (3, 4, 3)
+    """
+    try:
+        spread = float(emp_se)
+    except (TypeError, ValueError):
+        return 3
+    if not math.isfinite(spread) or spread <= 0:
+        return 3
+    return max(3, min(6, 2 - math.floor(math.log10(spread))))
+
+
 def flags(row: Any, alpha: float) -> dict[str, bool]:
     """Which cells of a performance-table row to flag: ``bias`` when |bias| > 3 MCSE, ``coverage`` when
     outside (1 - alpha) +/- 3 MCSE.
@@ -98,12 +142,24 @@ def flags(row: Any, alpha: float) -> dict[str, bool]:
     return out
 
 
-def _cell(strategy: str, field: str, value: Any, *, mcse: Any = None, digits: int = 3, flagged: bool = False,
-          title: str = "") -> str:
+def _cell(
+    strategy: str,
+    field: str,
+    value: Any,
+    *,
+    mcse: Any = None,
+    digits: int = 3,
+    flagged: bool = False,
+    title: str = "",
+) -> str:
     text = fmt(value, digits)
     if mcse is not None:
-        text += f' <span class="mcse">({fmt(mcse, digits)})</span>'
-    raw = "" if value is None else html.escape(repr(float(value)) if isinstance(value, int | float) else str(value))
+        text += f'<br><span class="mcse">&plusmn; {fmt_mcse(mcse)}</span>'
+    raw = (
+        ""
+        if value is None
+        else html.escape(repr(float(value)) if isinstance(value, int | float) else str(value))
+    )
     attrs = f'data-strategy="{html.escape(strategy)}" data-field="{field}" data-value="{raw}"'
     if flagged:
         attrs += ' class="flag"'
@@ -119,7 +175,7 @@ def _verdict_cell(valid: Any) -> str:
 
 
 def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "performance") -> str:
-    """The performance table: each measure with its Monte Carlo SE in brackets, suspicious cells flagged.
+    """The performance table: each measure with its Monte Carlo SE below it, suspicious cells flagged.
 
     Parameters
     ----------
@@ -128,39 +184,70 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
     alpha : float
         The study's alpha; nominal coverage is 1 - alpha.
     """
-    scored = "truth" in table and "estimand" in table and (
-        table["truth"].nunique(dropna=True) > 1 or table["estimand"].nunique(dropna=True) > 1)
+    scored = (
+        "truth" in table
+        and "estimand" in table
+        and (table["truth"].nunique(dropna=True) > 1 or table["estimand"].nunique(dropna=True) > 1)
+    )
     head = ["strategy", "verdict", "adjusts for"]
     if scored:
         head += ["estimates", "its truth"]
-    head += ["mean estimate", "bias (MCSE)", "relative bias %", "empirical SE (MCSE)", "model SE (MCSE)", "RMSE",
-             f"coverage of {1 - alpha:.0%} CI (MCSE)", "power (MCSE)", "failures"]
+    head += [
+        "mean estimate",
+        "bias",
+        "relative bias %",
+        "empirical SE",
+        "model SE",
+        "RMSE",
+        f"coverage of {1 - alpha:.0%} CI",
+        "power",
+        "failed fits",
+    ]
     rows = []
     notes = []
     for _, r in table.iterrows():
         name = str(r["name"])
         flag = flags(r, alpha)
         adjust = _get(r, "adjust")
-        adjust_text = ", ".join(adjust) if isinstance(adjust, list | tuple) and adjust else (
-            adjust if isinstance(adjust, str) and adjust else "nothing")
+        adjust_text = (
+            ", ".join(adjust)
+            if isinstance(adjust, list | tuple) and adjust
+            else (adjust if isinstance(adjust, str) and adjust else "nothing")
+        )
         cells = [
             f"<td>{html.escape(name)}</td>",
             _verdict_cell(_get(r, "valid")),
             f'<td class="text"><div>{html.escape(str(adjust_text))}</div></td>',
         ]
         if scored:
-            cells += [f'<td class="text"><div>{html.escape(str(_get(r, "estimand") or ""))}</div></td>',
-                      _cell(name, "truth", _get(r, "truth"))]
+            cells += [
+                f'<td class="text"><div>{html.escape(str(_get(r, "estimand") or ""))}</div></td>',
+                _cell(name, "truth", _get(r, "truth"), digits=effect_digits(_get(r, "emp_se"))),
+            ]
+        d = effect_digits(_get(r, "emp_se"))
         cells += [
-            _cell(name, "mean", _get(r, "mean")),
-            _cell(name, "bias", _get(r, "bias"), mcse=_get(r, "bias_mcse"), flagged=flag["bias"],
-                  title="|bias| exceeds 3 Monte Carlo SEs" if flag["bias"] else ""),
+            _cell(name, "mean", _get(r, "mean"), digits=d),
+            _cell(
+                name,
+                "bias",
+                _get(r, "bias"),
+                digits=d,
+                mcse=_get(r, "bias_mcse"),
+                flagged=flag["bias"],
+                title="|bias| exceeds 3 Monte Carlo SEs" if flag["bias"] else "",
+            ),
             _cell(name, "relative_bias", _get(r, "relative_bias"), digits=1),
-            _cell(name, "emp_se", _get(r, "emp_se"), mcse=_get(r, "emp_se_mcse")),
-            _cell(name, "model_se", _get(r, "model_se"), mcse=_get(r, "model_se_mcse")),
-            _cell(name, "rmse", _get(r, "rmse")),
-            _cell(name, "coverage", _get(r, "coverage"), mcse=_get(r, "coverage_mcse"), flagged=flag["coverage"],
-                  title="coverage is outside nominal +/- 3 Monte Carlo SEs" if flag["coverage"] else ""),
+            _cell(name, "emp_se", _get(r, "emp_se"), mcse=_get(r, "emp_se_mcse"), digits=d),
+            _cell(name, "model_se", _get(r, "model_se"), mcse=_get(r, "model_se_mcse"), digits=d),
+            _cell(name, "rmse", _get(r, "rmse"), digits=d),
+            _cell(
+                name,
+                "coverage",
+                _get(r, "coverage"),
+                mcse=_get(r, "coverage_mcse"),
+                flagged=flag["coverage"],
+                title="coverage is outside nominal +/- 3 Monte Carlo SEs" if flag["coverage"] else "",
+            ),
             _cell(name, "power", _get(r, "power"), mcse=_get(r, "power_mcse")),
             _cell(name, "failures", _get(r, "failures"), digits=0),
         ]
@@ -172,18 +259,34 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
         if isinstance(reasons, dict) and reasons:
             text = ", ".join(f"{k}: {v}" for k, v in reasons.items())
             notes.append(f"<li><b>{html.escape(name)}</b> failed fits: {html.escape(text)}</li>")
-    header = "".join(f"<th>{html.escape(h)}</th>" for h in head)
-    out = (f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
-           + "".join(rows) + "</tbody></table>")
+    header = "".join(f"<th{_TEXT_HEAD.get(h, '')}>{html.escape(h)}</th>" for h in head)
+    out = (
+        f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
+        + "".join(rows)
+        + "</tbody></table>"
+    )
     if notes:
         out += f'<ul class="wb-notes" style="font-size:12px;margin:2px 0 6px 0">{"".join(notes)}</ul>'
     return out
 
 
 def signals_table(table: pd.DataFrame, *, table_id: str = "signals") -> str:
-    """Change in estimate against the unadjusted strategy, SE ratio and the exposure's VIF per strategy."""
-    head = ("strategy", "median change in estimate vs unadjusted", "share of replicates with change > 10%",
-            "SE ratio vs unadjusted", "VIF of the exposure")
+    """Change in estimate against the unadjusted strategy, SE ratio and the exposure's VIF per strategy.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> html = signals_table(pd.DataFrame([{"name": "a", "se_ratio": 1.25, "vif": 1.5}]))
+    >>> 'data-field="se_ratio" data-value="1.25"' in html
+    True
+    """
+    head = (
+        "strategy",
+        "median change in estimate vs unadjusted",
+        "share of replicates with change > 10%",
+        "SE ratio vs unadjusted",
+        "VIF of the exposure",
+    )
     rows = []
     for _, r in table.iterrows():
         name = str(r["name"])
@@ -195,13 +298,23 @@ def signals_table(table: pd.DataFrame, *, table_id: str = "signals") -> str:
             _cell(name, "vif", _get(r, "vif"), digits=2),
         ]
         rows.append("<tr>" + "".join(cells) + "</tr>")
-    header = "".join(f"<th>{html.escape(h)}</th>" for h in head)
-    return (f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
-            + "".join(rows) + "</tbody></table>")
+    header = "".join(f"<th{_TEXT_HEAD.get(h, '')}>{html.escape(h)}</th>" for h in head)
+    return (
+        f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
+        + "".join(rows)
+        + "</tbody></table>"
+    )
 
 
 def strategies_table(rows: list[dict], *, table_id: str = "verdicts") -> str:
-    """Strategies with their verdict and reasons (rows from ``CheckReport.strategies``)."""
+    """Strategies with their verdict and reasons (rows from ``CheckReport.strategies``).
+
+    Examples
+    --------
+    >>> html = strategies_table([{"name": "raw", "adjust": [], "valid": False, "reasons": ["a <- c -> y open"]}])
+    >>> '<td class="invalid">invalid</td>' in html, "a &lt;- c -&gt; y open" in html
+    (True, True)
+    """
     out = []
     for r in rows:
         adjust = ", ".join(r.get("adjust") or []) or "nothing"
@@ -213,22 +326,90 @@ def strategies_table(rows: list[dict], *, table_id: str = "verdicts") -> str:
             f'<td class="text"><div>{html.escape(adjust)}</div></td><td>{html.escape(model)}</td>'
             f'<td class="text"><div>{reasons}{"<br><i>" + notes + "</i>" if notes else ""}</div></td></tr>'
         )
-    header = "".join(f"<th>{h}</th>" for h in ("strategy", "verdict", "adjusts for", "model", "why"))
-    return (f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
-            + "".join(out) + "</tbody></table>")
+    header = "".join(
+        f"<th{_TEXT_HEAD.get(h, '')}>{h}</th>" for h in ("strategy", "verdict", "adjusts for", "model", "why")
+    )
+    return (
+        f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
+        + "".join(out)
+        + "</tbody></table>"
+    )
 
 
 def smallest_n_table(smallest: pd.DataFrame, *, table_id: str = "smallest-n") -> str:
-    """The smallest n per strategy for the target power (and half-width), with notes."""
+    """The smallest n per strategy for the target power (and half-width), with notes.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> row = {"strategy": "a", "n_for_power": 131, "n_for_halfwidth": None, "valid": True, "note": ""}
+    >>> 'data-field="n_for_power" data-value="131.0"' in smallest_n_table(pd.DataFrame([row]))
+    True
+    """
     out = []
     for _, r in smallest.iterrows():
         name = str(r["strategy"])
-        cells = [f"<td>{html.escape(name)}</td>", _verdict_cell(_get(r, "valid")),
-                 _cell(name, "n_for_power", _get(r, "n_for_power"), digits=0),
-                 _cell(name, "n_for_halfwidth", _get(r, "n_for_halfwidth"), digits=0),
-                 f'<td class="text"><div>{html.escape(str(_get(r, "note") or ""))}</div></td>']
+        cells = [
+            f"<td>{html.escape(name)}</td>",
+            _verdict_cell(_get(r, "valid")),
+            _cell(name, "n_for_power", _get(r, "n_for_power"), digits=0),
+            _cell(name, "n_for_halfwidth", _get(r, "n_for_halfwidth"), digits=0),
+            f'<td class="text"><div>{html.escape(str(_get(r, "note") or ""))}</div></td>',
+        ]
         out.append("<tr>" + "".join(cells) + "</tr>")
-    header = "".join(f"<th>{h}</th>" for h in ("strategy", "verdict", "smallest n for target power",
-                                                  "smallest n for target half-width", "note"))
-    return (f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
-            + "".join(out) + "</tbody></table>")
+    header = "".join(
+        f"<th>{h}</th>"
+        for h in (
+            "strategy",
+            "verdict",
+            "smallest n for target power",
+            "smallest n for target half-width",
+            "note",
+        )
+    )
+    return (
+        f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
+        + "".join(out)
+        + "</tbody></table>"
+    )
+
+
+def also_smallest_n_table(smallest: pd.DataFrame, *, table_id: str = "also-smallest-n") -> str:
+    """The smallest n reaching the target power for each further effect of ``question.also``.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> row = {"strategy": "a", "variable": "b", "n_for_power": 290, "valid": True, "note": "",
+    ...        "analytic_n_for_power": 285}
+    >>> "<td>b</td>" in also_smallest_n_table(pd.DataFrame([row]))
+    True
+    """
+    out = []
+    for _, r in smallest.iterrows():
+        name = str(r["strategy"])
+        cells = [
+            f"<td>{html.escape(name)}</td>",
+            f"<td>{html.escape(str(r['variable']))}</td>",
+            _verdict_cell(_get(r, "valid")),
+            _cell(name, "n_for_power", _get(r, "n_for_power"), digits=0),
+            _cell(name, "analytic_n_for_power", _get(r, "analytic_n_for_power"), digits=0),
+            f'<td class="text"><div>{html.escape(str(_get(r, "note") or ""))}</div></td>',
+        ]
+        out.append("<tr>" + "".join(cells) + "</tr>")
+    header = "".join(
+        f"<th>{h}</th>"
+        for h in (
+            "strategy",
+            "further effect of",
+            "verdict",
+            "smallest n for target power",
+            "analytic approximation",
+            "note",
+        )
+    )
+    return (
+        f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
+        + "".join(out)
+        + "</tbody></table>"
+    )
