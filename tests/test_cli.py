@@ -176,3 +176,42 @@ def test_installed_command_from_another_directory(tmp_path):
     )
     assert done.returncode == 0, done.stderr
     assert json.loads(done.stdout)["exposure"] == "fertiliser"
+
+
+def test_run_writes_json_csv_and_html(scenario_file, tmp_path, capsys):
+    """run --json/--csv/--html write their files; JSON to stdout is JSON only."""
+    path = scenario_file(GOOD)
+    out_json, out_csv, out_html = tmp_path / "r.json", tmp_path / "r.csv", tmp_path / "r.html"
+    code = main(
+        [
+            "run",
+            path,
+            "--replicates",
+            "100",
+            "--json",
+            str(out_json),
+            "--csv",
+            str(out_csv),
+            "--html",
+            str(out_html),
+        ]
+    )
+    assert code == 0
+    assert json.loads(out_json.read_text())["replicates"] == 100
+    assert out_csv.read_text().splitlines()[0].startswith("name")
+    assert "<html" in out_html.read_text().lower()
+    capsys.readouterr()
+    assert main(["run", path, "--replicates", "100", "--json", "-"]) == 0
+    assert json.loads(capsys.readouterr().out)["n"] == 100
+
+
+def test_run_rejects_bad_settings_in_one_line(scenario_file, capsys):
+    path = scenario_file(GOOD)
+    for args, expected in (
+        (["--engine", "fast"], "engine"),
+        (["--replicates", "0"], "replicates"),
+        (["--n", "3"], "n"),
+    ):
+        assert main(["run", path, *args]) == 2
+        err = capsys.readouterr().err.strip()
+        assert "\n" not in err and expected in err

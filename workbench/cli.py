@@ -45,15 +45,21 @@ def _emit_json(text: str, target: str) -> None:
     print(f"wrote {target}", file=sys.stderr)
 
 
-def _deliver(result, args) -> int:
-    """Write a result as JSON and CSV where asked, and the readable table unless JSON goes to stdout."""
+def _deliver(output, args, **report_parts) -> int:
+    """Write a result as JSON, CSV and a standalone HTML report where asked, and the readable table unless
+    JSON goes to stdout."""
+    if args.html:
+        from .report_html import write_report
+
+        write_report(args.html, **report_parts)
+        print(f"wrote {args.html}", file=sys.stderr)
     if args.json:
-        _emit_json(result.to_json(), args.json)
+        _emit_json(output.to_json(), args.json)
     if args.csv:
-        result.to_csv(args.csv)
+        output.to_csv(args.csv)
         print(f"wrote {args.csv}", file=sys.stderr)
     if args.json != "-":
-        print(result.to_text())
+        print(output.to_text())
     return EXIT_OK
 
 
@@ -97,7 +103,7 @@ def _cmd_run(args) -> int:
         )
     finally:
         bar.close()
-    return _deliver(result, args)
+    return _deliver(result, args, scenario=scenario, result=result)
 
 
 def _sizes(text: str) -> list[int]:
@@ -130,7 +136,7 @@ def _cmd_plan(args) -> int:
         )
     finally:
         bar.close()
-    return _deliver(result, args)
+    return _deliver(result, args, scenario=scenario, plan=result)
 
 
 def _cmd_serve(args) -> int:
@@ -189,6 +195,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--engine", default="auto", help="auto (default), exact or raw")
     p.add_argument("--json", metavar="OUT", help="write JSON to OUT ('-' for stdout)")
     p.add_argument("--csv", metavar="OUT", help="write the per-strategy table as CSV")
+    p.add_argument("--html", metavar="OUT", help="write a standalone HTML report (opens with no server)")
     p.set_defaults(func=_cmd_run)
 
     p = sub.add_parser("plan", help="power and precision against sample size; the smallest n per strategy")
@@ -200,6 +207,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--seed", type=int, help="random seed")
     p.add_argument("--json", metavar="OUT", help="write JSON to OUT ('-' for stdout)")
     p.add_argument("--csv", metavar="OUT", help="write the long table as CSV")
+    p.add_argument("--html", metavar="OUT", help="write a standalone HTML report (opens with no server)")
     p.set_defaults(func=_cmd_plan)
 
     p = sub.add_parser("serve", help="start the dashboard in the browser")

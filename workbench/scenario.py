@@ -784,6 +784,13 @@ def write_text_atomically(path: str | os.PathLike, text: str) -> None:
     directory = path.parent if str(path.parent) else Path(".")
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=directory)
     try:
+        try:  # keep an existing file's permissions; a new file gets the usual ones (0666 less the umask)
+            mode = path.stat().st_mode & 0o777
+        except FileNotFoundError:
+            umask = os.umask(0)
+            os.umask(umask)
+            mode = 0o666 & ~umask
+        os.chmod(tmp, mode)
         with os.fdopen(fd, "w", encoding="utf-8") as handle:
             handle.write(text)
             handle.flush()
