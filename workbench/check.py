@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 from . import adjustment, linear
@@ -113,13 +114,18 @@ class CheckReport:
                 lines.append(f"            - {reason}")
             for note in s["notes"]:
                 lines.append(f"            * {note}")
+            lines.append(f"            estimates: {s['estimand']}")
+            if s["estimand_note"]:
+                lines.append(f"            ! {s['estimand_note']}")
             open_text = "; ".join(p.text for p in s["open_paths"]) or "none"
             lines.append(f"            open paths: {open_text}")
             if s["large_sample_estimate"] is not None:
+                vif = f", VIF {s['vif']:.3g}" if s["vif"] is not None else ""
+                mcse = f" (MCSE {s['large_sample_mcse']:.2g})" if s.get("large_sample_mcse") else ""
                 lines.append(
                     f"            large sample: estimate {s['large_sample_estimate']:.4g}, bias "
-                    f"{s['large_sample_bias']:+.4g}, SE x sqrt(n) {s['large_sample_se_factor']:.4g}, "
-                    f"VIF {s['vif']:.3g}"
+                    f"{s['large_sample_bias']:+.4g}{mcse}, SE x sqrt(n) {s['large_sample_se_factor']:.4g}"
+                    f"{vif}  [{s['large_sample_method']}]"
                 )
         lines += ["", "Minimal valid adjustment sets (observed variables)"]
         if self.minimal_sets:
@@ -180,6 +186,35 @@ def large_sample_rows(scenario: Scenario) -> dict[str, dict[str, float]]:
     return out
 
 
+LARGE_SAMPLE_N = 200_000
+LARGE_SAMPLE_SEED = 20261202
+
+
+@lru_cache(maxsize=64)
+def _simulated_large_sample(scenario: Scenario) -> dict[str, dict[str, Any]]:
+    """Per strategy, the fit on one simulated data set of :data:`LARGE_SAMPLE_N` units (graphs with binary
+    variables, which have no closed form): estimate, its SE (the Monte Carlo error of this large-sample
+    figure), SE x sqrt(n), and the truth on the strategy's own scale."""
+    from .estimate import estimate
+    from .generate import draw
+    from .truth import estimand, model_kind, true_effect
+
+    data = draw(scenario, LARGE_SAMPLE_N, seed=LARGE_SAMPLE_SEED)
+    fits = estimate(scenario, data).set_index("strategy")
+    binary = scenario.outcome.is_binary
+    out = {}
+    for s in scenario.strategies:
+        _, scale, _ = estimand(model_kind(s, binary), scenario, s.adjust)
+        row = fits.loc[s.name]
+        out[s.name] = {
+            "estimate": float(row["estimate"]),
+            "mcse": float(row["se"]),
+            "se_factor": float(row["se"]) * LARGE_SAMPLE_N**0.5,
+            "truth": float(true_effect(scenario, scale).value),
+        }
+    return out
+
+
 def _truth(scenario: Scenario) -> tuple[float | None, str, float | None]:
     q = scenario.question
     direct = next((a.effect for a in scenario.arrows if (a.source, a.target) == (q.exposure, q.outcome)), 0.0)
@@ -228,11 +263,26 @@ def check(scenario: Scenario) -> CheckReport:
     paths = adjustment.list_paths(scenario)
     truth, method, direct = _truth(scenario)
     large = large_sample_rows(scenario)
+    simulated = {} if large or truth is None else _simulated_large_sample(scenario)
     rows = []
+    from .truth import estimand, model_kind
+
     for s in scenario.strategies:
         verdict = adjustment.judge(scenario, s.adjust)
+        words, _, estimand_note = estimand(model_kind(s, scenario.outcome.is_binary), scenario, s.adjust)
         ls = large.get(s.name)
         estimate = ls["estimate"] if ls else None
+        strategy_truth = truth
+        extra: dict[str, Any] = {"large_sample_method": "closed form" if ls else None}
+        if s.name in simulated:
+            sim = simulated[s.name]
+            estimate, strategy_truth = sim["estimate"], sim["truth"]
+            ls = {"se_factor": sim["se_factor"], "vif": None}
+            extra = {
+                "large_sample_method": f"one simulated data set of {LARGE_SAMPLE_N:,} units",
+                "large_sample_mcse": sim["mcse"],
+                "strategy_truth": strategy_truth,
+            }
         rows.append(
             {
                 "name": s.name,
@@ -245,9 +295,12 @@ def check(scenario: Scenario) -> CheckReport:
                 "open_paths": verdict.open_paths,
                 "blocked_paths": verdict.blocked_paths,
                 "large_sample_estimate": estimate,
-                "large_sample_bias": _bias(estimate, truth),
+                "large_sample_bias": _bias(estimate, strategy_truth),
                 "large_sample_se_factor": ls["se_factor"] if ls else None,
                 "vif": ls["vif"] if ls else None,
+                "estimand": words,
+                "estimand_note": estimand_note,
+                **extra,
             }
         )
     optimal, latent, note = adjustment.optimal_set(scenario)
