@@ -215,3 +215,24 @@ def test_run_rejects_bad_settings_in_one_line(scenario_file, capsys):
         assert main(["run", path, *args]) == 2
         err = capsys.readouterr().err.strip()
         assert "\n" not in err and expected in err
+
+
+@pytest.mark.skipif(shutil.which("workbench") is None, reason="the package is not installed")
+def test_ctrl_c_ends_a_long_run_cleanly():
+    """Ctrl-C (SIGINT) ends a run with a one-line message and exit code 130, no traceback."""
+    import signal
+    import time
+
+    process = subprocess.Popen(
+        ["workbench", "run", "--preset", "binary_outcome", "--replicates", "500000"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL),
+    )
+    time.sleep(4)
+    process.send_signal(signal.SIGINT)
+    out, err = process.communicate(timeout=120)
+    assert process.returncode == 130
+    assert "cancelled" in err and "Traceback" not in err
+    assert out == ""
