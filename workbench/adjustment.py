@@ -52,6 +52,8 @@ __all__ = [
     "is_path_open",
     "forbidden_set",
     "judge",
+    "judge_strategy",
+    "SELECTION_REASON",
     "minimal_sets",
     "optimal_set",
     "default_strategies",
@@ -480,6 +482,69 @@ def judge(
     elif not reasons:
         reasons.append("leaves a non-causal path open through the adjusted variables' descendants")
     return Verdict(valid, reasons, _precision_notes(scenario, adjust), open_paths, blocked_paths)
+
+
+SELECTION_REASON = (
+    "the set is chosen from the data in each study: valid only in the studies whose chosen set is valid "
+    "(see selected_valid_share)"
+)
+
+
+def judge_strategy(scenario: Scenario, strategy: Strategy) -> Verdict:
+    """The verdict on a whole strategy: its adjustment set, any restriction and any selection rule.
+
+    * Restricted variables are conditioned on: they join the adjustment set for d-separation. Restricting a
+      continuous variable to a band only approximately conditions on it, which the reasons say.
+    * With a selection rule the set is chosen from the data in each study; the verdict is that of the full
+      candidate set, with a reason saying so (the simulation reports the share of studies whose chosen set
+      is valid).
+
+    Parameters
+    ----------
+    scenario : Scenario
+    strategy : Strategy
+
+    Returns
+    -------
+    Verdict
+
+    References
+    ----------
+    Pearl J. (2009). Causality, 2nd ed., Def. 3.3.1 (conditioning by restriction blocks paths as adjustment
+    does).
+    Mickey R.M., Greenland S. (1989). American Journal of Epidemiology 129(1):125-137.
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> sc = load_preset("common_cause")
+    >>> v = judge_strategy(sc, Strategy("band", (), restrict=(("soil_quality", (-0.5, 0.5)),)))
+    >>> v.valid, v.reasons[-1][:43]
+    (False, 'restricting to a band of soil_quality only ')
+    """
+    adjust = tuple(strategy.adjust)
+    exact = adjust + tuple(n for n, v in strategy.restrict if not isinstance(v, tuple) and n not in adjust)
+    bands = [n for n, v in strategy.restrict if isinstance(v, tuple) and n not in exact]
+    verdict = judge(scenario, exact + tuple(bands))
+    valid = verdict.valid
+    reasons = list(verdict.reasons)
+    if bands and valid and not judge(scenario, exact).valid:
+        valid = False
+        reasons = [r for r in reasons if not r.startswith("blocks every non-causal path")]
+        for name in bands:
+            reasons.append(
+                f"restricting to a band of {name} only approximately conditions on it: the confounding "
+                f"through {name} that the band was meant to remove partly remains within the band"
+            )
+    else:
+        for name in bands:
+            reasons.append(f"restricting to a band of {name} only approximately conditions on it")
+    for name, value in strategy.restrict:
+        if not isinstance(value, tuple):
+            reasons.append(f"restricting to {name} = {value} conditions on {name} by design")
+    if strategy.selection is not None:
+        reasons.append(SELECTION_REASON)
+    return Verdict(valid, reasons, verdict.notes, verdict.open_paths, verdict.blocked_paths)
 
 
 def _open_reason(G: nx.DiGraph, path: PathInfo, zset: set[str]) -> str:

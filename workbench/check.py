@@ -15,7 +15,7 @@ from typing import Any
 from . import adjustment, linear
 from .scenario import Scenario
 
-__all__ = ["CheckReport", "check", "large_sample_rows"]
+__all__ = ["CheckReport", "check", "large_sample_rows", "large_sample_selection"]
 
 
 @dataclass
@@ -109,7 +109,17 @@ class CheckReport:
         for s in self.strategies:
             verdict = "VALID  " if s["valid"] else "INVALID"
             adjust = ", ".join(s["adjust"]) or "nothing"
-            lines.append(f"  {verdict} {s['name']} (model {s['model']}; adjusts for {adjust})")
+            if s.get("selection"):
+                how = f"chooses by {s['selection'].replace('_', ' ')} among {adjust}"
+            else:
+                how = f"adjusts for {adjust}"
+            for name, value in s.get("restrict", {}).items():
+                how += (
+                    f"; restricted to {name} in [{value[0]:g}, {value[1]:g}]"
+                    if isinstance(value, list)
+                    else f"; restricted to {name} = {value}"
+                )
+            lines.append(f"  {verdict} {s['name']} (model {s['model']}; {how})")
             for reason in s["reasons"]:
                 lines.append(f"            - {reason}")
             for note in s["notes"]:
@@ -122,6 +132,9 @@ class CheckReport:
             if s["large_sample_estimate"] is not None:
                 vif = f", VIF {s['vif']:.3g}" if s["vif"] is not None else ""
                 mcse = f" (MCSE {s['large_sample_mcse']:.2g})" if s.get("large_sample_mcse") else ""
+                if s.get("large_sample_selected") is not None:
+                    chosen = ", ".join(s["large_sample_selected"]) or "nothing"
+                    lines.append(f"            large sample: the rule keeps {chosen}")
                 lines.append(
                     f"            large sample: estimate {s['large_sample_estimate']:.4g}, bias "
                     f"{s['large_sample_bias']:+.4g}{mcse}, SE x sqrt(n) {s['large_sample_se_factor']:.4g}"
@@ -176,14 +189,57 @@ def large_sample_rows(scenario: Scenario) -> dict[str, dict[str, float]]:
     q = scenario.question
     out = {}
     for s in scenario.strategies:
-        fit = linear.population_regression(sigma, scenario.names, q.outcome, [q.exposure, *s.adjust])
+        if s.restrict:  # a restricted (truncated) sample has no closed form here
+            continue
+        adjust = large_sample_selection(scenario, s, sigma) if s.selection else tuple(s.adjust)
+        fit = linear.population_regression(sigma, scenario.names, q.outcome, [q.exposure, *adjust])
         out[s.name] = {
             "estimate": fit.coefficients[q.exposure],
             "se_factor": fit.se_factor,
             "vif": fit.vif,
-            "also": {a: fit.coefficients[a] for a in q.also if a in s.adjust},
+            "also": {a: fit.coefficients[a] for a in q.also if a in adjust},
+            "selected": adjust if s.selection else None,
         }
     return out
+
+
+def large_sample_selection(scenario: Scenario, strategy, sigma=None) -> tuple[str, ...]:
+    """The set a selection rule converges to as n grows, on a linear-Gaussian graph.
+
+    ``"p_value"`` keeps, in the limit, every candidate whose population coefficient in the full model is not
+    zero (its p-value tends to 0); ``"change_in_estimate"`` keeps every candidate whose removal changes the
+    population coefficient of the exposure by more than 10% of it.
+
+    References
+    ----------
+    Mickey R.M., Greenland S. (1989). American Journal of Epidemiology 129(1):125-137.
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> from workbench.scenario import Strategy
+    >>> sc = load_preset("common_cause")
+    >>> large_sample_selection(sc, Strategy("s", ("soil_quality",), selection="p_value"))
+    ('soil_quality',)
+    """
+    from .ols import CHANGE_THRESHOLD
+
+    sigma = linear.implied_covariance(scenario) if sigma is None else sigma
+    q = scenario.question
+    candidates = list(strategy.adjust)
+    full = linear.population_regression(sigma, scenario.names, q.outcome, [q.exposure, *candidates])
+    if strategy.selection == "p_value":
+        scale = max(1e-300, max(abs(v) for v in full.coefficients.values()))
+        return tuple(c for c in candidates if abs(full.coefficients[c]) > 1e-10 * scale)
+    b = full.coefficients[q.exposure]
+    kept = []
+    for c in candidates:
+        others = [o for o in candidates if o != c]
+        without = linear.population_regression(sigma, scenario.names, q.outcome, [q.exposure, *others])
+        change = abs(b - without.coefficients[q.exposure])
+        if change > CHANGE_THRESHOLD * abs(b) and change > 1e-12:
+            kept.append(c)
+    return tuple(kept)
 
 
 LARGE_SAMPLE_N = 200_000
@@ -268,7 +324,7 @@ def check(scenario: Scenario) -> CheckReport:
     from .truth import estimand, model_kind
 
     for s in scenario.strategies:
-        verdict = adjustment.judge(scenario, s.adjust)
+        verdict = adjustment.judge_strategy(scenario, s)
         words, _, estimand_note = estimand(model_kind(s, scenario.outcome.is_binary), scenario, s.adjust)
         ls = large.get(s.name)
         estimate = ls["estimate"] if ls else None
@@ -289,6 +345,11 @@ def check(scenario: Scenario) -> CheckReport:
                 "adjust": list(s.adjust),
                 "model": s.model,
                 "standardize": s.standardize,
+                "selection": s.selection,
+                "restrict": {name: list(v) if isinstance(v, tuple) else v for name, v in s.restrict},
+                "large_sample_selected": (
+                    list(ls["selected"]) if ls and ls.get("selected") is not None else None
+                ),
                 "valid": verdict.valid,
                 "reasons": verdict.reasons,
                 "notes": verdict.notes,

@@ -35,7 +35,7 @@ import numpy as np
 import pandas as pd
 
 from .errors import ScenarioError
-from .ols import ols_fit, t_inference
+from .ols import crossproducts, ols_fit, select_covariates, selected_names, t_inference
 from .scenario import Scenario
 from .truth import estimand, model_kind
 
@@ -53,6 +53,7 @@ COLUMNS = [
     "df",
     "n",
     "failure",
+    "adjusted_for",
 ]
 
 
@@ -97,8 +98,15 @@ def estimate(scenario: Scenario, data: pd.DataFrame, alpha: float | None = None)
     -------
     pandas.DataFrame
         One row per strategy: ``strategy, model, estimand, estimate, se, ci_low, ci_high, p_value, df, n,
-        failure`` (``df`` is ``inf`` for normal intervals; ``failure`` is None or why the fit failed, in which
-        case the numbers are NaN).
+        failure, adjusted_for`` (``df`` is ``inf`` for normal intervals; ``n`` the rows used, fewer than the
+        data's under a restriction; ``failure`` is None or why the fit failed, in which case the numbers are
+        NaN; ``adjusted_for`` the covariates in the final model, for a selection rule the ones it kept).
+
+    Notes
+    -----
+    A strategy with ``selection`` applies its rule to these data exactly as the simulation does in each
+    study (:func:`workbench.ols.select_covariates`) and reports the final model's naive SE and interval.
+    A strategy with ``restrict`` keeps only the rows inside the restriction.
 
     Raises
     ------
@@ -125,20 +133,29 @@ def estimate(scenario: Scenario, data: pd.DataFrame, alpha: float | None = None)
     alpha = scenario.study.alpha if alpha is None else alpha
     q = scenario.question
     binary_outcome = scenario.outcome.is_binary
-    needed = [q.exposure, q.outcome] + sorted({v for s in scenario.strategies for v in s.adjust})
+    needed = [q.exposure, q.outcome] + sorted(
+        {v for s in scenario.strategies for v in (*s.adjust, *s.restricted)}
+    )
     columns = {name: _column(data, name, scenario.variable(name).is_binary) for name in needed}
-    n = len(data)
     rows = []
     for s in scenario.strategies:
         kind = model_kind(s, binary_outcome)
         target = estimand(kind, scenario, s.adjust)[0]
-        names = [q.exposure, *s.adjust]
-        X = np.column_stack([columns[v] for v in names])
-        y = columns[q.outcome]
-        p = len(names) + 1
+        keep = _restriction_rows(columns, s.restrict, len(data))
+        used = {v: values[keep] for v, values in columns.items()} if s.restrict else columns
+        n = int(keep.sum())
         failure = None
+        adjusted_for = tuple(s.adjust)
+        if s.selection is not None:
+            adjusted_for, failure = _select(used, q.exposure, q.outcome, s, alpha)
+        names = [q.exposure, *adjusted_for]
+        X = np.column_stack([used[v] for v in names])
+        y = used[q.outcome]
+        p = len(names) + 1
         df = float("inf")
-        if n < p + 1:
+        if failure is not None:
+            est = se = np.nan
+        elif n < p + 1:
             failure = f"too few rows: n = {n} for {p} coefficients"
             est = se = np.nan
         elif kind == "ols":
@@ -183,6 +200,36 @@ def estimate(scenario: Scenario, data: pd.DataFrame, alpha: float | None = None)
                 df,
                 n,
                 failure,
+                list(adjusted_for),
             ]
         )
     return pd.DataFrame(rows, columns=COLUMNS)
+
+
+def _restriction_rows(columns: dict, restrict, n: int) -> np.ndarray:
+    """The rows inside every restriction of a strategy (all rows when it has none)."""
+    keep = np.ones(n, dtype=bool)
+    for name, value in restrict:
+        if isinstance(value, tuple):
+            keep &= (columns[name] >= value[0]) & (columns[name] <= value[1])
+        else:
+            keep &= columns[name] == value
+    return keep
+
+
+def _select(columns: dict, exposure: str, outcome: str, strategy, alpha: float):
+    """Apply a strategy's selection rule to one dataset: (kept covariates, failure or None). The rule is the
+    simulation's own (:func:`workbench.ols.select_covariates` on this dataset's cross-products)."""
+    candidates = list(strategy.adjust)
+    names = [exposure, outcome, *candidates]
+    n = len(columns[outcome])
+    if n < len(names) + 1:
+        return (), f"too few rows: n = {n} for the full model's {len(names)} coefficients"
+    S = crossproducts(np.stack([columns[v] for v in names])[None])
+    pattern, full = select_covariates(
+        S, n, 1, 0, list(range(2, len(names))), strategy.selection, alpha, names
+    )
+    if pattern[0] < 0:
+        why = next(iter(full.reasons), "failed")
+        return (), f"full model: {why}"
+    return selected_names(int(pattern[0]), candidates), None

@@ -31,14 +31,24 @@ from scipy import special
 __all__ = [
     "PIVOT_TOLERANCE",
     "BatchFit",
+    "CHANGE_THRESHOLD",
+    "SELECTION_RULES",
     "crossproducts",
+    "masked_crossproducts",
     "fit_crossproducts",
+    "select_covariates",
+    "fit_selected",
+    "selected_names",
     "OlsFit",
     "ols_fit",
     "t_inference",
 ]
 
 PIVOT_TOLERANCE = 1e-10
+SELECTION_RULES = ("p_value", "change_in_estimate")
+CHANGE_THRESHOLD = 0.10
+"""The change-in-estimate rule keeps a candidate whose removal moves the exposure's coefficient by more than
+this share of the full-model coefficient (Mickey & Greenland 1989)."""
 
 
 @dataclass
@@ -49,8 +59,9 @@ class BatchFit:
     ----------
     coef, se : ndarray of shape (R, m)
         Coefficients and classical SEs of the regressors (the exposure first); NaN where the fit failed.
-    df : int
-        Residual degrees of freedom ``n - p`` (``p = m + 1`` with the intercept).
+    df : int or ndarray of shape (R,)
+        Residual degrees of freedom ``n - p`` (``p = m + 1`` with the intercept); per replicate when ``n``
+        varies (restricted analyses).
     failed : ndarray of bool, shape (R,)
     reasons : collections.Counter
         Count of each failure reason.
@@ -58,15 +69,19 @@ class BatchFit:
         The exposure's variance inflation factor ``1 / (1 - R^2)`` of the exposure on the other regressors.
     residual_variance : ndarray of shape (R,)
         ``RSS / df``.
+    selected : ndarray of int, shape (R,), or None
+        For a fit whose covariates were selected from the data (:func:`fit_selected`): the bit pattern of
+        the kept candidates (bit ``j`` set when candidate ``j`` was kept), -1 where the full model failed.
     """
 
     coef: np.ndarray
     se: np.ndarray
-    df: int
+    df: int | np.ndarray
     failed: np.ndarray
     reasons: Counter = field(default_factory=Counter)
     vif: np.ndarray | None = None
     residual_variance: np.ndarray | None = None
+    selected: np.ndarray | None = None
 
 
 def crossproducts(data: np.ndarray) -> np.ndarray:
@@ -112,8 +127,8 @@ def fit_crossproducts(
     ----------
     S : ndarray of shape (R, k, k)
         Centred cross-product matrices (see :func:`crossproducts`).
-    n : int
-        Rows per replicate.
+    n : int or ndarray of shape (R,)
+        Rows per replicate (an array when it varies, as after restriction).
     outcome : int
         Index of the outcome in ``S``.
     regressors : sequence of int
@@ -185,10 +200,15 @@ def fit_crossproducts(
             A[:, j, :] = row
             A[:, :, j] = row
             A[:, j, j] = -1.0 / pivot
-        df = n - q
+        if np.ndim(n):
+            df = np.asarray(n) - q
+            mark(~(df > 0), f"too few rows for {q} coefficients")
+            sigma2 = np.clip(A[:, m, m], 0.0, None) * diag[:, m] / np.where(df > 0, df, np.nan)
+        else:
+            df = n - q
+            rss = np.clip(A[:, m, m], 0.0, None) * diag[:, m]
+            sigma2 = rss / df if df > 0 else np.full(R, np.nan)
         coef = A[:, :m, m] * d[:, m : m + 1] / d[:, :m]
-        rss = np.clip(A[:, m, m], 0.0, None) * diag[:, m]
-        sigma2 = rss / df if df > 0 else np.full(R, np.nan)
         inverse_diag = -np.diagonal(A, axis1=1, axis2=2)[:, :m]
         se = np.sqrt(sigma2[:, None] * inverse_diag / (d[:, :m] ** 2))
         vif = inverse_diag[:, 0].copy()
@@ -197,6 +217,200 @@ def fit_crossproducts(
     vif[failed] = np.nan
     sigma2 = np.where(failed, np.nan, sigma2)
     return BatchFit(coef, se, df, failed, reasons, vif, sigma2)
+
+
+def masked_crossproducts(data: np.ndarray, mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Centred cross-products of the rows kept by ``mask``, per replicate, by one batched matrix product.
+
+    Parameters
+    ----------
+    data : ndarray of shape (R, k, n)
+    mask : ndarray of bool, shape (R, n)
+        The rows each replicate keeps.
+
+    Returns
+    -------
+    S : ndarray of shape (R, k, k)
+        ``X^T diag(mask) X - s s^T / n_kept`` with ``s`` the sums over kept rows (zeros where no row is kept).
+    kept : ndarray of int, shape (R,)
+        Rows kept per replicate.
+
+    Examples
+    --------
+    >>> x = np.array([[[1.0, 2.0, 3.0, 9.0], [1.0, 0.0, 2.0, 9.0]]])
+    >>> S, kept = masked_crossproducts(x, np.array([[True, True, True, False]]))
+    >>> S[0], kept
+    (array([[2., 1.],
+           [1., 2.]]), array([3]))
+    """
+    weights = mask.astype(data.dtype)
+    kept = mask.sum(axis=-1)
+    masked = data * weights[:, None, :]
+    sums = masked.sum(axis=-1)
+    M = np.matmul(masked, data.transpose(0, 2, 1))
+    M -= sums[:, :, None] * (sums[:, None, :] / np.maximum(kept, 1)[:, None, None])
+    return M, kept
+
+
+def select_covariates(
+    S: np.ndarray,
+    n,
+    outcome: int,
+    exposure: int,
+    candidates,
+    rule: str,
+    alpha: float,
+    names=None,
+) -> tuple[np.ndarray, BatchFit]:
+    """Apply a data-driven covariate-selection rule in every replicate, from centred cross-products.
+
+    Parameters
+    ----------
+    S : ndarray of shape (R, k, k)
+    n : int or ndarray of shape (R,)
+    outcome, exposure : int
+        Indices in ``S``.
+    candidates : sequence of int
+        Indices of the candidate covariates (at most 30).
+    rule : {"p_value", "change_in_estimate"}
+        ``"p_value"``: fit the full model (exposure and every candidate) and keep the candidates whose own
+        coefficient has a two-sided t-test p-value below ``alpha`` (one-step backward elimination).
+        ``"change_in_estimate"``: keep each candidate whose removal from the full model changes the
+        exposure's coefficient by more than :data:`CHANGE_THRESHOLD` of it,
+        ``|b_full - b_without| / |b_full| > 0.10``.
+    alpha : float
+    names : sequence of str, optional
+
+    Returns
+    -------
+    pattern : ndarray of int, shape (R,)
+        Bit ``j`` set when candidate ``j`` is kept; -1 where the full model failed.
+    full : BatchFit
+        The full model's fit.
+
+    References
+    ----------
+    Mickey R.M., Greenland S. (1989). The impact of confounder selection criteria on effect estimation.
+    American Journal of Epidemiology 129(1):125-137.
+
+    Examples
+    --------
+    >>> rng = np.random.default_rng(3)
+    >>> c, w = rng.standard_normal((2, 1, 1, 500))
+    >>> x = c + rng.standard_normal((1, 1, 500))
+    >>> y = 0.5 * x + c + 0.0 * w + rng.standard_normal((1, 1, 500))
+    >>> S = crossproducts(np.concatenate([x, y, c, w], axis=1))
+    >>> pattern, _ = select_covariates(S, 500, 1, 0, [2, 3], "change_in_estimate", 0.05)
+    >>> int(pattern[0])  # keeps c (bit 0), drops w
+    1
+    """
+    candidates = list(candidates)
+    if rule not in SELECTION_RULES:
+        raise ValueError(f"rule: must be one of {SELECTION_RULES}, got {rule!r}")
+    k = len(candidates)
+    full = fit_crossproducts(S, n, outcome, [exposure, *candidates], names)
+    if rule == "p_value":
+        df = np.asarray(full.df, dtype=float)
+        _, _, p = t_inference(full.coef[:, 1:], full.se[:, 1:], df[:, None] if df.ndim else df, alpha)
+        keep = p < alpha
+    else:
+        b_full = full.coef[:, 0]
+        keep = np.zeros((S.shape[0], k), dtype=bool)
+        for j in range(k):
+            others = [c for i, c in enumerate(candidates) if i != j]
+            without = fit_crossproducts(S, n, outcome, [exposure, *others], names)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                change = np.abs(b_full - without.coef[:, 0]) / np.abs(b_full)
+            keep[:, j] = change > CHANGE_THRESHOLD
+    pattern = (keep.astype(np.int64) << np.arange(k, dtype=np.int64)).sum(axis=1)
+    pattern[full.failed] = -1
+    return pattern, full
+
+
+def selected_names(pattern: int, candidates) -> tuple:
+    """The candidates kept by a selection bit pattern (see :func:`select_covariates`), in candidate order.
+
+    Examples
+    --------
+    >>> selected_names(5, ["a", "b", "c"])
+    ('a', 'c')
+    """
+    return tuple(c for j, c in enumerate(candidates) if pattern >= 0 and (pattern >> j) & 1)
+
+
+def fit_selected(
+    S: np.ndarray,
+    n,
+    outcome: int,
+    exposure: int,
+    candidates,
+    rule: str,
+    alpha: float,
+    names=None,
+) -> BatchFit:
+    """Select covariates in every replicate (:func:`select_covariates`), then refit with the kept ones.
+
+    Replicates are grouped by their selected subset (at most ``2**k`` patterns) and each group is fitted in
+    one batched call: the loop runs over patterns, never over replicates. The SEs, intervals and degrees of
+    freedom are the naive ones of the final model, as an analyst who selected the covariates would report
+    them.
+
+    Returns
+    -------
+    BatchFit
+        ``coef`` and ``se`` of shape (R, 1 + k): the exposure, then every candidate in candidate order (NaN
+        where it was dropped); ``df`` per replicate; ``selected`` the bit patterns. A failed full model fails
+        the replicate (reason prefixed ``"full model: "``).
+
+    References
+    ----------
+    Mickey R.M., Greenland S. (1989). American Journal of Epidemiology 129(1):125-137.
+
+    Examples
+    --------
+    >>> rng = np.random.default_rng(3)
+    >>> c, w = rng.standard_normal((2, 1, 1, 500))
+    >>> x = c + rng.standard_normal((1, 1, 500))
+    >>> y = 0.5 * x + c + rng.standard_normal((1, 1, 500))
+    >>> S = crossproducts(np.concatenate([x, y, c, w], axis=1))
+    >>> fit = fit_selected(S, 500, 1, 0, [2, 3], "p_value", 0.05)
+    >>> int(fit.selected[0]), bool(np.isnan(fit.coef[0, 2])), float(fit.df[0])
+    (1, True, 497.0)
+    """
+    candidates = list(candidates)
+    k = len(candidates)
+    R = S.shape[0]
+    pattern, full = select_covariates(S, n, outcome, exposure, candidates, rule, alpha, names)
+    coef = np.full((R, 1 + k), np.nan)
+    se = np.full((R, 1 + k), np.nan)
+    vif = np.full(R, np.nan)
+    sigma2 = np.full(R, np.nan)
+    df = np.full(R, np.nan)
+    failed = full.failed.copy()
+    reasons: Counter = Counter({f"full model: {why}": count for why, count in full.reasons.items()})
+    varying = np.ndim(n) > 0
+    for code in np.unique(pattern[pattern >= 0]):
+        rows = np.flatnonzero(pattern == code)
+        kept = [j for j in range(k) if (code >> j) & 1]
+        fit = fit_crossproducts(
+            S[rows],
+            np.asarray(n)[rows] if varying else n,
+            outcome,
+            [exposure] + [candidates[j] for j in kept],
+            names,
+        )
+        columns = [0] + [1 + j for j in kept]
+        coef[np.ix_(rows, columns)] = fit.coef
+        se[np.ix_(rows, columns)] = fit.se
+        vif[rows] = fit.vif
+        sigma2[rows] = fit.residual_variance
+        df[rows] = fit.df
+        failed[rows] |= fit.failed
+        reasons.update(fit.reasons)
+    coef[failed] = np.nan
+    se[failed] = np.nan
+    vif[failed] = np.nan
+    return BatchFit(coef, se, df, failed, reasons, vif, sigma2, pattern)
 
 
 def t_inference(estimate, se, df, alpha: float):

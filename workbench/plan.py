@@ -50,7 +50,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .adjustment import judge
+from .adjustment import judge, judge_strategy
 from .errors import SimulationError
 from .power import analytic_covariance, find_smallest_n, large_sample
 from .scenario import Scenario, write_text_atomically
@@ -519,11 +519,14 @@ class _Planner:
         self.strategy_truth = np.full(len(self.names), self.truth)
         self.estimand = [""] * len(self.names)
 
-        self.verdicts = [judge(scenario, s.adjust) for s in self.strategies]
+        self.verdicts = [judge_strategy(scenario, s) for s in self.strategies]
         self.valid = np.array([v.valid for v in self.verdicts], dtype=bool)
         sigma = analytic_covariance(scenario)
         self.analytic = [
-            large_sample(scenario, s.adjust, sigma=sigma) if sigma is not None else None
+            # no closed form for a set chosen from the data or a restricted sample
+            large_sample(scenario, s.adjust, sigma=sigma)
+            if sigma is not None and s.selection is None and not s.restrict
+            else None
             for s in self.strategies
         ]
 
@@ -544,7 +547,7 @@ class _Planner:
                     self.also_verdicts[i, a] = judge(scenario, regressors, target="direct", exposure=v)
                     self.also_analytic[i, a] = (
                         large_sample(scenario, regressors, variable=v, sigma=sigma)
-                        if sigma is not None
+                        if sigma is not None and s.selection is None and not s.restrict
                         else None
                     )
 

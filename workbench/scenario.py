@@ -69,6 +69,8 @@ __all__ = [
     "scenario_to_dict",
     "MAX_VARIABLES",
     "MAX_ARROWS",
+    "SELECTIONS",
+    "MAX_SELECTION_CANDIDATES",
 ]
 
 MAX_VARIABLES = 40
@@ -79,6 +81,8 @@ VARIABLE_TYPES = ("continuous", "binary")
 TARGETS = ("total", "direct")
 SCALES = ("difference", "log_odds_ratio")
 MODELS = ("ols", "logit")
+SELECTIONS = ("p_value", "change_in_estimate")
+MAX_SELECTION_CANDIDATES = 10
 
 
 @dataclass(frozen=True)
@@ -145,17 +149,31 @@ class Strategy:
     model : {"ols", "logit"}
     standardize : bool
         ``logit`` only: report the marginal contrast by standardisation over the sample.
+    selection : {None, "p_value", "change_in_estimate"}
+        None: ``adjust`` is the fixed set. Otherwise ``adjust`` lists the *candidate* covariates and the rule
+        picks a subset from the data in each study (``docs/scenario-format.md``).
+    restrict : tuple of (str, value)
+        Design-stage restriction: the analysis keeps only the units whose variable takes ``value``, an int 0 or
+        1 for a binary variable, a ``(low, high)`` pair (closed interval) for a continuous one.
     """
 
     name: str
     adjust: tuple[str, ...] = ()
     model: str = "ols"
     standardize: bool = False
+    selection: str | None = None
+    restrict: tuple[tuple[str, int | tuple[float, float]], ...] = ()
 
     @property
     def n_coefficients(self) -> int:
-        """Fitted coefficients: intercept, exposure and each adjusted variable."""
+        """Fitted coefficients: intercept, exposure and each adjusted variable (each candidate when the set
+        is selected from the data: the full model is fitted first)."""
         return 2 + len(self.adjust)
+
+    @property
+    def restricted(self) -> tuple[str, ...]:
+        """Names of the variables the analysis restricts on."""
+        return tuple(name for name, _ in self.restrict)
 
 
 @dataclass(frozen=True)
@@ -275,7 +293,7 @@ _TOP_KEYS = ("title", "summary", "question", "variables", "arrows", "strategies"
 _QUESTION_KEYS = ("exposure", "outcome", "target", "scale", "also")
 _VARIABLE_KEYS = ("type", "noise_sd", "baseline", "proportion", "observed", "label", "position")
 _ARROW_KEYS = ("from", "to", "effect")
-_STRATEGY_KEYS = ("name", "adjust", "model", "standardize")
+_STRATEGY_KEYS = ("name", "adjust", "model", "standardize", "selection", "restrict")
 _STUDY_KEYS = ("n", "replicates", "seed", "alpha", "sample_sizes", "target_power", "target_halfwidth")
 
 
@@ -609,7 +627,30 @@ def scenario_from_dict(data: dict, *, fill_default_strategies: bool = True) -> S
             raise ScenarioError(
                 'standardize = true applies to model = "logit" only', where=f"{where}.standardize"
             )
-        strategies.append(Strategy(name, tuple(adjust), model, standardize))
+        selection = _get(table, "selection", "str", where, None)
+        if selection is not None:
+            _choice(selection, SELECTIONS, f"{where}.selection")
+            if model != "ols" or outcome_binary:
+                raise ScenarioError(
+                    'selection applies to model = "ols" with a continuous outcome only',
+                    where=f"{where}.selection",
+                )
+            if not adjust:
+                raise ScenarioError(
+                    "a selection rule needs candidate covariates in 'adjust'", where=f"{where}.selection"
+                )
+            if len(adjust) > MAX_SELECTION_CANDIDATES:
+                raise ScenarioError(
+                    f"at most {MAX_SELECTION_CANDIDATES} candidate covariates with a selection rule, "
+                    f"got {len(adjust)}",
+                    where=f"{where}.adjust",
+                )
+        restrict = _parse_restrict(table, where, by_name, exposure, outcome, adjust)
+        if restrict and (model != "ols" or outcome_binary):
+            raise ScenarioError(
+                'restrict applies to model = "ols" with a continuous outcome only', where=f"{where}.restrict"
+            )
+        strategies.append(Strategy(name, tuple(adjust), model, standardize, selection, restrict))
     if strategy_list is not None and not strategies:
         raise ScenarioError("lists no strategy; remove the key to get the default set", where="strategies")
 
@@ -629,6 +670,49 @@ def scenario_from_dict(data: dict, *, fill_default_strategies: bool = True) -> S
         scenario = dataclasses.replace(scenario, strategies=tuple(default_strategies(scenario)))
     _check_sizes(scenario)
     return scenario
+
+
+def _parse_restrict(table: dict, where: str, by_name: dict, exposure: str, outcome: str, adjust) -> tuple:
+    """``restrict = { var = 0 }`` (binary: keep units with that value) or ``{ var = [low, high] }``
+    (continuous: keep units inside the closed interval)."""
+    spec = _get(table, "restrict", "table", where, {})
+    out = []
+    for name, value in spec.items():
+        place = f"{where}.restrict.{name}"
+        _known(name, list(by_name), place)
+        if name in (exposure, outcome):
+            role = "exposure" if name == exposure else "outcome"
+            raise ScenarioError(f"'{name}' is the {role} and cannot be restricted on", where=place)
+        if not by_name[name].observed:
+            raise ScenarioError(
+                f"'{name}' is latent (observed = false) and cannot be restricted on", where=place
+            )
+        if by_name[name].is_binary:
+            if name in adjust:
+                raise ScenarioError(
+                    f"'{name}' is also in 'adjust': after restriction it is constant; drop it from 'adjust'",
+                    where=place,
+                )
+            if isinstance(value, bool) or not isinstance(value, int) or value not in (0, 1):
+                raise ScenarioError(
+                    f"'{name}' is binary: give the value to keep, 0 or 1, got {value!r}", where=place
+                )
+            out.append((name, int(value)))
+            continue
+        if (
+            not isinstance(value, list)
+            or len(value) != 2
+            or not all(isinstance(v, int | float) and not isinstance(v, bool) for v in value)
+        ):
+            raise ScenarioError(
+                f"'{name}' is continuous: give the interval to keep as [low, high], got {value!r}",
+                where=place,
+            )
+        low, high = float(value[0]), float(value[1])
+        if not (math.isfinite(low) and math.isfinite(high)) or not low < high:
+            raise ScenarioError(f"the interval must have finite low < high, got {value!r}", where=place)
+        out.append((name, (low, high)))
+    return tuple(out)
 
 
 def _check_sizes(scenario: Scenario) -> None:
@@ -755,6 +839,12 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
             table = {"name": s.name, "adjust": list(s.adjust), "model": s.model}
             if s.standardize:
                 table["standardize"] = True
+            if s.selection is not None:
+                table["selection"] = s.selection
+            if s.restrict:
+                table["restrict"] = {
+                    name: list(value) if isinstance(value, tuple) else value for name, value in s.restrict
+                }
             strategies.append(table)
         out["strategies"] = strategies
     st = scenario.study

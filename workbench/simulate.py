@@ -14,7 +14,13 @@ Two engines give the same distribution of results:
     its sub-blocks. Logistic strategies and the linear probability model (OLS on a binary outcome, with
     HC3 SEs) are fitted from the rows, batched (:mod:`workbench.logistic`).
 
-``engine="auto"`` picks ``exact`` when it applies. Replicates are processed in chunks sized so that working
+A strategy may choose its covariates from the data (``selection``): in each replicate the rule is applied to
+the cross-products (:func:`workbench.ols.fit_selected`), replicates are grouped by the subset they chose and
+each group is refitted in one batched call, in both engines. A strategy may restrict the sample
+(``restrict``): the raw engine forms masked cross-products of the retained rows (:func:`workbench.ols.
+masked_crossproducts`), so the retained ``n`` and the degrees of freedom vary by replicate.
+
+``engine="auto"`` picks ``exact`` when it applies (never with a restriction). Replicates are processed in chunks sized so that working
 memory stays near :data:`MEMORY_BUDGET`. Random streams come from ``SeedSequence(seed)``: replicate block
 ``b`` (of :data:`BLOCK` replicates) uses child ``b``, never one per chunk, and each replicate's draws are one
 contiguous run of its block's stream, so a seed gives identical numbers whatever the chunk size.
@@ -60,7 +66,15 @@ from .errors import SimulationError
 from .generate import PIECE, block_seed, draw_noise, evaluate, noise_pieces, structure
 from .linear import implied_covariance
 from .metrics import performance
-from .ols import crossproducts, fit_crossproducts, t_inference
+from .ols import (
+    BatchFit,
+    crossproducts,
+    fit_crossproducts,
+    fit_selected,
+    masked_crossproducts,
+    selected_names,
+    t_inference,
+)
 from .scenario import Scenario, write_text_atomically
 from .truth import KIND_WORDS, Truth, conditional_log_odds_ratio, estimand, model_kind, true_effect
 from .wishart import bartlett_draws, bartlett_matrices, square_root
@@ -120,6 +134,11 @@ TABLE_COLUMNS = [
     "vif",
     "df",
     "note",
+    "selection",
+    "restrict",
+    "selected_valid_share",
+    "selected_sets",
+    "mean_retained_n",
 ]
 
 
@@ -138,6 +157,13 @@ class _Fit:
     estimand: str
     scale: str  # the truth's scale: "difference" or "log_odds_ratio"
     note: str
+    selection: str | None = None  # a data-driven rule choosing among ``adjust`` in each replicate
+    restrict: tuple = ()  # ((variable index, value or (low, high)), ...)
+
+    @property
+    def fixed(self) -> bool:
+        """A plain fit: fixed set, whole sample (usable as the unadjusted reference)."""
+        return self.selection is None and not self.restrict
 
 
 @dataclass(frozen=True, eq=False)
@@ -158,7 +184,11 @@ class _Plan:
 
     @property
     def needs_rows(self) -> bool:
-        return any(f.kind != "ols" for f in self.fits)
+        return any(f.kind != "ols" or f.restrict for f in self.fits)
+
+    @property
+    def restricts(self) -> bool:
+        return any(f.restrict for f in self.fits)
 
 
 @functools.lru_cache(maxsize=256)
@@ -166,6 +196,21 @@ def _validity(scenario: Scenario, adjust: tuple[str, ...]) -> bool:
     from .adjustment import judge
 
     return bool(judge(scenario, adjust).valid)
+
+
+@functools.lru_cache(maxsize=256)
+def _strategy_validity(scenario: Scenario, strategy) -> bool:
+    from .adjustment import judge_strategy
+
+    return bool(judge_strategy(scenario, strategy).valid)
+
+
+def _format_sets(sets: list[tuple[tuple[str, ...], float]]) -> str:
+    """``"{a, b} 62%; {a} 30%"``."""
+    return "; ".join(
+        "{" + ", ".join(chosen) + "} " + (f"{100 * share:.0f}%" if share >= 0.005 else "<1%")
+        for chosen, share in sets
+    )
 
 
 @functools.lru_cache(maxsize=64)
@@ -178,18 +223,32 @@ def _plan(scenario: Scenario) -> _Plan:
     hidden: list[_Fit] = []
     kinds = [model_kind(s, binary_outcome) for s in scenario.strategies]
 
-    def make(name, adjust, kind, reported, reference=-1):
+    def make(name, adjust, kind, reported, reference=-1, selection=None, restrict=()):
         regressors = (x,) + tuple(names.index(a) for a in adjust)
         also = tuple((1 + adjust.index(v)) if v in adjust else -1 for v in q.also)
         words, scale, note = estimand(kind, scenario, tuple(adjust))
-        return _Fit(name, tuple(adjust), kind, regressors, also, reference, reported, words, scale, note)
+        restrict = tuple((names.index(v), value) for v, value in restrict)
+        return _Fit(
+            name,
+            tuple(adjust),
+            kind,
+            regressors,
+            also,
+            reference,
+            reported,
+            words,
+            scale,
+            note,
+            selection,
+            restrict,
+        )
 
     for s, kind in zip(scenario.strategies, kinds, strict=True):
-        fits.append(make(s.name, s.adjust, kind, True))
-    # the unadjusted reference of each fit: a reported strategy with no adjustment and the same model
+        fits.append(make(s.name, s.adjust, kind, True, selection=s.selection, restrict=s.restrict))
+    # the unadjusted reference of each fit: a reported plain strategy with no adjustment and the same model
     resolved = []
     for f in fits:
-        ref = next((j for j, g in enumerate(fits) if g.kind == f.kind and not g.adjust), None)
+        ref = next((j for j, g in enumerate(fits) if g.kind == f.kind and not g.adjust and g.fixed), None)
         if ref is None:
             ref = next((len(fits) + j for j, g in enumerate(hidden) if g.kind == f.kind), None)
         if ref is None:
@@ -249,6 +308,13 @@ def choose_engine(scenario: Scenario, n: int, engine: str = "auto") -> str:
     if engine == "raw":
         return "raw"
     plan = _plan(scenario)
+    if plan.restricts:
+        if engine == "exact":
+            restricted = [f.name for f in plan.fits if f.restrict]
+            raise SimulationError(
+                f"engine: 'exact' cannot restrict the sample (strategy '{restricted[0]}'); use 'raw' or 'auto'"
+            )
+        return "raw"
     if not scenario.is_linear_gaussian:
         if engine == "exact":
             binary = [v.name for v in scenario.variables if v.is_binary]
@@ -332,6 +398,16 @@ class ReplicateArrays:
     seed : int
         The entropy of the root seed sequence (the given seed, or the fresh one drawn for ``seed=None``).
     alpha : float
+    selected : ndarray of int, shape (R, S)
+        For a strategy with a selection rule, the bit pattern of the candidates kept in each replicate (bit
+        ``j`` for ``candidates[s][j]``, see :func:`workbench.ols.selected_names`); -1 for fixed strategies
+        and where the full model failed.
+    candidates : list of tuple of str
+        Each strategy's ``adjust`` (the candidates of a selection rule).
+    selection : list of str or None
+        Each strategy's selection rule.
+    retained_n : ndarray of shape (R, S)
+        Units kept by a restricted strategy in each replicate; NaN for unrestricted ones.
     """
 
     strategies: list[str]
@@ -361,6 +437,25 @@ class ReplicateArrays:
     replicates: int
     seed: int
     alpha: float
+    selected: np.ndarray | None = None
+    candidates: list | None = None
+    selection: list | None = None
+    retained_n: np.ndarray | None = None
+
+    def selected_sets(self, s: int) -> list[tuple[tuple[str, ...], float]]:
+        """The sets strategy ``s`` selected, most frequent first, each with its share of the replicates
+        whose full model could be fitted; empty for a fixed strategy."""
+        if self.selected is None or not self.selection or self.selection[s] is None:
+            return []
+        codes = self.selected[:, s]
+        codes = codes[codes >= 0]
+        if not codes.size:
+            return []
+        values, counts = np.unique(codes, return_counts=True)
+        order = np.lexsort((values, -counts))
+        return [
+            (selected_names(int(values[i]), self.candidates[s]), float(counts[i] / codes.size)) for i in order
+        ]
 
     def score(self) -> dict[str, np.ndarray]:
         """Performance of each strategy's exposure estimate against its truth
@@ -441,6 +536,8 @@ def _raw_bytes_per_replicate(n: int, k: int, plan: _Plan) -> int:
     if plan.needs_rows:
         widest = max(len(f.regressors) for f in plan.fits) + 1
         per += 8 * n * (widest + 10)
+    if plan.restricts:  # the masked copy of the rows behind the restricted cross-products
+        per += 8 * n * (k + 1)
     return per
 
 
@@ -466,7 +563,52 @@ def _piecewise(n: int, k: int, plan: _Plan) -> bool:
     return n > PIECE and not plan.needs_rows and _raw_bytes_per_replicate(n, k, plan) > MEMORY_BUDGET
 
 
-def _fit_chunk(plan: _Plan, S: np.ndarray, data: np.ndarray | None, n: int, index: list[int], names):
+def _restriction_mask(data: np.ndarray, restrict: tuple) -> np.ndarray:
+    """The rows (R, n) inside every restriction: value equal for a binary variable, inside the closed
+    interval for a continuous one."""
+    mask = np.ones((data.shape[0], data.shape[2]), dtype=bool)
+    for v, value in restrict:
+        column = data[:, v, :]
+        if isinstance(value, tuple):
+            mask &= (column >= value[0]) & (column <= value[1])
+        else:
+            mask &= column == value
+    return mask
+
+
+def _fit_restricted(f: _Fit, S: np.ndarray, kept: np.ndarray, y: int, regs: list[int], names, alpha: float):
+    """OLS (or a selection rule) on each replicate's units inside the restriction; replicates with fewer
+    than ``p + 2`` such units fail with a counted reason."""
+    R = S.shape[0]
+    need = len(regs) + 2
+    ok = kept >= need
+    coef = np.full((R, len(regs)), np.nan)
+    se = coef.copy()
+    vif = np.full(R, np.nan)
+    sigma2 = np.full(R, np.nan)
+    df = np.full(R, np.nan)
+    selected = np.full(R, -1, dtype=np.int64)
+    failed = ~ok
+    reasons: Counter = Counter()
+    if (~ok).any():
+        reasons[f"too few units inside the restriction (fewer than {need})"] = int((~ok).sum())
+    rows = np.flatnonzero(ok)
+    if rows.size:
+        if f.selection is not None:
+            part = fit_selected(S[rows], kept[rows], y, regs[0], regs[1:], f.selection, alpha, names)
+            selected[rows] = part.selected
+        else:
+            part = fit_crossproducts(S[rows], kept[rows], y, regs, names)
+        coef[rows], se[rows], vif[rows], sigma2[rows] = part.coef, part.se, part.vif, part.residual_variance
+        df[rows] = part.df
+        failed[rows] = part.failed
+        reasons.update(part.reasons)
+    return BatchFit(coef, se, df, failed, reasons, vif, sigma2, selected if f.selection is not None else None)
+
+
+def _fit_chunk(
+    plan: _Plan, S: np.ndarray, data: np.ndarray | None, n: int, index: list[int], names, alpha: float = 0.05
+):
     """Fit every planned fit on one chunk. ``index`` maps file-order variable indices to rows of S."""
     from .logistic import design_matrix, fit_logit_batch, standardized_contrast
     from .robust import ols_hc3_batch
@@ -474,10 +616,25 @@ def _fit_chunk(plan: _Plan, S: np.ndarray, data: np.ndarray | None, n: int, inde
     out = []
     y = index[plan.outcome]
     logit_fits = {}
+    restricted = {}  # restriction -> (masked cross-products, rows kept)
+    R = S.shape[0]
     for f in plan.fits:
         regs = [index[i] for i in f.regressors]
-        batch = fit_crossproducts(S, n, y, regs, names)
+        if f.restrict:
+            if f.restrict not in restricted:
+                restricted[f.restrict] = masked_crossproducts(data, _restriction_mask(data, f.restrict))
+            fit_S, kept = restricted[f.restrict]
+            batch = _fit_restricted(f, fit_S, kept, y, regs, names, alpha)
+        elif f.selection is not None:
+            kept = None
+            batch = fit_selected(S, n, y, regs[0], regs[1:], f.selection, alpha, names)
+        else:
+            kept = None
+            batch = fit_crossproducts(S, n, y, regs, names)
         reasons = Counter(batch.reasons)
+        df_rep = np.broadcast_to(np.asarray(batch.df, dtype=float), (R,)).copy()
+        selected = batch.selected if batch.selected is not None else np.full(R, -1, dtype=np.int64)
+        kept_n = kept.astype(float) if kept is not None else np.full(R, np.nan)
         if f.kind == "ols":
             coef, se, failed = batch.coef, batch.se, batch.failed
         elif f.kind == "lpm":
@@ -527,7 +684,7 @@ def _fit_chunk(plan: _Plan, S: np.ndarray, data: np.ndarray | None, n: int, inde
                 also_est[:, a] = np.where(failed, np.nan, coef[:, pos])
                 also_se[:, a] = np.where(failed, np.nan, se[:, pos])
         vif = np.where(failed, np.nan, batch.vif)
-        out.append((est, est_se, also_est, also_se, vif, failed, reasons))
+        out.append((est, est_se, also_est, also_se, vif, failed, reasons, df_rep, selected, kept_n))
     return out
 
 
@@ -595,6 +752,9 @@ def run_replicates(
     also_est = np.full((replicates, F, A), np.nan)
     also_se = np.full((replicates, F, A), np.nan)
     reasons = [Counter() for _ in range(F)]
+    dfs = np.full((replicates, F), np.nan)
+    selected = np.full((replicates, F), -1, dtype=np.int64)
+    retained = np.full((replicates, F), np.nan)
 
     chunk = _chunk_size(engine, n, k, plan, replicates, chunk_size, progress is not None)
     stream = _Stream(root)
@@ -633,9 +793,12 @@ def run_replicates(
             stream.noise(data)
             evaluate(st, data, axis=1, out=data)
             S = crossproducts(data)
-        results = _fit_chunk(plan, S, data, n, index_list, used_names)
+        results = _fit_chunk(plan, S, data, n, index_list, used_names, alpha)
         rows = slice(done, done + r)
-        for j, (e, s, ae, ase, v, fl, why) in enumerate(results):
+        for j, (e, s, ae, ase, v, fl, why, d, chosen, kept) in enumerate(results):
+            dfs[rows, j] = d
+            selected[rows, j] = chosen
+            retained[rows, j] = kept
             est[rows, j] = e
             se[rows, j] = s
             also_est[rows, j] = ae
@@ -647,14 +810,24 @@ def run_replicates(
         if progress is not None:
             progress(done, replicates)
 
-    df = np.array([n - len(f.regressors) - 1 if f.kind == "ols" else np.inf for f in plan.fits], dtype=float)
+    # one df per strategy for the table: n - p for a fixed OLS fit, the mean over fitted replicates for a
+    # selection rule or a restriction (their df vary by replicate), inf (normal intervals) otherwise
+    df = np.full(F, np.inf)
+    for j, f in enumerate(plan.fits):
+        if f.kind != "ols":
+            dfs[:, j] = np.inf
+        elif f.fixed:
+            df[j] = n - len(f.regressors) - 1
+        else:
+            fitted = ~failed[:, j]
+            df[j] = float(np.mean(dfs[fitted, j])) if fitted.any() else np.nan
     # reported fits come first, hidden references after: basic slices keep views, not copies
     S = len(plan.reported)
     shown = slice(0, S)
     fits = plan.fits[:S]
     refs = [f.reference for f in fits]
-    ci_low, ci_high, p_value = t_inference(est[:, shown], se[:, shown], df[None, shown], alpha)
-    a_low, a_high, a_p = t_inference(also_est[:, shown], also_se[:, shown], df[None, shown, None], alpha)
+    ci_low, ci_high, p_value = t_inference(est[:, shown], se[:, shown], dfs[:, shown], alpha)
+    a_low, a_high, a_p = t_inference(also_est[:, shown], also_se[:, shown], dfs[:, shown, None], alpha)
     truths = [plan.truths[f.scale] for f in fits]
     return ReplicateArrays(
         strategies=[f.name for f in fits],
@@ -684,6 +857,10 @@ def run_replicates(
         replicates=replicates,
         seed=int(root.entropy) if isinstance(root.entropy, int) else root.entropy,
         alpha=float(alpha),
+        selected=selected[:, shown],
+        candidates=[f.adjust for f in fits],
+        selection=[f.selection for f in fits],
+        retained_n=retained[:, shown],
     )
 
 
@@ -894,6 +1071,12 @@ class SimulationResult:
         table["failure_reasons"] = [
             "; ".join(f"{k}: {v}" for k, v in d.items()) for d in table["failure_reasons"]
         ]
+        table["selected_sets"] = [
+            _format_sets([(tuple(x["adjust"]), x["share"]) for x in sets]) for sets in table["selected_sets"]
+        ]
+        table["restrict"] = [
+            "; ".join(f"{k} = {v}" for k, v in d.items()) if d else "" for d in table["restrict"]
+        ]
         write_text_atomically(path, table.to_csv(index=False))
 
     def to_text(self) -> str:
@@ -959,6 +1142,24 @@ class SimulationResult:
         for row in body:
             lines.append("  ".join(str(x).ljust(w) for x, w in zip(row, widths, strict=True)))
         notes = [f"{r['name']}: {r['note']}" for _, r in self.table.iterrows() if r["note"]]
+        for _, r in self.table.iterrows():
+            if isinstance(r["selection"], str):
+                sets = _format_sets([(tuple(x["adjust"]), x["share"]) for x in r["selected_sets"]])
+                valid_share = r["selected_valid_share"]
+                share = f"{100 * valid_share:.0f}%" if np.isfinite(valid_share) else "-"
+                notes.append(
+                    f"{r['name']}: covariates chosen by {r['selection'].replace('_', ' ')} among "
+                    f"{', '.join(r['adjust'])}; chosen set valid in {share} of studies; most chosen: {sets}"
+                )
+            if r["restrict"]:
+                where = ", ".join(
+                    f"{k} in [{v[0]:g}, {v[1]:g}]" if isinstance(v, list) else f"{k} = {v}"
+                    for k, v in r["restrict"].items()
+                )
+                notes.append(
+                    f"{r['name']}: analysis restricted to {where}; mean units kept "
+                    f"{r['mean_retained_n']:.1f} of {self.n}"
+                )
         for _, r in self.table.iterrows():
             if r["failure_reasons"]:
                 text = "; ".join(f"{k} ({v})" for k, v in r["failure_reasons"].items())
@@ -1037,7 +1238,17 @@ def simulate(
       reference being the unadjusted fit of the same model in the same replicate;
     * ``share_change_over_10pct``: share of replicates where that change exceeds 10% in absolute value;
     * ``se_ratio``: model SE over the reference's model SE;
-    * ``vif``: median over replicates of the exposure's variance inflation factor.
+    * ``vif``: median over replicates of the exposure's variance inflation factor;
+    * ``selection``, ``restrict``: the strategy's rule (or None) and restriction (a dict, empty if none);
+    * ``selected_valid_share``: for a selection rule, the share of replicates (whose full model could be
+      fitted) where the chosen set is a valid adjustment set (restricted variables counting as conditioned
+      on); NaN for a fixed set;
+    * ``selected_sets``: for a selection rule, the three most frequent chosen sets as
+      ``[{"adjust": [...], "share": float}, ...]``; empty for a fixed set;
+    * ``mean_retained_n``: for a restricted strategy, the mean number of units inside the restriction; NaN
+      otherwise;
+    * ``df``: ``n - p``, or for a selection rule or a restriction the mean over fitted replicates of their own
+      degrees of freedom.
 
     References
     ----------
@@ -1075,12 +1286,33 @@ def simulate(
     rows = []
     for s, f in enumerate(reported):
         strategy = scenario.strategy(f.name)
+        sets = arrays.selected_sets(s)
+        valid_share = float("nan")
+        if strategy.selection is not None:
+            # validity once per selected pattern (restricted variables count as conditioned on)
+            codes, counts = np.unique(arrays.selected[:, s], return_counts=True)
+            fitted = codes >= 0
+            if fitted.any():
+                restricted = strategy.restricted
+                valid = np.array(
+                    [
+                        _validity(scenario, selected_names(int(c), f.adjust) + restricted)
+                        for c in codes[fitted]
+                    ]
+                )
+                valid_share = float((counts[fitted] * valid).sum() / counts[fitted].sum())
+        retained = arrays.retained_n[:, s]
         row = {
             "name": f.name,
             "adjust": list(f.adjust),
             "model": strategy.model,
             "standardize": strategy.standardize,
-            "valid": _validity(scenario, f.adjust),
+            "selection": strategy.selection,
+            "restrict": {name: list(v) if isinstance(v, tuple) else v for name, v in strategy.restrict},
+            "selected_valid_share": valid_share,
+            "selected_sets": [{"adjust": list(chosen), "share": share} for chosen, share in sets[:3]],
+            "mean_retained_n": float(np.mean(retained)) if strategy.restrict else float("nan"),
+            "valid": _strategy_validity(scenario, strategy),
             "estimand": f.estimand,
             "target": scenario.question.target,
             "truth": float(arrays.truth[s]),

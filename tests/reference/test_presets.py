@@ -298,6 +298,36 @@ def lesson_larger_graph(sc):
     return "adjust_confounders"
 
 
+def lesson_selection_by_significance(sc):
+    """Omitted-variable bias (Wooldridge sec. 3.3): dropping the confounder C gives b + c cov(X, C) / var(X),
+    a material bias; the fixed set {C} and the full candidate set are unbiased in large samples. Both rules
+    keep C as n grows (its population coefficient and its change in estimate are not zero; Mickey & Greenland
+    1989, from memory), so the cost of selection shown by the simulation is a small-sample one: at the study's
+    n the t statistic of C in the full model is modest (common practice, no source). A strategy with a
+    selection rule is judged here by its full candidate set."""
+    from workbench.check import large_sample_selection
+
+    e = _effects(sc)
+    a, c, b = e["complexity", "review_hours"], e["complexity", "defects"], e["review_hours", "defects"]
+    var_c = _sd(sc, "complexity") ** 2
+    var_x = a**2 * var_c + _sd(sc, "review_hours") ** 2
+    assert _estimate(sc, "unadjusted")[0] == pytest.approx(b + c * a * var_c / var_x, rel=1e-10)
+    assert abs(c * a * var_c / var_x) >= MATERIAL * abs(b)
+    for name in ("adjust_complexity", "select_by_p_value", "select_by_change"):
+        assert _estimate(sc, name)[0] == pytest.approx(b, rel=1e-10), name
+    for name in ("select_by_p_value", "select_by_change"):
+        assert sc.strategy(name).selection is not None
+        assert "complexity" in large_sample_selection(sc, sc.strategy(name))
+    # C's coefficient in the full model: c with SE factor sqrt(var(e_Y) / var(C | X, W)); its expected t
+    # statistic at the study's n is below 2.5, so it is often not significant
+    full = _fit(sc, ["complexity", "team_experience"])
+    var_c_given_x = var_c * _sd(sc, "review_hours") ** 2 / var_x
+    t_c = abs(c) * math.sqrt(sc.study.n) / (_sd(sc, "defects") / math.sqrt(var_c_given_x))
+    assert full.coefficients["complexity"] == pytest.approx(c, rel=1e-10)
+    assert 1.0 < t_c < 2.5
+    return "adjust_complexity"
+
+
 LESSONS = {
     "common_cause": lesson_common_cause,
     "mediator": lesson_mediator,
@@ -309,6 +339,7 @@ LESSONS = {
     "latent_confounder": lesson_latent_confounder,
     "two_exposures": lesson_two_exposures,
     "larger_graph": lesson_larger_graph,
+    "selection_by_significance": lesson_selection_by_significance,
 }
 
 
