@@ -910,6 +910,14 @@ REQUIRED_KEYS = [
 ]
 
 
+def _verdict_word(row) -> str:
+    """The verdict column of the text table: a selection rule's verdict depends on the data."""
+    share = row.get("selected_valid_share")
+    if row.get("selection") and share is not None and np.isfinite(share):
+        return f"{share:.0%}"
+    return "yes" if row["valid"] else "NO"
+
+
 @dataclass
 class SimulationResult:
     """The scored result of :func:`simulate`.
@@ -1125,7 +1133,7 @@ class SimulationResult:
         for _, r in self.table.iterrows():
             row = [
                 r["name"],
-                "yes" if r["valid"] else "NO",
+                _verdict_word(r),
                 f"{r['mean']:.4g}" if np.isfinite(r["mean"]) else "-",
                 pm(r["bias"], r["bias_mcse"]),
                 pm(r["emp_se"], r["emp_se_mcse"]),
