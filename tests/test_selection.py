@@ -180,3 +180,21 @@ def test_planner_runs_and_has_no_closed_form_for_a_selection():
     assert "select_by_p_value" in smallest.index
     assert pd.isna(smallest.loc["select_by_p_value", "analytic_n_for_power"])
     assert not pd.isna(smallest.loc["adjust_complexity", "analytic_n_for_power"])
+
+
+def test_planner_flags_the_optimistic_power_of_p_value_selection():
+    """Common practice, no source: a strategy whose intervals under-cover has SEs that are too small, so its
+    power is optimistic; the planner says so beside its smallest n."""
+    from workbench.plan import plan
+    from workbench.presets import load_preset
+
+    result = plan(load_preset("selection_by_significance"), sample_sizes=[60, 120], replicates=400, seed=3)
+    notes = result.smallest_n.set_index("strategy")["note"]
+    assert "chosen from the data" in notes["select_by_p_value"]
+    assert notes["adjust_complexity"].startswith("power target") or notes["adjust_complexity"] == ""
+    wide = plan(load_preset("selection_by_significance"), sample_sizes=[60, 1280], replicates=400, seed=3)
+    wide_notes = wide.smallest_n.set_index("strategy")["note"]
+    assert (
+        "optimistic" in wide_notes["select_by_p_value"]
+        or "chosen from the data" in wide_notes["select_by_p_value"]
+    )

@@ -8,7 +8,9 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
+import warnings
 from pathlib import Path
 
 from . import __version__
@@ -33,6 +35,22 @@ def _scenario(args):
             raise ScenarioError("is a folder, not a scenario file", where=str(path))
         return load_scenario(path)
     return load_preset(args.preset or DEFAULT_PRESET)
+
+
+def _check_outputs(args) -> None:
+    """Refuse output paths that cannot be written, before any work is done."""
+    for option in ("json", "csv", "html"):
+        target = getattr(args, option, None)
+        if not target or (option == "json" and target == "-"):
+            continue
+        path = Path(target)
+        folder = path.parent if str(path.parent) else Path(".")
+        if path.is_dir():
+            raise ScenarioError(f"'{target}' is a folder; give a file name", where=f"--{option}")
+        if not folder.is_dir():
+            raise ScenarioError(f"cannot write '{target}': no such folder '{folder}'", where=f"--{option}")
+        if not os.access(folder, os.W_OK):
+            raise ScenarioError(f"cannot write '{target}': the folder is not writable", where=f"--{option}")
 
 
 def _emit_json(text: str, target: str) -> None:
@@ -90,6 +108,7 @@ def _cmd_run(args) -> int:
     from .simulate import simulate
 
     scenario = _scenario(args)
+    _check_outputs(args)
     bar = ProgressBar("simulating")
     try:
         result = simulate(
@@ -108,7 +127,7 @@ def _cmd_run(args) -> int:
 
 def _sizes(text: str) -> list[int]:
     try:
-        sizes = [int(part) for part in text.split(",") if part.strip()]
+        sizes = [int(part) for part in text.split(",")]
     except ValueError:
         raise ScenarioError(
             f"must be whole numbers separated by commas, got '{text}'", where="--sizes"
@@ -123,11 +142,13 @@ def _cmd_plan(args) -> int:
     from .progress import ProgressBar
 
     scenario = _scenario(args)
+    sizes = _sizes(args.sizes) if args.sizes else None
+    _check_outputs(args)
     bar = ProgressBar("planning")
     try:
         result = plan(
             scenario,
-            sample_sizes=_sizes(args.sizes) if args.sizes else None,
+            sample_sizes=sizes,
             replicates=args.replicates,
             target_power=args.target_power,
             target_halfwidth=args.target_halfwidth,
@@ -140,6 +161,8 @@ def _cmd_plan(args) -> int:
 
 
 def _cmd_serve(args) -> int:
+    if not 1 <= args.port <= 65535:
+        raise ScenarioError(f"must be a port number from 1 to 65535, got {args.port}", where="--port")
     try:
         from .dashboard.serve import serve
     except ImportError:
@@ -153,7 +176,13 @@ def _cmd_serve(args) -> int:
         from .presets import preset_text
 
         preset_text(args.preset)  # a clear error for an unknown name before the server starts
-    serve(preset=args.preset, port=args.port, address=args.address, show=args.show)
+    try:
+        serve(preset=args.preset, port=args.port, address=args.address, show=args.show)
+    except OSError as exc:
+        raise ScenarioError(
+            f"cannot serve on {args.address}:{args.port}: {exc.strerror or exc} (is the port in use?)",
+            where="serve",
+        ) from None
     return EXIT_OK
 
 
@@ -169,14 +198,27 @@ def _probability(text: str) -> float:
         raise argparse.ArgumentTypeError(f"must be a number, got '{text}'") from None
 
 
+class _Parser(argparse.ArgumentParser):
+    """An argument parser whose errors are one line: ``workbench: error: <problem>`` and exit code 2."""
+
+    def error(self, message: str):
+        self.exit(EXIT_USER_ERROR, f"workbench: error: {message} (see '{self.prog} --help')\n")
+
+
 def build_parser() -> argparse.ArgumentParser:
-    """The argument parser of the ``workbench`` command."""
-    parser = argparse.ArgumentParser(
+    """The argument parser of the ``workbench`` command.
+
+    Examples
+    --------
+    >>> build_parser().parse_args(["run", "--preset", "common_cause", "--n", "80"]).n
+    80
+    """
+    parser = _Parser(
         prog="workbench",
         description="Simulate studies from an assumed causal graph and compare adjustment strategies.",
     )
     parser.add_argument("--version", action="version", version=f"workbench {__version__}")
-    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
 
     p = sub.add_parser("check", help="analyse a scenario's graph: roles, paths, verdicts, valid sets, truth")
     _add_source(p)
@@ -219,13 +261,24 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    print(f"workbench: warning: {message}", file=sys.stderr)
+
+
 def main(argv: list[str] | None = None) -> int:
-    """Run the command line; returns the exit code."""
+    """Run the command line; returns the exit code.
+
+    Examples
+    --------
+    >>> main(["check", "--preset", "no_such_preset"])
+    2
+    """
     parser = build_parser()
     args = parser.parse_args(argv)
     if not getattr(args, "command", None):
         parser.print_help()
         return EXIT_USER_ERROR
+    warnings.showwarning = _show_warning
     try:
         return args.func(args)
     except WorkbenchError as exc:
@@ -239,6 +292,10 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_CANCELLED
     except BrokenPipeError:
         return EXIT_OK
+    except OSError as exc:  # writing an output: disk full, permissions, a vanished folder
+        where = f" '{exc.filename}'" if exc.filename else ""
+        print(f"workbench: error: cannot write{where}: {exc.strerror or exc}", file=sys.stderr)
+        return EXIT_USER_ERROR
 
 
 if __name__ == "__main__":

@@ -30,6 +30,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from .check import ASSUMPTION, CheckReport
+from .dashboard.tables import selected_sets_text, strategy_text, with_mcse
 
 __all__ = ["ASSUMPTION_NOTE", "Story", "explain"]
 
@@ -66,6 +67,27 @@ class Story:
         """The story as HTML paragraphs (the title excluded), escaped."""
         body = "".join(f"<p style='margin:3px 0'>{html.escape(p)}</p>" for p in self.paragraphs)
         return body + f"<p style='margin:3px 0'><b>{html.escape(self.recommendation)}</b></p>"
+
+
+#: How a selection rule is named in a title and described in a sentence.
+_RULES = {"p_value": "by p-value", "change_in_estimate": "by change in estimate"}
+_RULE_WORDS = {
+    "p_value": "whose coefficient is significant (p < alpha)",
+    "change_in_estimate": "whose removal changes the estimate by more than 10%",
+}
+
+
+def _restriction(restrict: dict) -> str:
+    """``{"shift": 0, "age": [1, 5]}`` as ``shift = 0, age in [1, 5]``."""
+    return strategy_text([], None, restrict).split("only units with ", 1)[-1]
+
+
+def _sentence(note: str, names) -> str:
+    """A note as a sentence: a capital first letter (unless it starts with a variable's name, which keeps
+    its spelling) and a full stop."""
+    first = note.split(" ", 1)[0].strip(",.:;'")
+    head = note if first in names else note[:1].upper() + note[1:]
+    return head + ("" if note.endswith(".") else ".")
 
 
 def _number(value: Any) -> float | None:
@@ -146,7 +168,19 @@ def explain(report: CheckReport, result=None) -> list[Story]:
             round(row_truth if row_truth is not None else (truth or 0.0), 9),
         )
 
-    usable = [s["name"] for s in report.strategies if s["valid"] and not off_target(s["name"])]
+    def doubtful_selection(s: dict) -> bool:
+        """A set chosen from the data counts as usable only when the run shows it valid in >= 95% of
+        studies."""
+        if not isinstance(s.get("selection"), str):
+            return False
+        share = _number(sim.get(s["name"], {}).get("selected_valid_share"))
+        return share is None or share < 0.95
+
+    usable = [
+        s["name"]
+        for s in report.strategies
+        if s["valid"] and not off_target(s["name"]) and not doubtful_selection(s)
+    ]
     precision: dict[str, float] = {}
     for s in report.strategies:
         if s["name"] not in usable:
@@ -167,8 +201,16 @@ def explain(report: CheckReport, result=None) -> list[Story]:
     stories = []
     for s in report.strategies:
         name, adjust = s["name"], list(s["adjust"])
+        selection = s.get("selection") if isinstance(s.get("selection"), str) else None
+        restrict = s.get("restrict") if isinstance(s.get("restrict"), dict) else {}
         verdict = "valid" if s["valid"] else "invalid"
-        title = f"{name}: adjusts for {_sets(adjust)} ({verdict})"
+        if selection:
+            rule = _RULES.get(selection, selection)
+            title = f"{name}: chooses from {_sets(adjust)} {rule} (candidates {verdict})"
+        else:
+            title = f"{name}: adjusts for {_sets(adjust)} ({verdict})"
+        if restrict:
+            title = title.replace(f" ({verdict})", f", only units with {_restriction(restrict)} ({verdict})")
         paragraphs = []
         model = s.get("model", "ols")
         what = {
@@ -176,11 +218,32 @@ def explain(report: CheckReport, result=None) -> list[Story]:
             "logit": "a logistic regression"
             + (" standardised to the whole sample" if s.get("standardize") else ""),
         }.get(model, model)
-        paragraphs.append(
-            f"It fits {what} of {q.outcome} on {q.exposure}"
-            + (f" and {_sets(adjust)}" if adjust else " alone, the raw comparison")
-            + "."
-        )
+        if selection:
+            paragraphs.append(
+                f"It fits {what} of {q.outcome} on {q.exposure} and the covariates it keeps: the set is "
+                f"chosen from the data in each study, keeping among {_sets(adjust)} those "
+                f"{_RULE_WORDS.get(selection, selection)}."
+            )
+        else:
+            paragraphs.append(
+                f"It fits {what} of {q.outcome} on {q.exposure}"
+                + (
+                    f" and {_sets(adjust)}"
+                    if adjust
+                    else (" alone, within the units kept" if restrict else " alone, the raw comparison")
+                )
+                + "."
+            )
+        if restrict:
+            paragraphs.append(
+                f"It analyses only the units with {_restriction(restrict)}, which conditions on "
+                + (
+                    "that variable much as adjusting for it"
+                    if len(restrict) == 1
+                    else "those variables much as adjusting for them"
+                )
+                + " would."
+            )
         open_noncausal = [p.text for p in s["open_paths"] if not p.causal]
         blocked_noncausal = [p.text for p in s["blocked_paths"] if not p.causal]
         blocked_causal = [p.text for p in s["blocked_paths"] if p.causal]
@@ -200,9 +263,25 @@ def explain(report: CheckReport, result=None) -> list[Story]:
             if other:
                 paragraphs.append("Why it fails: " + "; ".join(other) + ".")
         for note in s.get("notes") or []:
-            paragraphs.append(note[0].upper() + note[1:] + ("" if note.endswith(".") else "."))
+            paragraphs.append(_sentence(note, scenario.names))
 
         row = sim.get(name)
+        valid_share = _number(row.get("selected_valid_share")) if row is not None else None
+        if selection and row is not None and valid_share is not None:
+            chosen = selected_sets_text(row.get("selected_sets"))
+            paragraphs.append(
+                f"The set is chosen from the data: in {valid_share:.0%} of the simulated studies the chosen "
+                f"set was valid" + (f"; chosen most often: {chosen}" if chosen else "") + "."
+            )
+        elif selection and s.get("large_sample_selected") is not None:
+            paragraphs.append(
+                f"In a very large sample the rule would keep {_sets(s['large_sample_selected'])}; in a study "
+                f"of n = {scenario.study.n} it may keep another set: run the simulation to see how often."
+            )
+        kept = _number(row.get("mean_retained_n")) if row is not None else None
+        if restrict and kept is not None:
+            n_run = getattr(result, "n", scenario.study.n)
+            paragraphs.append(f"On average {kept:.0f} of the {n_run:,} units were kept.")
         if row is not None:
             row_truth = _number(row.get("truth"))
             row_truth = truth if row_truth is None else row_truth
@@ -211,9 +290,7 @@ def explain(report: CheckReport, result=None) -> list[Story]:
             emp_se, power = _number(row.get("emp_se")), _number(row.get("power"))
             numbers = []
             if bias is not None and row_truth is not None:
-                size = f"{bias:+.3g}" + (
-                    f" (Monte Carlo SE {bias_mcse:.2g})" if bias_mcse is not None else ""
-                )
+                size = with_mcse(bias, bias_mcse)
                 share = 100 * abs(bias) / abs(row_truth) if row_truth else math.nan
                 rel = (
                     (
@@ -239,8 +316,7 @@ def explain(report: CheckReport, result=None) -> list[Story]:
             if numbers:
                 paragraphs.append("In the simulation, " + "; ".join(numbers) + ".")
             if row.get("note"):
-                note = str(row["note"])
-                paragraphs.append(note[0].upper() + note[1:] + ("" if note.endswith(".") else "."))
+                paragraphs.append(_sentence(str(row["note"]), scenario.names))
         else:
             ls_bias = _number(s.get("large_sample_bias"))
             if ls_bias is not None and truth is not None:
@@ -251,7 +327,17 @@ def explain(report: CheckReport, result=None) -> list[Story]:
                 )
 
         best = best_in.get(group(name))
-        if s["valid"] and off_target(name):
+        if selection and valid_share is None and s["valid"]:
+            recommendation = (
+                "Depends on the data: the candidates include a valid set, but each study keeps its own "
+                "choice. Run the simulation to see how often the chosen set is valid."
+            )
+        elif selection and valid_share is not None and valid_share < 0.95:
+            recommendation = (
+                f"Not recommended: the set chosen from the data was valid in only {valid_share:.0%} of "
+                "studies, and the reported intervals ignore the choice. Fix the set from the graph instead."
+            )
+        elif s["valid"] and off_target(name):
             recommendation = (
                 "Not recommended for this question: the adjustment set is valid, but the simulated "
                 "estimates miss the quantity asked for (see the note above)."

@@ -336,6 +336,14 @@ def draw_noise(rng: np.random.Generator, replicates: int, k: int, n: int, out: n
     :data:`PIECE` rows, each piece variable by variable (a ``k x rows`` block). With ``n <= PIECE`` that is
     simply the replicate's ``k x n`` block. So drawing replicates one at a time or all at once, or one
     replicate's rows piece by piece (:func:`noise_pieces`), gives the same numbers.
+
+    Examples
+    --------
+    >>> together = draw_noise(np.random.default_rng(1), 2, 3, 4)
+    >>> rng = np.random.default_rng(1)
+    >>> one_by_one = np.concatenate([draw_noise(rng, 1, 3, 4), draw_noise(rng, 1, 3, 4)])
+    >>> together.shape, bool(np.array_equal(together, one_by_one))
+    ((2, 3, 4), True)
     """
     if out is None:
         out = np.empty((replicates, k, n))
@@ -350,7 +358,13 @@ def draw_noise(rng: np.random.Generator, replicates: int, k: int, n: int, out: n
 
 def noise_pieces(rng: np.random.Generator, k: int, n: int, rows: int):
     """One replicate's noise in row groups of ``rows`` (a multiple of :data:`PIECE`, or ``n``): yields
-    ``(first_row, array of shape (k, group_rows))`` in stream order (see :func:`draw_noise`)."""
+    ``(first_row, array of shape (k, group_rows))`` in stream order (see :func:`draw_noise`).
+
+    Examples
+    --------
+    >>> [(start, piece.shape) for start, piece in noise_pieces(np.random.default_rng(0), 2, 5, 5)]
+    [(0, (2, 5))]
+    """
     if n <= PIECE:
         yield 0, rng.standard_normal((k, n))
         return
@@ -430,7 +444,15 @@ def draw(scenario: Scenario, n: int, seed=None) -> pd.DataFrame:
 
 
 def block_seed(seed, block: int) -> np.random.SeedSequence:
-    """The seed sequence of replicate block ``block``: child ``block`` of ``SeedSequence(seed)``."""
+    """The seed sequence of replicate block ``block``: child ``block`` of ``SeedSequence(seed)``.
+
+    Examples
+    --------
+    >>> block_seed(7, 2).spawn_key
+    (2,)
+    >>> block_seed(7, 2).entropy == np.random.SeedSequence(7).spawn(3)[2].entropy
+    True
+    """
     root = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)
     return np.random.SeedSequence(
         root.entropy, spawn_key=tuple(root.spawn_key) + (block,), pool_size=root.pool_size

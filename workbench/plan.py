@@ -758,12 +758,34 @@ class _Planner:
                     width, "CI half-width", self.target_halfwidth, largest.halfwidth[i], self.sizes
                 )
             bias, bias_mcse = largest.measures["bias"][i], largest.measures["bias_mcse"][i]
-            if self.valid[i] and abs(bias) > 4 * bias_mcse and abs(bias) > 0.05 * abs(truth):
+            biased = self.valid[i] and abs(bias) > 4 * bias_mcse and abs(bias) > 0.05 * abs(truth)
+            if biased and self.scenario.strategy(name).selection is not None:
+                notes.append(
+                    f"biased in simulation: bias {bias:.3g} (MCSE {bias_mcse:.2g}) at n = {self.sizes[-1]}, "
+                    "because the covariates are chosen from the data and a needed one is often left out; "
+                    "its power is not a fair guide"
+                )
+            elif biased:
                 notes.append(
                     f"valid by the graph but biased in simulation: bias {bias:.3g} (MCSE {bias_mcse:.2g}) at "
                     f"n = {self.sizes[-1]}; the model estimates a {self.estimand[i] or 'different quantity'}, "
                     f"scored against {truth:.4g}"
                 )
+            if self.valid[i] and not biased:
+                nominal = 1 - self.alpha
+                short = [
+                    (n, p.measures["coverage"][i])
+                    for n, p in sorted(self.points.items())
+                    if p.fitted[i]
+                    and nominal - p.measures["coverage"][i] > 3 * p.measures["coverage_mcse"][i]
+                ]
+                if short:
+                    n_low, worst = min(short, key=lambda item: item[1])
+                    notes.append(
+                        f"optimistic: its {nominal:.0%} intervals cover the truth in only {worst:.1%} of studies "
+                        f"at n = {n_low}, so its SEs are too small and its power overstates what a study "
+                        "would honestly detect"
+                    )
             if self.valid[i] and abs(truth) < 1e-12:
                 notes.append(f"the true effect is 0: power stays at alpha = {self.alpha:g} whatever n")
             rows.append(

@@ -36,7 +36,13 @@ def _folder():
 
 
 def list_presets() -> dict[str, str]:
-    """Names of the built-in presets mapped to their titles, in name order."""
+    """Names of the built-in presets mapped to their titles, in name order.
+
+    Examples
+    --------
+    >>> list_presets()["common_cause"]
+    'Fertiliser and wheat yield on hillside farms'
+    """
     out = {}
     for entry in sorted(_folder().iterdir(), key=lambda p: p.name):
         if entry.name.endswith(".toml"):
@@ -47,7 +53,18 @@ def list_presets() -> dict[str, str]:
 
 
 def preset_text(name: str) -> str:
-    """The TOML text of a built-in preset."""
+    """The TOML text of a built-in preset.
+
+    Raises
+    ------
+    ScenarioError
+        For a name that is not a preset (the message lists the presets).
+
+    Examples
+    --------
+    >>> preset_text("common_cause").splitlines()[0]
+    'title = "Fertiliser and wheat yield on hillside farms"'
+    """
     if not isinstance(name, str) or not _NAME.match(name):
         raise ScenarioError(f"not a preset name: {name!r}", where="preset")
     entry = _folder() / f"{name}.toml"
@@ -64,9 +81,15 @@ def load_preset(name: str) -> Scenario:
     ------
     ScenarioError
         When there is no such preset (the message lists the names).
+
+    Examples
+    --------
+    >>> load_preset("mediator").question.outcome
+    'output'
     """
+    text = preset_text(name)
     try:
-        return load_scenario(preset_text(name))
+        return load_scenario(text)
     except ScenarioError as exc:
         raise ScenarioError(
             exc.problem, where=f"preset {name}: {exc.where}" if exc.where else f"preset {name}"

@@ -464,6 +464,18 @@ def scenario_from_dict(data: dict, *, fill_default_strategies: bool = True) -> S
     ------
     ScenarioError
         On the first problem found, naming its place.
+
+    Examples
+    --------
+    >>> data = {"title": "t", "question": {"exposure": "a", "outcome": "b"},
+    ...         "variables": {"a": {}, "b": {}}, "arrows": [{"from": "a", "to": "b", "effect": 0.5}]}
+    >>> [s.name for s in scenario_from_dict(data).strategies]
+    ['unadjusted']
+    >>> data["arrows"][0]["to"] = "c"
+    >>> scenario_from_dict(data)
+    Traceback (most recent call last):
+    ...
+    workbench.errors.ScenarioError: arrows[1].to: unknown variable 'c'
     """
     if not isinstance(data, dict):
         raise ScenarioError("a scenario must be a TOML document (a table)")
@@ -785,8 +797,12 @@ def load_scenario(path_or_text: str | os.PathLike) -> Scenario:
             text = path.read_text(encoding="utf-8")
         except FileNotFoundError:
             raise ScenarioError("no such file", where=source) from None
-        except (OSError, UnicodeDecodeError) as exc:
-            raise ScenarioError(f"cannot read: {exc.__class__.__name__}: {exc}", where=source) from None
+        except UnicodeDecodeError:
+            raise ScenarioError("is not UTF-8 text; a scenario is a TOML text file", where=source) from None
+        except IsADirectoryError:
+            raise ScenarioError("is a folder, not a scenario file", where=source) from None
+        except OSError as exc:
+            raise ScenarioError(f"cannot read: {exc.strerror or exc}", where=source) from None
     else:
         text = path_or_text
     data = _parse_text(text, source)
@@ -803,7 +819,14 @@ def load_scenario(path_or_text: str | os.PathLike) -> Scenario:
 # --------------------------------------------------------------------------------------------------------
 def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = True) -> dict:
     """The scenario as TOML-ready nested dicts (keys as in the file). Default values are written out too,
-    so the file says everything it assumes."""
+    so the file says everything it assumes.
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> scenario_to_dict(load_preset("common_cause"))["arrows"][0]
+    {'from': 'soil_quality', 'to': 'fertiliser', 'effect': 0.6}
+    """
     q = scenario.question
     out: dict[str, Any] = {"title": scenario.title}
     if scenario.summary is not None:
@@ -863,7 +886,15 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
 
 
 def dumps_scenario(scenario: Scenario, *, include_default_strategies: bool = True) -> str:
-    """The scenario as TOML text that :func:`load_scenario` reads back to an equal scenario."""
+    """The scenario as TOML text that :func:`load_scenario` reads back to an equal scenario.
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> sc = load_preset("common_cause")
+    >>> load_scenario(dumps_scenario(sc)) == sc
+    True
+    """
     return tomli_w.dumps(scenario_to_dict(scenario, include_default_strategies=include_default_strategies))
 
 

@@ -78,7 +78,14 @@ def draw_wishart(sigma: np.ndarray, df: float, size: int, rng: np.random.Generat
 
 def bartlett_draws(k: int, df: float, size: int, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
     """The random numbers of ``size`` Bartlett draws, in stream order: chi-squares with ``df - i`` degrees of
-    freedom, shape (size, k), then standard normals, shape (size, k(k-1)/2)."""
+    freedom, shape (size, k), then standard normals, shape (size, k(k-1)/2).
+
+    Examples
+    --------
+    >>> chi, normals = bartlett_draws(3, 10, 5, np.random.default_rng(0))
+    >>> chi.shape, normals.shape
+    ((5, 3), (5, 3))
+    """
     if not df > k - 1:
         raise ValueError(f"draw_wishart: df must exceed k - 1 = {k - 1}, got {df}")
     chi = rng.chisquare(df - np.arange(k), size=(size, k))

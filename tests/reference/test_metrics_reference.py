@@ -100,6 +100,8 @@ def test_truth_mcse_is_added_in_quadrature():
 
 
 def test_zero_truth_gives_nan_relative_bias_and_per_strategy_truths_work():
+    """Morris, White & Crowther (2019), Table 6: relative bias divides by the true value, so it is undefined
+    (NaN) when the truth is 0; each strategy is scored against its own truth."""
     m = performance(
         np.column_stack([EST, EST]),
         np.column_stack([SE, SE]),

@@ -175,6 +175,8 @@ def test_logit_strategy_matches_statsmodels_logit():
 
 
 def test_estimate_names_the_bad_column():
+    """Common practice, no source: a data set without a scenario variable gets a one-line error naming the
+    missing column."""
     df = draw(ORCHARD, 30, seed=1)
     with pytest.raises(wb.ScenarioError, match="no column 'slope'"):
         estimate(ORCHARD, df.drop(columns="slope"))
