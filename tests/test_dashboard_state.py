@@ -270,3 +270,46 @@ def test_sample_state_draws_and_keeps_the_covariate():
     assert not sample.data.equals(first)
     sample.update(sc)
     assert sample.covariate == "distance"
+
+
+def test_selection_and_restriction_are_edited_and_pruned():
+    """Common practice, no source: the editor sets the optional strategy keys and never leaves a strategy
+    that the scenario format refuses (a rule with no candidate, a restriction on a removed variable)."""
+    state = ScenarioState(preset="selection_by_significance")
+    rows = {r["name"]: r for r in state.strategy_rows()}
+    assert rows["select_by_p_value"]["selection"] == "p_value"
+    assert state.set_strategy("adjust_complexity", selection="change_in_estimate")
+    assert state.scenario.strategy("adjust_complexity").selection == "change_in_estimate"
+    assert state.set_strategy("adjust_complexity", selection="fixed")
+    assert state.scenario.strategy("adjust_complexity").selection is None
+    assert not state.set_strategy("unadjusted", selection="p_value")  # no candidates
+    assert state.error_section == "strategies" and "candidate" in state.error
+    assert state.set_strategy("adjust_complexity", restrict="team_experience = [-1, 1]")
+    assert state.scenario.strategy("adjust_complexity").restrict == (("team_experience", (-1.0, 1.0)),)
+    assert not state.set_strategy("adjust_complexity", restrict="team_experience = [1, -1]")
+    assert "low < high" in state.error
+    assert not state.set_strategy("adjust_complexity", restrict="team_experience == 3")
+    assert "name = 0" in state.error
+    assert state.remove_variable("team_experience")
+    assert state.scenario.strategy("adjust_complexity").restrict == ()
+    assert state.set_variable("complexity", "observed", False)
+    assert state.scenario.strategy("select_by_p_value").selection is None
+    assert state.scenario.strategy("select_by_p_value").adjust == ()
+
+
+def test_a_hidden_result_tab_catches_up_when_shown():
+    """Common practice, no source: a result that arrives while its tab is hidden is drawn when the tab is
+    shown (the bug: the Estimates tab kept an earlier preset's figures after switching presets)."""
+    pytest.importorskip("panel")
+    from workbench.dashboard.app import App
+
+    wb = Workbench(preset="common_cause", background=False)
+    app = App(workbench=wb)
+    estimates = app.result_views[1]
+    app.tabs.active = 1
+    app.tabs.active = 4
+    wb.scenario_state.preset = "larger_graph"
+    assert "_refresh" in estimates._waiting
+    app.tabs.active = 1
+    shown = " ".join(str(getattr(o, "object", "")) for o in estimates.body.objects)
+    assert "wb-sim-truth'>0.5<" in shown and "adjust_confounders" in shown

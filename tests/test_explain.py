@@ -12,6 +12,7 @@ from __future__ import annotations
 import pytest
 
 from workbench.check import check
+from workbench.dashboard.tables import with_mcse
 from workbench.explain import ASSUMPTION_NOTE, explain
 from workbench.presets import load_preset
 from workbench.simulate import simulate
@@ -36,7 +37,8 @@ def test_with_a_run_the_stories_quote_its_numbers(common_cause):
     report, result = common_cause
     rows = result.table.set_index("name")
     unadjusted, adjusted = explain(report, result)
-    assert f"{rows.loc['unadjusted', 'bias']:+.3g}" in unadjusted.text()
+    bias = with_mcse(rows.loc["unadjusted", "bias"], rows.loc["unadjusted", "bias_mcse"])
+    assert f"off by {bias} on average" in unadjusted.text()
     assert f"{rows.loc['unadjusted', 'coverage']:.1%}" in unadjusted.text()
     assert f"{rows.loc['adjust_soil', 'coverage']:.1%}" in adjusted.text()
     assert "they should in 95%" in unadjusted.text()
@@ -82,3 +84,40 @@ def test_a_conditional_odds_ratio_is_not_recommended_for_a_marginal_question():
     assert conditional.recommendation.startswith("Not recommended for this question")
     assert "non-collapsibility" in conditional.text()
     assert stories["standardized_adjust_fragility"].recommendation.startswith("Recommended")
+
+
+def test_a_set_chosen_by_significance_is_judged_by_how_often_it_was_valid():
+    """Selecting confounders by their p-value drops a real confounder in many small studies, so the chosen
+    set is often invalid and coverage falls (Mickey R.M., Greenland S. (1989). The impact of confounder
+    selection criteria on effect estimation. American Journal of Epidemiology 129(1):125-137; Maldonado G.,
+    Greenland S. (1993). Simulation study of confounder-selection strategies. American Journal of
+    Epidemiology 138(11):923-936). The share quoted must be the run's own."""
+    sc = load_preset("selection_by_significance")
+    result = simulate(sc, replicates=400, seed=11)
+    rows = result.table.set_index("name")
+    before = {s.name: s for s in explain(check(sc))}
+    assert before["select_by_p_value"].recommendation.startswith("Depends on the data")
+    stories = {s.name: s for s in explain(check(sc), result)}
+    share = rows.loc["select_by_p_value", "selected_valid_share"]
+    assert share < 0.95
+    story = stories["select_by_p_value"]
+    assert f"in {share:.0%} of the simulated studies the chosen set was valid" in story.text()
+    assert story.recommendation.startswith("Not recommended")
+    assert not stories["adjust_complexity"].recommendation.startswith("Not recommended")
+
+
+def test_a_restricted_analysis_says_which_units_it_keeps():
+    """Restricting to one level of a confounder removes its confounding, like adjusting for it (Rothman
+    K.J., Greenland S., Lash T.L. (2008). Modern Epidemiology, 3rd ed., ch. 15); the story names the
+    restriction and quotes the run's mean number of units kept."""
+    from workbench.dashboard.state import ScenarioState
+
+    state = ScenarioState(preset="binary_exposure")
+    assert state.set_strategy("unadjusted", restrict="night_shift = 0")
+    sc = state.scenario
+    result = simulate(sc, replicates=300, seed=2)
+    kept = result.table.set_index("name").loc["unadjusted", "mean_retained_n"]
+    story = explain(check(sc), result)[0]
+    assert story.valid
+    assert "only units with night_shift = 0" in story.title
+    assert f"On average {kept:.0f} of the {sc.study.n:,} units were kept." in story.text()

@@ -81,20 +81,28 @@ def server():
     ]
     process = subprocess.Popen(command, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True)
     url = f"http://127.0.0.1:{port}/"
-    deadline = time.monotonic() + 60
+    deadline = time.monotonic() + 90
+    # First wait until the port accepts connections (cheap), then ask for the page once with a generous
+    # timeout: every GET builds a whole session, and on a busy machine that takes seconds; short timeouts
+    # that retry would only pile up sessions.
     while True:
         if process.poll() is not None:
             raise RuntimeError(f"workbench serve exited early:\n{process.stdout.read()}")
         try:
-            with urllib.request.urlopen(url, timeout=2) as response:
-                if response.status == 200:
-                    break
+            with socket.create_connection(("127.0.0.1", port), timeout=1):
+                break
         except OSError:
             pass
         if time.monotonic() > deadline:
             process.kill()
-            raise RuntimeError("workbench serve did not answer within 60 s")
-        time.sleep(0.3)
+            raise RuntimeError("workbench serve did not listen within 90 s")
+        time.sleep(0.2)
+    try:
+        with urllib.request.urlopen(url, timeout=max(10.0, deadline - time.monotonic())) as response:
+            assert response.status == 200, f"workbench serve answered {response.status}"
+    except OSError as exc:
+        process.kill()
+        raise RuntimeError(f"workbench serve did not answer: {exc}") from exc
     yield url
     process.terminate()
     try:

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import math
 import re
+import time
 from pathlib import Path
 
 import pytest
@@ -31,6 +32,13 @@ def _tab(page, name: str) -> None:
 
 def _editor_tab(page, name: str) -> None:
     page.page.locator(".wb-editor-tabs .bk-tab", has_text=name).first.click()
+
+
+def _wait_for_count(locator, count: int, timeout: float = 30.0) -> None:
+    deadline = time.monotonic() + timeout
+    while locator.count() < count:
+        assert time.monotonic() < deadline, f"expected {count} elements, found {locator.count()}"
+        time.sleep(0.1)
 
 
 def _pick_preset(page, name: str) -> None:
@@ -192,6 +200,106 @@ def test_a_long_run_can_be_cancelled(page):
     page.wait_for_text(".wb-status", "simulation cancelled", timeout=30)
     _tab(page, "Estimates")
     page.wait_for_text(".wb-estimates", "Press Run")
+
+
+def test_variables_strategies_and_downloads(page, tmp_path):
+    _tab(page, "Graph")
+    _pick_preset(page, "common_cause")
+    _editor_tab(page, "Strategies")
+    names = page.page.locator(".wb-strategy-name input")
+    before = names.count()
+    page.page.locator(".wb-add-strategy button").click()
+    _wait_for_count(names, before + 1)
+    names.nth(before).fill("soil_again")
+    names.nth(before).press("Enter")
+    page.page.wait_for_timeout(800)
+    assert "soil_again" in [names.nth(i).input_value() for i in range(names.count())]
+    page.page.locator(".wb-suggest button").click()
+    page.wait_for_text(".wb-note-strategies", "already listed", timeout=30)
+    _editor_tab(page, "Variables")
+    soil = page.page.locator(".wb-variables .tabulator-row").first
+    soil.locator('.tabulator-cell[tabulator-field="type"]').click()
+    page.page.locator(".tabulator-edit-list-item", has_text="binary").first.click()
+    page.wait_for_text(".wb-variables", "binary", timeout=30)
+    soil.locator('.tabulator-cell[tabulator-field="observed"]').click()
+    page.wait_for_text(".wb-note-variables", "removed soil_quality from strategies", timeout=30)
+    page.screenshot("15_variables_binary_latent")
+    with page.page.expect_download(timeout=60_000) as saved:
+        page.page.locator(".wb-save button").first.click()
+    target = tmp_path / "saved.toml"
+    saved.value.save_as(target)
+    text = target.read_text(encoding="utf-8")
+    assert 'type = "binary"' in text and "observed = false" in text and "soil_again" in text
+    _tab(page, "Export")
+    assert page.page.locator(".wb-export-csv button").first.is_disabled()  # no run of this version yet
+    page.page.locator(".wb-run button").click()
+    _tab(page, "Estimates")
+    page.wait_for_text(".wb-performance", "soil_again", timeout=90)
+    _tab(page, "Export")
+    page.page.wait_for_timeout(500)
+    with page.page.expect_download(timeout=60_000) as csv:
+        page.page.locator(".wb-export-csv button").first.click()
+    csv.value.save_as(tmp_path / "performance.csv")
+    assert "soil_again" in (tmp_path / "performance.csv").read_text(encoding="utf-8")
+
+
+def test_a_preset_chosen_on_another_tab_shows_its_own_results(page):
+    """The bug: results that arrived while the Estimates tab was hidden were rebuilt on the server but
+    never reached the browser, which kept showing the previous preset's table."""
+    _tab(page, "Estimates")
+    _pick_preset(page, "common_cause")
+    page.wait_for_text(".wb-sim-truth", "0.25", timeout=60)
+    _tab(page, "Export")
+    _pick_preset(page, "larger_graph")
+    page.page.wait_for_timeout(1500)
+    _tab(page, "Estimates")
+    page.wait_for_text(".wb-sim-truth", "0.5", timeout=60)
+    page.wait_for_text(".wb-performance", "adjust_confounders", timeout=60)
+    page.screenshot("09_estimates_larger_graph")
+    _tab(page, "Graph")
+    page.page.locator(".wb-highlight select").select_option("adjust_all")
+    page.wait_for_text(".wb-verdict", "invalid")
+    page.screenshot("10_graph_larger_graph_paths")
+
+
+def test_a_selection_rule_adds_its_columns_and_story(page):
+    _tab(page, "Graph")
+    _pick_preset(page, "selection_by_significance")
+    _editor_tab(page, "Strategies")
+    rules = page.page.locator(".wb-strategy-selection select")
+    assert rules.count() == len(load_preset("selection_by_significance").strategies)
+    rules.nth(1).select_option(label="keep if change > 10%")  # adjust_complexity chosen from the data
+    page.page.wait_for_timeout(500)
+    page.screenshot("11_strategies_selection")
+    _tab(page, "Estimates")
+    page.wait_for_text(".wb-performance", "chosen set valid in", timeout=60)
+    page.wait_for_text(".wb-performance", "chosen by change in estimate", timeout=60)
+    share = page.page.locator(
+        ".wb-performance td[data-strategy='select_by_p_value'][data-field='selected_valid_share']"
+    )
+    assert 0.0 < float(share.get_attribute("data-value")) < 0.95
+    page.screenshot("12_estimates_selection")
+    _tab(page, "Explain")
+    page.wait_for_text(".wb-stories", "of the simulated studies the chosen set was valid", timeout=60)
+    page.screenshot("13_explain_selection")
+
+
+def test_the_plan_shows_its_progress_in_the_sample_size_tab(page):
+    _tab(page, "Sample size")
+    _pick_preset(page, "binary_outcome")
+    page.page.locator(".wb-run button").click()
+    page.wait_for_text(".wb-plan-progress", "Sample-size plan running", timeout=30)
+    page.page.locator(".wb-plan-progress").first.wait_for(state="visible", timeout=30_000)
+    page.wait_for_text(".wb-plan-progress", " of ", timeout=30)
+    page.screenshot("14_sample_size_progress")
+    page.page.locator(".wb-cancel button").click()
+    page.wait_for_text(".wb-status", "cancelled", timeout=30)
+
+
+def test_the_report_button_is_drawn_in_the_primary_colour(page):
+    _tab(page, "Export")
+    button = page.page.locator(".wb-export-html button").first
+    assert button.evaluate("e => getComputedStyle(e).backgroundColor") == "rgb(0, 114, 181)"
 
 
 def test_no_request_left_the_server_and_no_console_error(page):

@@ -163,6 +163,11 @@ def graph_layout(scenario: Scenario) -> dict[str, tuple[float, float]]:
     """Positions for drawing: the scenario's own when every variable has one; otherwise layered left to
     right by topological generation, with the exposure and the outcome on the middle row.
 
+    Within a layer the other variables take rows above and below the middle one, ordered by the mean row of
+    their causes already placed (the barycentre heuristic of Sugiyama K., Tagawa S., Toda M. (1981).
+    Methods for visual understanding of hierarchical system structures. IEEE Transactions on Systems, Man,
+    and Cybernetics 11(2):109-125), which keeps arrows short and reduces crossings.
+
     Examples
     --------
     >>> from workbench.presets import load_preset
@@ -176,7 +181,6 @@ def graph_layout(scenario: Scenario) -> dict[str, tuple[float, float]]:
     G.add_edges_from((a.source, a.target) for a in scenario.arrows)
     order = scenario.names.index
     q = scenario.question
-    offsets = [1.0, -1.0, 2.0, -2.0, 3.0, -3.0, 4.0, -4.0]
     positions: dict[str, tuple[float, float]] = {}
     for x, generation in enumerate(nx.topological_generations(G)):
         members = sorted(generation, key=order)
@@ -184,8 +188,18 @@ def graph_layout(scenario: Scenario) -> dict[str, tuple[float, float]]:
         rest = [m for m in members if m not in main]
         for m in main:
             positions[m] = (float(x), 0.0)
-        for i, m in enumerate(rest):
-            y = offsets[i] if i < len(offsets) else float((i // 2 + 1) * (1 if i % 2 == 0 else -1))
+        # rows 1, -1, 2, -2, ...: the ones nearest the middle first; then hand them out top to bottom in
+        # the order of each variable's barycentre (mean row of its placed causes; file order breaks ties)
+        rows = sorted(
+            (float((i // 2 + 1) * (1 if i % 2 == 0 else -1)) for i in range(len(rest))), reverse=True
+        )
+
+        def barycentre(m: str) -> float:
+            placed = [positions[p][1] for p in G.predecessors(m) if p in positions]
+            return sum(placed) / len(placed) if placed else 0.0
+
+        ranked = sorted(rest, key=lambda m: (-barycentre(m), order(m))) if x > 0 else rest
+        for m, y in zip(ranked, rows, strict=True):
             positions[m] = (float(x), y)
     return {name: positions[name] for name in scenario.names}
 
@@ -196,6 +210,111 @@ def _path_edges(paths: Iterable) -> set[tuple[str, str]]:
         for a, b, arrow in zip(p.nodes, p.nodes[1:], p.arrows, strict=False):
             edges.add((a, b) if arrow == "->" else (b, a))
     return edges
+
+
+def _effect_text(effect: float) -> str:
+    """An arrow's label: at most three significant digits, no plus sign.
+
+    Examples
+    --------
+    >>> _effect_text(0.25), _effect_text(-0.08), _effect_text(1.0), _effect_text(0.123456)
+    ('0.25', '-0.08', '1', '0.123')
+    """
+    return f"{effect:.3g}"
+
+
+def _box_overlap(a: tuple[float, float, float, float], b: tuple[float, float, float, float]) -> float:
+    """Overlapping area of two boxes given as (x_min, y_min, x_max, y_max)."""
+    w = min(a[2], b[2]) - max(a[0], b[0])
+    h = min(a[3], b[3]) - max(a[1], b[1])
+    return w * h if w > 0 and h > 0 else 0.0
+
+
+def _points_inside(box, points) -> int:
+    x_min, y_min, x_max, y_max = box
+    return sum(1 for x, y in points if x_min <= x <= x_max and y_min <= y <= y_max)
+
+
+def _place_labels(
+    pixels: dict[str, tuple[float, float]],
+    arrows,
+    *,
+    radius: float,
+    width: float,
+    height: float,
+) -> tuple[dict[str, tuple[float, float]], list[tuple[float, float]]]:
+    """Where to write the variables' names and the arrows' effects, in pixels, so that they overlap the
+    arrows, the nodes and each other as little as possible (a greedy search over a few candidate places:
+    below, above, right or left of a node; along the middle part of an arrow).
+
+    Returns the centre of each name's box and of each arrow label's box.
+    """
+    char_px, name_char_px, line_px = 6.3, 7.0, 15.0
+    # sample points along every drawn arrow (between the nodes' edges)
+    edge_points: list[tuple[float, float]] = []
+    for a in arrows:
+        (ax, ay), (bx, by) = pixels[a.source], pixels[a.target]
+        length = math.hypot(bx - ax, by - ay) or 1.0
+        steps = max(4, int(length / 6))
+        cut = (radius + 4) / length
+        for k in range(steps + 1):
+            t = cut + (1 - 2 * cut) * k / steps
+            edge_points.append((ax + (bx - ax) * t, ay + (by - ay) * t))
+    discs = [(x - radius - 2, y - radius - 2, x + radius + 2, y + radius + 2) for x, y in pixels.values()]
+    taken: list[tuple[float, float, float, float]] = []
+
+    def outside(box) -> float:
+        return (
+            max(0.0, -box[0]) + max(0.0, box[2] - width) + max(0.0, -box[1]) + max(0.0, box[3] - height)
+        ) * 40
+
+    names: dict[str, tuple[float, float]] = {}
+    gap = radius + 3
+    for name, (x, y) in pixels.items():
+        w, h = name_char_px * len(name) + 4, line_px
+        candidates = [
+            (x, y - gap - h / 2),  # below (pixel y grows upwards here)
+            (x, y + gap + h / 2),  # above
+            (x + gap + w / 2, y),  # right
+            (x - gap - w / 2, y),  # left
+        ]
+        best, best_score = candidates[0], math.inf
+        for rank, (cx, cy) in enumerate(candidates):
+            box = (cx - w / 2, cy - h / 2, cx + w / 2, cy + h / 2)
+            score = (
+                8 * _points_inside(box, edge_points)
+                + sum(_box_overlap(box, d) for d in discs) / 4
+                + sum(_box_overlap(box, t) for t in taken) / 2
+                + outside(box)
+                + 3 * rank
+            )
+            if score < best_score:
+                best, best_score = (cx, cy), score
+        names[name] = best
+        cx, cy = best
+        taken.append((cx - w / 2, cy - h / 2, cx + w / 2, cy + h / 2))
+
+    labels: list[tuple[float, float]] = []
+    for a in arrows:
+        (ax, ay), (bx, by) = pixels[a.source], pixels[a.target]
+        text = _effect_text(a.effect)
+        w, h = char_px * len(text) + 6, line_px - 1
+        best, best_score = None, math.inf
+        for t in (0.5, 0.42, 0.58, 0.35, 0.65, 0.28, 0.72):
+            cx, cy = ax + (bx - ax) * t, ay + (by - ay) * t
+            box = (cx - w / 2, cy - h / 2, cx + w / 2, cy + h / 2)
+            score = (
+                sum(_box_overlap(box, d) for d in discs)
+                + sum(_box_overlap(box, o) for o in taken)
+                + outside(box)
+                + 20 * abs(t - 0.5)
+            )
+            if score < best_score:
+                best, best_score = (cx, cy), score
+        labels.append(best)
+        cx, cy = best
+        taken.append((cx - w / 2, cy - h / 2, cx + w / 2, cy + h / 2))
+    return names, labels
 
 
 def graph_figure(
@@ -209,6 +328,9 @@ def graph_figure(
     title: str | None = None,
 ):
     """The causal graph: nodes coloured by role, arrows labelled with effects, optional path highlight.
+
+    Names and effect labels are placed where they cover the fewest arrows and nodes (see
+    :func:`_place_labels`); the legend sits below the drawing so that it never covers a node.
 
     Parameters
     ----------
@@ -238,9 +360,10 @@ def graph_figure(
     pos = graph_layout(scenario)
     xs = [p[0] for p in pos.values()]
     ys = [p[1] for p in pos.values()]
-    # Margins in pixels around the outermost nodes: room for the node and its name below it.
-    left = right = 75.0
-    top, bottom = 28.0, 48.0
+    # Margins in pixels around the outermost nodes: room for the node and a name beside or below it.
+    longest = max((len(n) for n in pos), default=8)
+    left = right = max(60.0, 3.6 * longest + 24)
+    top, bottom = 34.0, 40.0
     span_x, span_y = max(xs) - min(xs), max(ys) - min(ys)
     sx = (width - left - right) / span_x if span_x > 0 else 200.0
     sy = (height - top - bottom) / span_y if span_y > 0 else 120.0
@@ -264,6 +387,11 @@ def graph_figure(
     fig.grid.visible = False
     sx, sy = width / (x1 - x0), height / (y1 - y0)  # pixels per unit, as drawn
     radius_px = 15.0
+    pixels = {n: ((x - x0) * sx, (y - y0) * sy) for n, (x, y) in pos.items()}
+    name_at, label_at = _place_labels(pixels, scenario.arrows, radius=radius_px, width=width, height=height)
+
+    def data(point: tuple[float, float]) -> tuple[float, float]:
+        return x0 + point[0] / sx, y0 + point[1] / sy
 
     open_edges: set[tuple[str, str]] = set()
     blocked_edges: set[tuple[str, str]] = set()
@@ -276,7 +404,7 @@ def graph_figure(
         k: [] for k in ("x0", "y0", "x1", "y1", "width", "alpha", "dash", "colour")
     }
     label_data: dict[str, list] = {k: [] for k in ("x", "y", "text", "alpha")}
-    for a in scenario.arrows:
+    for a, at in zip(scenario.arrows, label_at, strict=True):
         (ax, ay), (bx, by) = pos[a.source], pos[a.target]
         dx, dy = (bx - ax) * sx, (by - ay) * sy
         length = math.hypot(dx, dy) or 1.0
@@ -292,9 +420,10 @@ def graph_figure(
         arrow_data["alpha"].append(0.25 if faded else 1.0)
         arrow_data["dash"].append("dashed" if is_open else "solid")
         arrow_data["colour"].append("#000000" if is_open else _EDGE)
-        label_data["x"].append(ax + (bx - ax) * 0.5)
-        label_data["y"].append(ay + (by - ay) * 0.5)
-        label_data["text"].append(f"{a.effect:+.3g}")
+        lx, ly = data(at)
+        label_data["x"].append(lx)
+        label_data["y"].append(ly)
+        label_data["text"].append(_effect_text(a.effect))
         label_data["alpha"].append(0.35 if faded else 1.0)
     source = ColumnDataSource(arrow_data)
     fig.add_layout(
@@ -325,7 +454,7 @@ def graph_figure(
         text_alpha="alpha",
         background_fill_color="#ffffff",
         background_fill_alpha=0.9,
-        padding=2,
+        padding=1,
         text_color="#333333",
     )
 
@@ -354,14 +483,14 @@ def graph_figure(
     node_renderers = []
     for role in ROLE_STYLE:
         for observed in (True, False):
-            data = groups.get((role, observed))
-            if not data:
+            data_ = groups.get((role, observed))
+            if not data_:
                 continue
             text, colour, marker = ROLE_STYLE[role]
             renderer = fig.scatter(
                 "x",
                 "y",
-                source=ColumnDataSource(data),
+                source=ColumnDataSource(data_),
                 marker=marker,
                 size=2 * radius_px + (4 if marker == "diamond" else 0),
                 fill_color=colour,
@@ -371,12 +500,26 @@ def graph_figure(
                 line_dash="solid" if observed else "dashed",
             )
             node_renderers.append(renderer)
-            items.append(LegendItem(label=text if observed else f"{text} (latent)", renderers=[renderer]))
+            # the legend shows a small copy drawn outside the view (the nodes themselves are too big for it)
+            sample = fig.scatter(
+                [x0 - 10],
+                [y0 - 10],
+                marker=marker,
+                size=13 + (2 if marker == "diamond" else 0),
+                fill_color=colour,
+                fill_alpha=1.0 if observed else 0.0,
+                line_color="#333333" if observed else colour,
+                line_width=1.2 if observed else 1.8,
+                line_dash="solid" if observed else "dashed",
+            )
+            items.append(LegendItem(label=text if observed else f"{text} (latent)", renderers=[sample]))
+    name_points = [data(name_at[n]) for n in pos]
     names = ColumnDataSource(
         {
-            "x": list(xs),
-            "y": list(ys),
-            "text": [n + ("  (adjusted)" if n in adjusted else "") for n in pos],
+            "x": [p[0] for p in name_points],
+            "y": [p[1] for p in name_points],
+            "text": list(pos),
+            "weight": ["bold" if n in adjusted else "normal" for n in pos],
         }
     )
     fig.text(
@@ -385,14 +528,19 @@ def graph_figure(
         "text",
         source=names,
         text_font_size="12px",
+        text_font_style="weight",
         text_align="center",
-        text_baseline="top",
-        y_offset=radius_px + 5,
+        text_baseline="middle",
         text_color="#111111",
         background_fill_color="#ffffff",
-        background_fill_alpha=0.75,
+        background_fill_alpha=0.8,
         padding=1,
     )
+    if adjusted:
+        ring = fig.scatter(
+            [x0 - 10], [y0 - 10], marker="circle", size=14, fill_alpha=0, line_color="#000000", line_width=3
+        )
+        items.append(LegendItem(label="adjusted for (bold name)", renderers=[ring]))
     if verdict is not None:
         far_x, far_y = [x0 - 10, x0 - 9], [y0 - 10, y0 - 10]  # legend samples drawn outside the view
         open_line = fig.line(far_x, far_y, line_width=4, line_dash="dashed", line_color="#000000")
@@ -401,14 +549,18 @@ def graph_figure(
         items.append(LegendItem(label="path blocked", renderers=[faded_line]))
     legend = Legend(
         items=items,
-        location="top_left",
         label_text_font_size=_FONT,
-        glyph_height=20,
-        glyph_width=24,
-        spacing=4,
+        glyph_height=22,
+        glyph_width=22,
+        spacing=12,
+        padding=4,
+        margin=4,
         border_line_color=None,
+        orientation="horizontal",
+        ncols=min(5, max(1, len(items))),
+        label_standoff=4,
     )
-    fig.add_layout(legend, "right")
+    fig.add_layout(legend, "below")
     fig.add_tools(
         HoverTool(
             renderers=node_renderers,
@@ -867,12 +1019,15 @@ def by_n_figure(
     return fig
 
 
-def separation_figure(also_table: pd.DataFrame, table: pd.DataFrame | None = None, *, width: int = 530):
+def separation_figure(
+    also_table: pd.DataFrame, table: pd.DataFrame | None = None, *, width: int = 530, grid: bool = True
+):
     """For ``question.also``: whether n units can tell two effects apart.
 
     Left: power against n for each further effect (solid) beside the exposure's own power under the same
     strategy (dashed). Right: the correlation between the two estimates across replicates (a strong
-    correlation means the data cannot separate the two effects well).
+    correlation means the data cannot separate the two effects well). With ``grid=False`` the two figures
+    are returned as a list (a page that lays them out itself draws them more reliably than a grid).
 
     Parameters
     ----------
@@ -951,6 +1106,8 @@ def separation_figure(also_table: pd.DataFrame, table: pd.DataFrame | None = Non
     _legend_above(corr, corr_items)
     for fig in (power, corr):
         _n_axis(fig, also_table["n"])
+    if not grid:
+        return [power, corr]
     return gridplot([power, corr], ncols=2, toolbar_location=None)
 
 

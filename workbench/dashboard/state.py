@@ -53,6 +53,8 @@ __all__ = [
     "SampleState",
     "Workbench",
     "library_has",
+    "strategy_fields",
+    "restrict_text",
 ]
 
 MAX_UPLOAD_BYTES = 256 * 1024
@@ -71,6 +73,61 @@ def library_has(module: str) -> bool:
         return importlib.util.find_spec(f"workbench.{module}") is not None
     except (ImportError, ValueError):
         return False
+
+
+def strategy_fields() -> set[str]:
+    """The fields a :class:`~workbench.scenario.Strategy` has in this installation (optional keys such as
+    ``selection`` and ``restrict`` arrive with newer versions of the library).
+
+    Examples
+    --------
+    >>> {"name", "adjust", "model"} <= strategy_fields()
+    True
+    """
+    import dataclasses
+
+    from ..scenario import Strategy
+
+    return {f.name for f in dataclasses.fields(Strategy)}
+
+
+def restrict_text(restrict) -> str:
+    """A strategy's restriction as the text the editor shows (``shift = 0, distance = [10, 50]``).
+
+    Examples
+    --------
+    >>> restrict_text((("shift", 0), ("distance", (10.0, 50.0))))
+    'shift = 0, distance = [10, 50]'
+    >>> restrict_text(())
+    ''
+    """
+    items = restrict.items() if isinstance(restrict, dict) else (restrict or ())
+    parts = []
+    for name, value in items:
+        if isinstance(value, list | tuple):
+            parts.append(f"{name} = [{value[0]:g}, {value[1]:g}]")
+        else:
+            parts.append(f"{name} = {value}")
+    return ", ".join(parts)
+
+
+def _parse_restrict_text(value, *, where: str) -> dict:
+    """A restriction typed as text (``shift = 0, distance = [10, 50]``) or given as a table, as a table.
+    The text is read as the inside of a TOML inline table: parsed, never evaluated."""
+    if isinstance(value, dict):
+        return dict(value)
+    text = str(value or "").strip().strip("{}").strip()
+    if not text:
+        return {}
+    import tomllib
+
+    try:
+        parsed = tomllib.loads(f"restrict = {{ {text} }}")["restrict"]
+    except tomllib.TOMLDecodeError:
+        raise ScenarioError(
+            f"write the units to keep as 'name = 0' or 'name = [low, high]', got '{text}'", where=where
+        ) from None
+    return parsed
 
 
 def _parse_text(text: str) -> Scenario:
@@ -128,6 +185,7 @@ class ScenarioState(param.Parameterized):
                 self.error = ""
                 self.error_section = ""
                 self.note = note
+                self.source = section
             return
         report, report_error = None, ""
         if library_has("check"):
@@ -176,13 +234,22 @@ class ScenarioState(param.Parameterized):
 
     @staticmethod
     def _prune(data: dict, names: set[str]) -> str:
-        """Remove ``names`` from every strategy's adjustment set and from ``question.also``."""
+        """Remove ``names`` from every strategy's adjustment set, restriction and from ``question.also``
+        (a selection rule left with no candidate is dropped: the strategy adjusts for nothing)."""
         removed = []
         for table in data.get("strategies", []):
             kept = [v for v in table.get("adjust", []) if v not in names]
-            if len(kept) != len(table.get("adjust", [])):
+            restrict = {k: v for k, v in (table.get("restrict") or {}).items() if k not in names}
+            if len(kept) != len(table.get("adjust", [])) or len(restrict) != len(table.get("restrict") or {}):
                 removed.append(table["name"])
             table["adjust"] = kept
+            if "restrict" in table:
+                if restrict:
+                    table["restrict"] = restrict
+                else:
+                    del table["restrict"]
+            if not kept:
+                table.pop("selection", None)
         also = data["question"].get("also")
         if also:
             data["question"]["also"] = [v for v in also if v not in names]
@@ -322,6 +389,13 @@ class ScenarioState(param.Parameterized):
                 if value == table.get("type"):
                     return ""
                 keep = {k: table[k] for k in ("observed", "label", "position") if k in table}
+                for s in data.get("strategies", []):
+                    # a restriction's form depends on the type (a value or an interval): drop it
+                    (s.get("restrict") or {}).pop(name, None)
+                    if "restrict" in s and not s["restrict"]:
+                        del s["restrict"]
+                    if value == "binary" and name == q["outcome"]:
+                        s.pop("selection", None)  # selection rules apply to continuous outcomes only
                 if value == "binary":
                     data["variables"][name] = {"type": "binary", "proportion": 0.5, **keep}
                     if name == q["outcome"] and q.get("target") == "direct":
@@ -487,8 +561,23 @@ class ScenarioState(param.Parameterized):
         model: str | None = None,
         standardize: bool | None = None,
         new_name: str | None = None,
+        selection: str | None = None,
+        restrict: dict | str | None = None,
     ) -> bool:
-        """Change a strategy's adjustment set, model, standardisation or name."""
+        """Change a strategy's adjustment set, model, standardisation, name, selection rule or restriction.
+
+        ``selection`` is ``"fixed"`` (or ``""``) for a fixed set, ``"p_value"`` or ``"change_in_estimate"``
+        (``adjust`` then lists the candidates); ``restrict`` is a table such as ``{"shift": 0}`` or text in
+        the same form as the file (``shift = 0, distance = [10, 50]``), ``{}`` or ``""`` for none.
+
+        Examples
+        --------
+        >>> state = ScenarioState(preset="common_cause")
+        >>> state.set_strategy("adjust_soil", restrict="soil_quality = [")
+        False
+        >>> state.error_section
+        'strategies'
+        """
 
         def change(data):
             for table in data["strategies"]:
@@ -499,8 +588,21 @@ class ScenarioState(param.Parameterized):
                         table["model"] = model
                         if model != "logit":
                             table.pop("standardize", None)
+                        else:
+                            table.pop("selection", None)  # selection rules apply to OLS only
                     if standardize is not None:
                         table["standardize"] = bool(standardize)
+                    if selection is not None:
+                        if selection in ("", "fixed"):
+                            table.pop("selection", None)
+                        else:
+                            table["selection"] = selection
+                    if restrict is not None:
+                        parsed = _parse_restrict_text(restrict, where=f"strategies.{name}.restrict")
+                        if parsed:
+                            table["restrict"] = parsed
+                        else:
+                            table.pop("restrict", None)
                     if new_name is not None:
                         table["name"] = new_name
                     return ""
@@ -525,7 +627,11 @@ class ScenarioState(param.Parameterized):
         standardize = self.scenario.outcome.is_binary
 
         def change(data):
-            present = {frozenset(s["adjust"]) for s in data["strategies"] if s.get("model", "ols") == model}
+            present = {
+                frozenset(s["adjust"])
+                for s in data["strategies"]
+                if s.get("model", "ols") == model and not s.get("selection") and not s.get("restrict")
+            }
             taken = {s["name"] for s in data["strategies"]}
             added = []
             for label, adjust in suggestions:
@@ -582,6 +688,8 @@ class ScenarioState(param.Parameterized):
                     "adjust": list(s.adjust),
                     "model": s.model,
                     "standardize": s.standardize,
+                    "selection": getattr(s, "selection", None),
+                    "restrict": dict(getattr(s, "restrict", ()) or ()),
                     "valid": checked.get("valid"),
                     "reasons": list(checked.get("reasons", [])),
                 }

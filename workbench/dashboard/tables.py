@@ -36,6 +36,10 @@ __all__ = [
     "smallest_n_table",
     "also_smallest_n_table",
     "fmt",
+    "estimate_decimals",
+    "with_mcse",
+    "strategy_text",
+    "selected_sets_text",
 ]
 
 #: Styles of the tables (no web fonts: the system's sans-serif).
@@ -56,7 +60,10 @@ table.wb span.mcse { color: #666; font-size: 11px; font-weight: normal; }
 """
 
 
-_TEXT_HEAD = {h: ' class="text"' for h in ("adjusts for", "estimates", "note", "why", "further effect of")}
+_TEXT_HEAD = {
+    h: ' class="text"'
+    for h in ("adjusts for", "estimates", "note", "why", "further effect of", "chosen most often")
+}
 
 
 def fmt(value: Any, digits: int = 3) -> str:
@@ -123,6 +130,93 @@ def effect_digits(emp_se: Any) -> int:
     return max(3, min(6, 2 - math.floor(math.log10(spread))))
 
 
+def estimate_decimals(mcse: Any, default: int = 3) -> int:
+    """Decimals for a Monte Carlo estimate shown beside its MCSE: enough that the value carries as many
+    decimals as the MCSE's two significant digits, but at most one more than ``default``.
+
+    Examples
+    --------
+    >>> estimate_decimals(0.0041, 3), estimate_decimals(0.04, 3), estimate_decimals(None, 4)
+    (4, 3, 4)
+    """
+    try:
+        number = float(mcse)
+    except (TypeError, ValueError):
+        return default
+    if not math.isfinite(number) or number <= 0:
+        return default
+    wanted = 1 - math.floor(math.log10(number))
+    return max(default, min(wanted, default + 1))
+
+
+def with_mcse(value: Any, mcse: Any) -> str:
+    """A Monte Carlo estimate in words: rounded where its MCSE's first significant digit lies, the MCSE to
+    one significant digit (so a stakeholder is not shown digits that are noise).
+
+    Examples
+    --------
+    >>> with_mcse(-0.000495, 0.00051), with_mcse(0.2208, 0.0015), with_mcse(0.5, None)
+    ('-0.0005 (Monte Carlo SE 0.0005)', '+0.221 (Monte Carlo SE 0.002)', '+0.5')
+    """
+    number = float(value)
+    try:
+        spread = float(mcse)
+    except (TypeError, ValueError):
+        spread = math.nan
+    if not math.isfinite(spread) or spread <= 0:
+        return f"{number:+.3g}"
+    first = -math.floor(math.log10(spread))
+    decimals = max(0, min(8, first))
+    text = f"{number:+.{decimals}f}"
+    if float(text) == 0:
+        text = f"{number:.{decimals}f}".replace("-", "")
+    return f"{text} (Monte Carlo SE {spread:.1g})"
+
+
+def strategy_text(adjust: Any, selection: Any = None, restrict: Any = None) -> str:
+    """What a strategy adjusts for, in words, with how the set is chosen and the units it keeps.
+
+    Examples
+    --------
+    >>> strategy_text(["a", "b"]), strategy_text([]), strategy_text(["a", "b"], "p_value")
+    ('a, b', 'nothing', 'chosen by p-value from a, b')
+    >>> strategy_text(["a"], None, {"shift": 0, "age": [1, 5]})
+    'a; only units with shift = 0, age in [1, 5]'
+    """
+    names = list(adjust) if isinstance(adjust, list | tuple) else ([adjust] if adjust else [])
+    text = ", ".join(str(n) for n in names) or "nothing"
+    if isinstance(selection, str) and selection:
+        rule = {"p_value": "p-value", "change_in_estimate": "change in estimate > 10%"}.get(
+            selection, selection
+        )
+        text = f"chosen by {rule} from {text}"
+    if isinstance(restrict, dict) and restrict:
+        parts = [
+            f"{k} in [{v[0]:g}, {v[1]:g}]" if isinstance(v, list | tuple) else f"{k} = {v}"
+            for k, v in restrict.items()
+        ]
+        text += "; only units with " + ", ".join(parts)
+    return text
+
+
+def selected_sets_text(sets: Any, limit: int = 3) -> str:
+    """The sets a selection rule chose most often, with their shares (``SimulationResult.table``'s
+    ``selected_sets``).
+
+    Examples
+    --------
+    >>> selected_sets_text([{"adjust": ["a"], "share": 0.57}, {"adjust": [], "share": 0.43}])
+    'a (57%); nothing (43%)'
+    """
+    if not isinstance(sets, list | tuple) or not sets:
+        return ""
+    parts = []
+    for item in list(sets)[:limit]:
+        chosen = ", ".join(item.get("adjust") or []) or "nothing"
+        parts.append(f"{chosen} ({100 * float(item.get('share', math.nan)):.0f}%)")
+    return "; ".join(parts)
+
+
 def flags(row: Any, alpha: float) -> dict[str, bool]:
     """Which cells of a performance-table row to flag: ``bias`` when |bias| > 3 MCSE, ``coverage`` when
     outside (1 - alpha) +/- 3 MCSE.
@@ -151,8 +245,11 @@ def _cell(
     digits: int = 3,
     flagged: bool = False,
     title: str = "",
+    percent: bool = False,
 ) -> str:
     text = fmt(value, digits)
+    if percent and value is not None and math.isfinite(float(value)):
+        text = f"{100 * float(value):.{digits}f}%"
     if mcse is not None:
         text += f'<br><span class="mcse">&plusmn; {fmt_mcse(mcse)}</span>'
     raw = (
@@ -192,6 +289,14 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
     head = ["strategy", "verdict", "adjusts for"]
     if scored:
         head += ["estimates", "its truth"]
+    selection = "selection" in table and any(isinstance(v, str) and v for v in table["selection"])
+    retained = "mean_retained_n" in table and bool(
+        pd.to_numeric(table["mean_retained_n"], errors="coerce").notna().any()
+    )
+    if selection:
+        head += ["chosen set valid in", "chosen most often"]
+    if retained:
+        head += ["units kept (mean)"]
     head += [
         "mean estimate",
         "bias",
@@ -208,15 +313,16 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
     for _, r in table.iterrows():
         name = str(r["name"])
         flag = flags(r, alpha)
-        adjust = _get(r, "adjust")
-        adjust_text = (
-            ", ".join(adjust)
-            if isinstance(adjust, list | tuple) and adjust
-            else (adjust if isinstance(adjust, str) and adjust else "nothing")
-        )
+        adjust_text = strategy_text(_get(r, "adjust"), _get(r, "selection"), _get(r, "restrict"))
+        verdict = _verdict_cell(_get(r, "valid"))
+        share = _get(r, "selected_valid_share")
+        if isinstance(_get(r, "selection"), str) and share is not None:
+            # a set chosen from the data is valid only in the studies whose chosen set is valid
+            kind = "valid" if share >= 0.95 else "invalid"
+            verdict = f'<td class="{kind}" title="share of studies whose chosen set was valid">valid in {100 * share:.0f}%</td>'
         cells = [
             f"<td>{html.escape(name)}</td>",
-            _verdict_cell(_get(r, "valid")),
+            verdict,
             f'<td class="text"><div>{html.escape(str(adjust_text))}</div></td>',
         ]
         if scored:
@@ -224,6 +330,18 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
                 f'<td class="text"><div>{html.escape(str(_get(r, "estimand") or ""))}</div></td>',
                 _cell(name, "truth", _get(r, "truth"), digits=effect_digits(_get(r, "emp_se"))),
             ]
+        if selection:
+            share = _get(r, "selected_valid_share")
+            chosen = selected_sets_text(_get(r, "selected_sets"))
+            cells += [
+                _cell(name, "selected_valid_share", share, digits=0, percent=True)
+                if share is not None
+                else f'<td data-strategy="{html.escape(name)}" data-field="selected_valid_share">-</td>',
+                f'<td class="text" data-strategy="{html.escape(name)}" data-field="selected_sets"><div>'
+                f"{html.escape(chosen) or '-'}</div></td>",
+            ]
+        if retained:
+            cells.append(_cell(name, "mean_retained_n", _get(r, "mean_retained_n"), digits=1))
         d = effect_digits(_get(r, "emp_se"))
         cells += [
             _cell(name, "mean", _get(r, "mean"), digits=d),
@@ -231,7 +349,7 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
                 name,
                 "bias",
                 _get(r, "bias"),
-                digits=d,
+                digits=estimate_decimals(_get(r, "bias_mcse"), d),
                 mcse=_get(r, "bias_mcse"),
                 flagged=flag["bias"],
                 title="|bias| exceeds 3 Monte Carlo SEs" if flag["bias"] else "",
@@ -358,7 +476,7 @@ def smallest_n_table(smallest: pd.DataFrame, *, table_id: str = "smallest-n") ->
         ]
         out.append("<tr>" + "".join(cells) + "</tr>")
     header = "".join(
-        f"<th>{h}</th>"
+        f"<th{_TEXT_HEAD.get(h, '')}>{h}</th>"
         for h in (
             "strategy",
             "verdict",
@@ -398,7 +516,7 @@ def also_smallest_n_table(smallest: pd.DataFrame, *, table_id: str = "also-small
         ]
         out.append("<tr>" + "".join(cells) + "</tr>")
     header = "".join(
-        f"<th>{h}</th>"
+        f"<th{_TEXT_HEAD.get(h, '')}>{h}</th>"
         for h in (
             "strategy",
             "further effect of",

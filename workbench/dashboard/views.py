@@ -8,6 +8,7 @@ effect.
 
 from __future__ import annotations
 
+import html
 import io
 import re
 import tempfile
@@ -16,10 +17,18 @@ from pathlib import Path
 import pandas as pd
 import panel as pn
 import param
+from bokeh.models.widgets.tables import NumberFormatter
 
 from ..scenario import Scenario
 from . import figures, tables
-from .state import MAX_UPLOAD_BYTES, ScenarioState, Workbench, library_has
+from .state import (
+    MAX_UPLOAD_BYTES,
+    ScenarioState,
+    Workbench,
+    library_has,
+    restrict_text,
+    strategy_fields,
+)
 
 __all__ = [
     "ErrorBox",
@@ -33,6 +42,7 @@ __all__ = [
     "SampleSizeView",
     "ExplainView",
     "ExportView",
+    "JobProgress",
     "library_status",
 ]
 
@@ -40,6 +50,19 @@ _SIDEBAR_WIDTH = 290
 _MAIN_WIDTH = 1090
 _NOTE_STYLE = {"color": "#444", "font-size": "13px"}
 _TABLE_STYLE = f"<style>{tables.TABLE_CSS}</style>"
+#: The primary button colours, for download buttons (see ExportView).
+_PRIMARY_BUTTON_CSS = """
+:host .bk-btn, :host .bk-btn a { background-color: #0072b5 !important; border-color: #0072b5 !important;
+  color: #ffffff !important; }
+:host .bk-btn:hover, :host .bk-btn:hover a { background-color: #005f96 !important; }
+:host .bk-btn[disabled] { opacity: 0.55; }
+"""
+#: The strategy editor's choices of how the adjustment set is chosen (value -> label).
+_SELECTION_CHOICES = (
+    ("fixed set", "fixed"),
+    ("keep if significant (p < alpha)", "p_value"),
+    ("keep if change > 10%", "change_in_estimate"),
+)
 
 
 def _widget(cls, text: str | None = None, **params):
@@ -89,18 +112,20 @@ class ErrorBox(pn.viewable.Viewer):
             visible=False,
             styles={"color": "#555", "font-size": "12px"},
             margin=(0, 5),
-            css_classes=["wb-note"],
+            css_classes=["wb-note", "wb-note-" + "-".join(self.sections)],
             **size,
         )
-        self.state.param.watch(self._update, ["error", "error_section", "note"])
+        self.state.param.watch(self._update, ["error", "error_section", "note", "source"])
         self._update()
 
     def _update(self, *_):
         mine = self.state.error and self.state.error_section in self.sections
         self._error.object = f"**Not applied:** {self.state.error}" if mine else ""
         self._error.visible = bool(mine)
+        # a note belongs next to the edit that caused it (one place, not every box on the page)
+        noted = self.state.source in self.sections
         self._note.object = self.state.note
-        self._note.visible = bool(self.state.note) and not mine
+        self._note.visible = bool(self.state.note) and not mine and noted
 
     def __panel__(self):
         return pn.Column(self._error, self._note, margin=0)
@@ -345,7 +370,7 @@ class GraphView(pn.viewable.Viewer):
         verdict = state.verdict()
         adjust = sc.strategy(state.selected_strategy).adjust if state.selected_strategy else ()
         self.pane.object = figures.graph_figure(
-            sc, report.roles if report else None, verdict, adjust=adjust, width=600, height=360
+            sc, report.roles if report else None, verdict, adjust=adjust, width=700, height=370
         )
         self._syncing = True
         try:
@@ -425,11 +450,17 @@ class VariablesEditor(pn.viewable.Viewer):
                 "noise_sd": {"type": "number", "step": 0.1},
                 "baseline": {"type": "number", "step": 0.1},
                 "proportion": {"type": "number", "step": 0.05, "min": 0, "max": 1},
-                "observed": {"type": "tickCross"},
+                "observed": None,  # one click toggles it (see _clicked); an editor would need three
                 "label": {"type": "input"},
             },
-            formatters={"observed": {"type": "tickCross"}},
-            titles={"noise_sd": "noise SD", "observed": "observed"},
+            formatters={
+                "observed": {"type": "tickCross"},
+                **{
+                    key: NumberFormatter(format="0.[0000]", nan_format="-", null_format="-")
+                    for key in ("noise_sd", "baseline", "proportion")
+                },
+            },
+            titles={"noise_sd": "noise SD", "observed": "observed (click)"},
             buttons={"remove": "<span title='delete this variable'>✕</span>"},
             css_classes=["wb-variables"],
             max_height=300,
@@ -488,8 +519,14 @@ class VariablesEditor(pn.viewable.Viewer):
         self.state.set_variable(name, event.column, value)
 
     def _clicked(self, event):
-        if event.column == "remove" and event.row < len(self.state.scenario.variables):
-            self.state.remove_variable(self.state.scenario.variables[event.row].name)
+        variables = self.state.scenario.variables
+        if event.row is None or event.row >= len(variables):
+            return
+        if event.column == "remove":
+            self.state.remove_variable(variables[event.row].name)
+        elif event.column == "observed":
+            variable = variables[event.row]
+            self.state.set_variable(variable.name, "observed", not variable.observed)
 
     def _add(self, _event):
         if self.state.add_variable(self.new_name.value, self.new_type.value):
@@ -674,6 +711,7 @@ class StrategiesEditor(pn.viewable.Viewer):
         state = self.state
         sc = state.scenario
         binary = sc.outcome.is_binary
+        fields = strategy_fields()
         signature = (
             repr(state.strategy_rows()),
             tuple(state.adjustable),
@@ -692,16 +730,17 @@ class StrategiesEditor(pn.viewable.Viewer):
                 lambda e, name=name: e.new != name and state.set_strategy(name, new_name=e.new), "value"
             )
             options = state.adjustable
+            selected = row.get("selection")
             adjust = pn.widgets.MultiChoice(
                 value=[v for v in row["adjust"] if v in options],
                 options=options,
-                width=260,
-                placeholder="adjust for nothing",
+                width=250,
+                placeholder="candidates to choose from" if selected else "adjust for nothing",
                 css_classes=["wb-strategy-adjust"],
             )
             adjust.param.watch(lambda e, name=name: state.set_strategy(name, adjust=e.new), "value")
             model = pn.widgets.Select(
-                value=row["model"], options=["ols", "logit"] if binary else ["ols"], width=80
+                value=row["model"], options=["ols", "logit"] if binary else ["ols"], width=70
             )
             model.param.watch(lambda e, name=name: state.set_strategy(name, model=e.new), "value")
             standardize = _widget(
@@ -709,11 +748,34 @@ class StrategiesEditor(pn.viewable.Viewer):
                 "standardise",
                 value=row["standardize"],
                 disabled=row["model"] != "logit",
-                width=100,
+                width=95,
             )
             standardize.param.watch(lambda e, name=name: state.set_strategy(name, standardize=e.new), "value")
-            remove = _widget(pn.widgets.Button, "Remove", width=80, button_type="light")
+            controls = [title, adjust, model, standardize]
+            if "selection" in fields:
+                rule = pn.widgets.Select(
+                    value=selected or "fixed",
+                    options=dict(_SELECTION_CHOICES),
+                    width=175,
+                    disabled=binary or row["model"] != "ols",
+                    css_classes=["wb-strategy-selection"],
+                )
+                rule.param.watch(lambda e, name=name: state.set_strategy(name, selection=e.new), "value")
+                controls.append(rule)
+            if "restrict" in fields:
+                restrict = pn.widgets.TextInput(
+                    value=restrict_text(row.get("restrict")),
+                    placeholder="keep only: e.g. shift = 0",
+                    width=165,
+                    css_classes=["wb-strategy-restrict"],
+                )
+                restrict.param.watch(
+                    lambda e, name=name: e.new != e.old and state.set_strategy(name, restrict=e.new), "value"
+                )
+                controls.append(restrict)
+            remove = _widget(pn.widgets.Button, "Remove", width=75, button_type="light")
             remove.on_click(lambda e, name=name: state.remove_strategy(name))
+            controls.append(remove)
             valid = row["valid"]
             badge = (
                 "<b style='color:#00603F'>valid</b>"
@@ -722,20 +784,20 @@ class StrategiesEditor(pn.viewable.Viewer):
                 if valid is not None
                 else ""
             )
-            reasons = "; ".join(row["reasons"])
+            reasons = html.escape("; ".join(row["reasons"]))
             verdict = pn.pane.HTML(
-                f"<div style='font-size:12px;line-height:1.35'>{badge} {reasons}</div>", width=300
+                f"<div style='font-size:12px;line-height:1.35;color:#333'>{badge} {reasons}</div>",
+                sizing_mode="stretch_width",
+                margin=(0, 10, 4, 12),
+                css_classes=["wb-strategy-verdict"],
             )
             widgets.append(
-                pn.Row(
-                    title,
-                    adjust,
-                    model,
-                    standardize,
+                pn.Column(
+                    pn.Row(*controls, margin=0),
                     verdict,
-                    remove,
                     styles={"border-bottom": "1px solid #e3e3e3"},
                     margin=(2, 0),
+                    width=_MAIN_WIDTH - 40,
                 )
             )
         self.rows.objects = widgets
@@ -749,9 +811,16 @@ class StrategiesEditor(pn.viewable.Viewer):
             )
 
     def __panel__(self):
+        fields = strategy_fields()
+        parts = ["name", "adjustment set", "model"]
+        if "selection" in fields:
+            parts.append("how the set is chosen")
+        if "restrict" in fields:
+            parts.append("analyse only units with (restriction)")
         header = pn.pane.HTML(
-            "<div style='font-size:12px;color:#444'>name &nbsp;&middot;&nbsp; adjustment set &nbsp;&middot;&nbsp; "
-            "model &nbsp;&middot;&nbsp; verdict and reasons</div>"
+            "<div style='font-size:12px;color:#444'>"
+            + " &nbsp;&middot;&nbsp; ".join(parts)
+            + "; below each: its verdict and the reasons</div>"
         )
         return pn.Column(
             header,
@@ -822,6 +891,43 @@ def _result_header(wb: Workbench, job, result) -> str:
     return stale
 
 
+class JobProgress(pn.viewable.Viewer):
+    """A job's progress bar and message, shown inside a result tab while the job runs (so a long run, such
+    as a sample-size plan with a binary outcome, is visible where its results will appear)."""
+
+    job = param.Parameter(doc="The BackgroundJob to follow.")
+    css_class = param.String(default="wb-job-progress")
+
+    def __init__(self, **params):
+        super().__init__(**params)
+        self._bar = pn.indicators.Progress(value=0, max=100, width=420, height=14, bar_color="primary")
+        self._text = pn.pane.HTML("", margin=(0, 8), styles={"font-size": "13px", "color": "#333"})
+        self._box = pn.Row(
+            self._text,
+            self._bar,
+            visible=False,
+            css_classes=[self.css_class],
+            styles={"background": "#e8f1fb", "border-radius": "4px", "padding": "2px 6px"},
+            margin=(2, 5, 6, 5),
+        )
+        self.job.param.watch(self._update, ["status", "progress", "message"])
+        self._update()
+
+    def _update(self, *_):
+        job = self.job
+        running = job.status == "running"
+        self._box.visible = running
+        if running:
+            self._bar.value = int(round(100 * job.progress))
+            self._text.object = (
+                f"<b>{html.escape(job.label.capitalize())} running</b> "
+                f"({html.escape(job.message.split(': ', 1)[-1])}); Cancel is in the sidebar."
+            )
+
+    def __panel__(self):
+        return self._box
+
+
 class _TabView(pn.viewable.Viewer):
     """A view that rebuilds its figures only while its tab is shown; changes made while hidden wait."""
 
@@ -840,6 +946,18 @@ class _TabView(pn.viewable.Viewer):
 
     @param.depends("active", watch=True)
     def _catch_up(self) -> None:
+        if not self.active or not self._waiting:
+            return
+        doc = pn.state.curdoc
+        if doc is not None and doc.session_context is not None:
+            # Rebuild on the next tick, not inside the browser's tab-change event: Bokeh does not send a
+            # layout's new children back to the browser while it is handling that event, so the tab would
+            # keep showing the figures of an earlier scenario.
+            doc.add_next_tick_callback(self._apply_waiting)
+        else:
+            self._apply_waiting()
+
+    def _apply_waiting(self) -> None:
         if self.active:
             waiting, self._waiting = self._waiting, {}
             for update in waiting.values():
@@ -939,7 +1057,11 @@ class EstimatesView(_TabView):
         ]
 
     def __panel__(self):
-        return self.body
+        return pn.Column(
+            JobProgress(job=self.workbench.simulation, css_class="wb-simulation-progress"),
+            self.body,
+            margin=0,
+        )
 
 
 class SampleSizeView(_TabView):
@@ -1054,8 +1176,12 @@ class SampleSizeView(_TabView):
         if also is not None and len(also):
             objects.append(pn.pane.Markdown("### Separating the effects", margin=(10, 10, 0, 10)))
             objects.append(
-                pn.pane.Bokeh(
-                    figures.separation_figure(also, result.table, width=530), css_classes=["wb-separation"]
+                pn.Row(
+                    *[
+                        pn.pane.Bokeh(f)
+                        for f in figures.separation_figure(also, result.table, width=530, grid=False)
+                    ],
+                    css_classes=["wb-separation"],
                 )
             )
             also_n = getattr(result, "also_smallest_n", None)
@@ -1066,7 +1192,11 @@ class SampleSizeView(_TabView):
     def __panel__(self):
         settings = pn.Row(self.sizes, self.target_power, self.target_halfwidth, margin=(0, 0, 4, 0))
         return pn.Column(
-            settings, ErrorBox(state=self.workbench.scenario_state, sections=["plan"]), self.body, margin=0
+            settings,
+            ErrorBox(state=self.workbench.scenario_state, sections=["plan"]),
+            JobProgress(job=self.workbench.planning, css_class="wb-plan-progress"),
+            self.body,
+            margin=0,
         )
 
 
@@ -1184,6 +1314,9 @@ class ExportView(pn.viewable.Viewer):
             embed=False,
             width=320,
             css_classes=["wb-export-html"],
+            # Panel 1.9 renders a FileDownload with the default colour whatever its button_type: paint the
+            # main action in the primary colour ourselves
+            stylesheets=[_PRIMARY_BUTTON_CSS],
         )
         self.performance = _widget(
             pn.widgets.FileDownload,
