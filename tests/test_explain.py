@@ -103,6 +103,8 @@ def test_a_set_chosen_by_significance_is_judged_by_how_often_it_was_valid():
     story = stories["select_by_p_value"]
     assert f"in {share:.0%} of the simulated studies the chosen set was valid" in story.text()
     assert story.recommendation.startswith("Not recommended")
+    assert story.valid and story.usable is False  # drawn as a warning, not as a valid strategy
+    assert before["select_by_p_value"].usable is None
     assert not stories["adjust_complexity"].recommendation.startswith("Not recommended")
 
 

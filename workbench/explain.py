@@ -59,6 +59,23 @@ class Story:
     paragraphs: list[str] = field(default_factory=list)
     recommendation: str = ""
 
+    @property
+    def usable(self) -> bool | None:
+        """Whether the story recommends using the strategy: True (recommended or valid), False (not
+        recommended), None (it depends on a run not made yet). Views colour a story by this, not by the
+        graph verdict alone: a valid candidate set chosen by p-value can still be a bad strategy.
+
+        Examples
+        --------
+        >>> Story("a", True, "a", recommendation="Not recommended: ...").usable
+        False
+        """
+        if self.recommendation.startswith("Not recommended"):
+            return False
+        if self.recommendation.startswith("Depends"):
+            return None
+        return self.valid
+
     def text(self) -> str:
         """The story as plain text."""
         return "\n".join([self.title, *self.paragraphs, self.recommendation])

@@ -189,7 +189,7 @@ def build_report(
 
     parts.append("<h2>What each strategy does</h2>")
     for story in explain(report, result):
-        kind = "valid" if story.valid else "invalid"
+        kind = {True: "valid", False: "invalid"}.get(story.usable, "depends")
         parts.append(f"<div class='story {kind}'><h3>{html.escape(story.title)}</h3>{story.html()}</div>")
 
     if dataset is not None:

@@ -18,7 +18,7 @@ from pathlib import Path
 
 import pytest
 
-from workbench.presets import list_presets, load_preset
+from workbench.presets import list_presets, load_preset, preset_text
 from workbench.simulate import simulate
 
 pytestmark = pytest.mark.browser
@@ -186,6 +186,24 @@ def test_a_bad_name_shows_its_error_next_to_the_table_and_keeps_the_text(page):
     page.wait_for_text(".wb-truth", "True effect under this graph: 0.5")
     page.screenshot("08_edit_error")
     _editor_tab(page, "Arrows")
+
+
+def test_a_good_upload_and_the_question_selectors(page):
+    title = load_preset("mediator").title
+    page.page.locator(".wb-upload input[type=file]").set_input_files(
+        files=[
+            {"name": "mine.toml", "mimeType": "application/toml", "buffer": preset_text("mediator").encode()}
+        ]
+    )
+    page.wait_for_text(".wb-header", title)
+    _tab(page, "Graph")
+    page.wait_for_text(".wb-truth", "True effect under this graph: 1.3")
+    page.page.locator(".wb-target select").select_option("direct")
+    page.wait_for_text(".wb-truth", "True effect under this graph: 0.5")
+    page.page.locator(".wb-target select").select_option("total")
+    page.wait_for_text(".wb-truth", "True effect under this graph: 1.3")
+    _pick_preset(page, "common_cause")
+    page.wait_for_text(".wb-truth", "0.25")
 
 
 def test_a_long_run_can_be_cancelled(page):

@@ -59,7 +59,7 @@ class App(pn.viewable.Viewer):
             ("Scenario text (TOML)", TomlEditor(state=state)),
             css_classes=["wb-editor-tabs"],
             margin=(6, 0),
-            dynamic=True,
+            dynamic=False,
         )
         graph_tab = pn.Column(GraphView(state=state), editors, margin=(6, 10))
         self.result_views = {
@@ -74,7 +74,7 @@ class App(pn.viewable.Viewer):
             ("Explain", pn.Column(self.result_views[3], margin=(6, 10))),
             ("Export", pn.Column(ExportView(workbench=wb), margin=(6, 10))),
             css_classes=["wb-tabs"],
-            dynamic=True,
+            dynamic=False,
             margin=(0, 6),
         )
         self.tabs.param.watch(self._tab_shown, "active")

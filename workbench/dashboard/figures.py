@@ -1155,19 +1155,12 @@ def dataset_scatter(
         c = data[covariate].to_numpy(dtype=float)
         source["c"] = c
         if _is_binary(data[covariate]):
+            items = []
             for value, colour in ((0, "#0072B2"), (1, "#D55E00")):
                 chosen = ColumnDataSource({k: np.asarray(v)[c == value] for k, v in source.items()})
-                fig.scatter(
-                    "x",
-                    "y",
-                    source=chosen,
-                    color=colour,
-                    size=5,
-                    alpha=0.6,
-                    legend_label=f"{covariate} = {value}",
-                )
-            fig.legend.label_text_font_size = _FONT
-            fig.legend.location = "top_left"
+                dots = fig.scatter("x", "y", source=chosen, color=colour, size=5, alpha=0.6)
+                items.append(LegendItem(label=f"{covariate} = {value}", renderers=[dots]))
+            _legend_above(fig, items)  # above the plot: a legend inside would cover points
         else:
             mapper = LinearColorMapper(palette=Cividis256, low=float(np.nanmin(c)), high=float(np.nanmax(c)))
             fig.scatter(

@@ -49,6 +49,8 @@ table.wb { border-collapse: collapse; font-family: system-ui, -apple-system, "Se
 table.wb th { text-align: right; padding: 4px 7px; border-bottom: 2px solid #333; font-weight: 600;
   background: #f4f4f4; white-space: normal; vertical-align: bottom; max-width: 96px; }
 table.wb th:first-child, table.wb td:first-child, table.wb th.text { text-align: left; }
+table.wb th.text { min-width: 48px; padding-left: 12px; }
+table.wb td.text { padding-left: 12px; }
 table.wb td { text-align: right; padding: 3px 7px; vertical-align: top; border-bottom: 1px solid #ddd;
   white-space: nowrap; font-variant-numeric: tabular-nums; }
 table.wb td.text { text-align: left; white-space: normal; }
@@ -435,7 +437,7 @@ def strategies_table(rows: list[dict], *, table_id: str = "verdicts") -> str:
     """
     out = []
     for r in rows:
-        adjust = ", ".join(r.get("adjust") or []) or "nothing"
+        adjust = strategy_text(r.get("adjust") or [], r.get("selection"), r.get("restrict"))
         reasons = "<br>".join(html.escape(x) for x in (r.get("reasons") or []))
         notes = "<br>".join(html.escape(x) for x in (r.get("notes") or []))
         model = r.get("model", "ols") + (" (standardised)" if r.get("standardize") else "")

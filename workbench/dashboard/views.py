@@ -154,7 +154,9 @@ class Sidebar(pn.viewable.Viewer):
             css_classes=["wb-preset"],
             width=_SIDEBAR_WIDTH - 20,
         )
-        self.preset.param.watch(lambda e: setattr(state, "preset", e.new), "value")
+        self._presets = {f"{t} ({n})": n for n, t in presets.items()}
+        self.preset.param.watch(self._preset_chosen, "value")
+        state.param.watch(self._source_changed, "source")
         self.upload = pn.widgets.FileInput(
             accept=".toml", multiple=False, css_classes=["wb-upload"], width=_SIDEBAR_WIDTH - 20
         )
@@ -236,6 +238,30 @@ class Sidebar(pn.viewable.Viewer):
         for job in (wb.simulation, wb.planning):
             job.param.watch(self._job_changed, ["status", "progress", "message"])
         self._job_changed()
+
+    _syncing = False
+
+    def _preset_chosen(self, event):
+        if not event.new or self._syncing:
+            return  # the "(opened file)" entry, or the list being rewritten
+        state = self.workbench.scenario_state
+        if state.preset != event.new:
+            state.preset = event.new
+        else:  # the same preset again, after a file was opened: load it anew
+            state.load_preset(event.new)
+
+    def _source_changed(self, *_):
+        """After a file is opened the preset list says so; choosing any preset (even the one shown before)
+        then loads it."""
+        state = self.workbench.scenario_state
+        self._syncing = True
+        try:
+            if state.source == "upload":
+                self.preset.param.update(options={"(the opened file)": "", **self._presets}, value="")
+            elif state.source == "preset" and "" in self.preset.options.values():
+                self.preset.param.update(options=dict(self._presets), value=state.preset)
+        finally:
+            self._syncing = False
 
     def _uploaded(self, event):
         if event.new is None:
@@ -565,7 +591,9 @@ class ArrowsEditor(pn.viewable.Viewer):
         self.table.on_click(self._clicked)
         names = self.state.scenario.names
         self.new_from = pn.widgets.Select(options=names, width=150, css_classes=["wb-new-from"])
-        self.new_to = pn.widgets.Select(options=names, width=150, css_classes=["wb-new-to"])
+        self.new_to = pn.widgets.Select(
+            options=names, value=names[-1] if names else None, width=150, css_classes=["wb-new-to"]
+        )
         self.new_effect = pn.widgets.FloatInput(value=0.5, step=0.1, width=90)
         self.add = _widget(pn.widgets.Button, "Add arrow", width=110, css_classes=["wb-add-arrow"])
         self.add.on_click(
@@ -610,7 +638,7 @@ class ArrowsEditor(pn.viewable.Viewer):
         if names != self.new_from.options:
             self.table.editors = self._editors()
             self.new_from.options = names
-            self.new_to.options = names
+            self.new_to.param.update(options=names, value=names[-1] if names else None)
         frame = self._frame()
         if not frame.equals(self.table.value):
             self.table.value = frame
@@ -1216,8 +1244,9 @@ class ExplainView(_TabView):
         wb.simulation.param.watch(lambda *_: self._when_shown(self._refresh_stories), ["result"])
         wb.scenario_state.param.watch(lambda *_: self._when_shown(self._refresh_stories), ["report"])
         wb.sample.param.watch(lambda *_: self._when_shown(self._refresh_plots), ["data", "covariate"])
-        self._refresh_stories()
-        self._refresh_plots()
+        # drawn when the tab is first shown: the first page load does not wait for these figures
+        self._when_shown(self._refresh_stories)
+        self._when_shown(self._refresh_plots)
 
     def _covariate_chosen(self, event):
         if event.new is not None and event.new != self.workbench.sample.covariate:
@@ -1235,7 +1264,7 @@ class ExplainView(_TabView):
         stories = explain(report, result)
         cards = []
         for story in stories:
-            colour = "#00603F" if story.valid else "#A33C00"
+            colour = {True: "#00603F", False: "#A33C00"}.get(story.usable, "#999999")
             cards.append(
                 pn.pane.HTML(
                     f"<div style='border-left:4px solid {colour};padding:4px 12px;margin:4px 0;font-size:13px;"
