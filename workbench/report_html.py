@@ -114,6 +114,15 @@ def build_report(
     -------
     str
         A complete HTML document with Bokeh's scripts inlined.
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> from workbench.simulate import simulate
+    >>> sc = load_preset("common_cause")
+    >>> html = build_report(sc, result=simulate(sc, replicates=200, seed=1))
+    >>> html.lstrip().lower().startswith("<!doctype html>"), "adjust_soil" in html
+    (True, True)
     """
     if report is None:
         from .check import check

@@ -92,7 +92,12 @@ def serve(preset: str | None = None, port: int = 5006, address: str = "127.0.0.1
 
 
 def main(argv: list[str] | None = None) -> int:
-    """``python -m workbench.dashboard.serve [--preset NAME] [--port 5006] [--address 127.0.0.1] [--no-show]``"""
+    """``python -m workbench.dashboard.serve [--preset NAME] [--port 5006] [--address 127.0.0.1] [--no-show]``
+
+    Examples
+    --------
+    >>> main(["--port", "0"])  # doctest: +SKIP
+    """
     from ..errors import WorkbenchError
 
     parser = argparse.ArgumentParser(

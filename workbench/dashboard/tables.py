@@ -282,6 +282,20 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
         ``SimulationResult.table``.
     alpha : float
         The study's alpha; nominal coverage is 1 - alpha.
+
+    Returns
+    -------
+    str
+        An HTML table.
+
+    Examples
+    --------
+    >>> from workbench.presets import load_preset
+    >>> from workbench.simulate import simulate
+    >>> result = simulate(load_preset("common_cause"), replicates=300, seed=1)
+    >>> html = performance_table(result.table, alpha=0.05)
+    >>> html.startswith("<table"), "flag" in html  # the unadjusted bias is flagged
+    (True, True)
     """
     scored = (
         "truth" in table
