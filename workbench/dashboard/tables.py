@@ -68,6 +68,16 @@ _TEXT_HEAD = {
 }
 
 
+def _html_table(table_id: str, head, rows: list[str]) -> str:
+    """A ``<table class="wb">`` with the column names ``head`` and the ``<tr>`` strings ``rows``."""
+    header = "".join(f"<th{_TEXT_HEAD.get(h, '')}>{html.escape(h)}</th>" for h in head)
+    return (
+        f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
+        + "".join(rows)
+        + "</tbody></table>"
+    )
+
+
 def fmt(value: Any, digits: int = 3) -> str:
     """A number for a table: fixed decimals, '-' for missing.
 
@@ -393,12 +403,7 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
         if isinstance(reasons, dict) and reasons:
             text = ", ".join(f"{k}: {v}" for k, v in reasons.items())
             notes.append(f"<li><b>{html.escape(name)}</b> failed fits: {html.escape(text)}</li>")
-    header = "".join(f"<th{_TEXT_HEAD.get(h, '')}>{html.escape(h)}</th>" for h in head)
-    out = (
-        f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
-        + "".join(rows)
-        + "</tbody></table>"
-    )
+    out = _html_table(table_id, head, rows)
     if notes:
         out += f'<ul class="wb-notes" style="font-size:12px;margin:2px 0 6px 0">{"".join(notes)}</ul>'
     return out
@@ -432,12 +437,7 @@ def signals_table(table: pd.DataFrame, *, table_id: str = "signals") -> str:
             _cell(name, "vif", _get(r, "vif"), digits=2),
         ]
         rows.append("<tr>" + "".join(cells) + "</tr>")
-    header = "".join(f"<th{_TEXT_HEAD.get(h, '')}>{html.escape(h)}</th>" for h in head)
-    return (
-        f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
-        + "".join(rows)
-        + "</tbody></table>"
-    )
+    return _html_table(table_id, head, rows)
 
 
 def strategies_table(rows: list[dict], *, table_id: str = "verdicts") -> str:
@@ -460,14 +460,7 @@ def strategies_table(rows: list[dict], *, table_id: str = "verdicts") -> str:
             f'<td class="text"><div>{html.escape(adjust)}</div></td><td>{html.escape(model)}</td>'
             f'<td class="text"><div>{reasons}{"<br><i>" + notes + "</i>" if notes else ""}</div></td></tr>'
         )
-    header = "".join(
-        f"<th{_TEXT_HEAD.get(h, '')}>{h}</th>" for h in ("strategy", "verdict", "adjusts for", "model", "why")
-    )
-    return (
-        f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
-        + "".join(out)
-        + "</tbody></table>"
-    )
+    return _html_table(table_id, ("strategy", "verdict", "adjusts for", "model", "why"), out)
 
 
 def smallest_n_table(smallest: pd.DataFrame, *, table_id: str = "smallest-n") -> str:
@@ -491,20 +484,16 @@ def smallest_n_table(smallest: pd.DataFrame, *, table_id: str = "smallest-n") ->
             f'<td class="text"><div>{html.escape(str(_get(r, "note") or ""))}</div></td>',
         ]
         out.append("<tr>" + "".join(cells) + "</tr>")
-    header = "".join(
-        f"<th{_TEXT_HEAD.get(h, '')}>{h}</th>"
-        for h in (
+    return _html_table(
+        table_id,
+        (
             "strategy",
             "verdict",
             "smallest n for target power",
             "smallest n for target half-width",
             "note",
-        )
-    )
-    return (
-        f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
-        + "".join(out)
-        + "</tbody></table>"
+        ),
+        out,
     )
 
 
@@ -531,19 +520,15 @@ def also_smallest_n_table(smallest: pd.DataFrame, *, table_id: str = "also-small
             f'<td class="text"><div>{html.escape(str(_get(r, "note") or ""))}</div></td>',
         ]
         out.append("<tr>" + "".join(cells) + "</tr>")
-    header = "".join(
-        f"<th{_TEXT_HEAD.get(h, '')}>{h}</th>"
-        for h in (
+    return _html_table(
+        table_id,
+        (
             "strategy",
             "further effect of",
             "verdict",
             "smallest n for target power",
             "analytic approximation",
             "note",
-        )
-    )
-    return (
-        f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
-        + "".join(out)
-        + "</tbody></table>"
+        ),
+        out,
     )
