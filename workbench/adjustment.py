@@ -509,10 +509,15 @@ SELECTION_REASON = (
 
 
 def judge_strategy(scenario: Scenario, strategy: Strategy) -> Verdict:
-    """The verdict on a whole strategy: its adjustment set, any restriction and any selection rule.
+    """The verdict on a whole strategy: its adjustment set, any restriction, matching and selection rule.
 
     * Restricted variables are conditioned on: they join the adjustment set for d-separation. Restricting a
       continuous variable to a band only approximately conditions on it, which the reasons say.
+    * Variables matched on exactly are conditioned on too when the model has no other covariate or also
+      adjusts for them: matching balances them between exposure groups by design (Rosenbaum & Rubin 1983,
+      from memory, for the balancing idea). The balance is marginal only: within levels of another adjusted
+      covariate that is related to the exposure a matched variable is no longer balanced (the pairs were
+      chosen by exposure), so a matched variable left out of a non-empty ``adjust`` does not count.
     * With a selection rule the set is chosen from the data in each study; the verdict is that of the full
       candidate set, with a reason saying so (the simulation reports the share of studies whose chosen set
       is valid).
@@ -530,6 +535,9 @@ def judge_strategy(scenario: Scenario, strategy: Strategy) -> Verdict:
     ----------
     Pearl J. (2009). Causality, 2nd ed., Def. 3.3.1 (conditioning by restriction blocks paths as adjustment
     does).
+    Rosenbaum P.R., Rubin D.B. (1983). The central role of the propensity score in observational studies for
+    causal effects. Biometrika 70(1):41-55 (from memory: balancing scores, of which the matched covariates
+    themselves are the finest).
     Mickey R.M., Greenland S. (1989). American Journal of Epidemiology 129(1):125-137.
 
     Examples
@@ -542,6 +550,9 @@ def judge_strategy(scenario: Scenario, strategy: Strategy) -> Verdict:
     """
     adjust = tuple(strategy.adjust)
     exact = adjust + tuple(n for n, v in strategy.restrict if not isinstance(v, tuple) and n not in adjust)
+    balanced = [n for n in strategy.match if not adjust or n in adjust]
+    unbalanced = [n for n in strategy.match if n not in balanced]
+    exact += tuple(n for n in balanced if n not in exact)
     bands = [n for n, v in strategy.restrict if isinstance(v, tuple) and n not in exact]
     verdict = judge(scenario, exact + tuple(bands))
     valid = verdict.valid
@@ -562,6 +573,13 @@ def judge_strategy(scenario: Scenario, strategy: Strategy) -> Verdict:
     for name, value in strategy.restrict:
         if not isinstance(value, tuple):
             reasons.append(f"restricting to {name} = {value} conditions on {name} by design")
+    for name in balanced:
+        reasons.append(f"matching on {name} balances it between exposure groups by design")
+    for name in unbalanced:
+        reasons.append(
+            f"matching on {name} balances it only marginally: within levels of {', '.join(adjust)} it is not "
+            f"balanced, so it counts as conditioned on only if 'adjust' includes it too"
+        )
     if strategy.selection is not None:
         reasons.append(SELECTION_REASON)
     return Verdict(valid, reasons, verdict.notes, verdict.open_paths, verdict.blocked_paths)

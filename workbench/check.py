@@ -119,6 +119,8 @@ class CheckReport:
                     if isinstance(value, list)
                     else f"; restricted to {name} = {value}"
                 )
+            if s.get("match"):
+                how += f"; matched on {', '.join(s['match'])}"
             lines.append(f"  {verdict} {s['name']} (model {s['model']}; {how})")
             for reason in s["reasons"]:
                 lines.append(f"            - {reason}")
@@ -189,7 +191,7 @@ def large_sample_rows(scenario: Scenario) -> dict[str, dict[str, float]]:
     q = scenario.question
     out = {}
     for s in scenario.strategies:
-        if s.restrict:  # a restricted (truncated) sample has no closed form here
+        if s.restrict or s.match:  # a restricted (truncated) or matched sample has no closed form here
             continue
         adjust = large_sample_selection(scenario, s, sigma) if s.selection else tuple(s.adjust)
         fit = linear.population_regression(sigma, scenario.names, q.outcome, [q.exposure, *adjust])
@@ -347,6 +349,7 @@ def check(scenario: Scenario) -> CheckReport:
                 "standardize": s.standardize,
                 "selection": s.selection,
                 "restrict": {name: list(v) if isinstance(v, tuple) else v for name, v in s.restrict},
+                "match": list(s.match),
                 "large_sample_selected": (
                     list(ls["selected"]) if ls and ls.get("selected") is not None else None
                 ),

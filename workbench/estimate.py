@@ -106,7 +106,9 @@ def estimate(scenario: Scenario, data: pd.DataFrame, alpha: float | None = None)
     -----
     A strategy with ``selection`` applies its rule to these data exactly as the simulation does in each
     study (:func:`workbench.ols.select_covariates`) and reports the final model's naive SE and interval.
-    A strategy with ``restrict`` keeps only the rows inside the restriction.
+    A strategy with ``restrict`` keeps only the rows inside the restriction. A strategy with ``match`` then
+    keeps, within each stratum of the matched variables, the first ``min(exposed, unexposed)`` exposed and
+    unexposed rows in row order (the simulation's rule, ``docs/scenario-format.md``); ``n`` counts them.
 
     Raises
     ------
@@ -134,7 +136,7 @@ def estimate(scenario: Scenario, data: pd.DataFrame, alpha: float | None = None)
     q = scenario.question
     binary_outcome = scenario.outcome.is_binary
     needed = [q.exposure, q.outcome] + sorted(
-        {v for s in scenario.strategies for v in (*s.adjust, *s.restricted)}
+        {v for s in scenario.strategies for v in (*s.adjust, *s.restricted, *s.match)}
     )
     columns = {name: _column(data, name, scenario.variable(name).is_binary) for name in needed}
     rows = []
@@ -142,7 +144,9 @@ def estimate(scenario: Scenario, data: pd.DataFrame, alpha: float | None = None)
         kind = model_kind(s, binary_outcome)
         target = estimand(kind, scenario, s.adjust)[0]
         keep = _restriction_rows(columns, s.restrict, len(data))
-        used = {v: values[keep] for v, values in columns.items()} if s.restrict else columns
+        if s.match:
+            keep = _matched_rows(columns, q.exposure, s.match, keep)
+        used = {v: values[keep] for v, values in columns.items()} if s.restrict or s.match else columns
         n = int(keep.sum())
         failure = None
         adjusted_for = tuple(s.adjust)
@@ -215,6 +219,15 @@ def _restriction_rows(columns: dict, restrict, n: int) -> np.ndarray:
         else:
             keep &= columns[name] == value
     return keep
+
+
+def _matched_rows(columns: dict, exposure: str, match, keep: np.ndarray) -> np.ndarray:
+    """The rows among ``keep`` that exact 1:1 matching on ``match`` retains (the simulation's rule)."""
+    from .simulate import _matching_mask
+
+    names = [exposure, *match]
+    data = np.stack([columns[v] for v in names])[None]
+    return _matching_mask(data, 0, tuple(range(1, len(names))), keep[None])[0]
 
 
 def _select(columns: dict, exposure: str, outcome: str, strategy, alpha: float):

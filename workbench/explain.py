@@ -228,6 +228,9 @@ def explain(report: CheckReport, result=None) -> list[Story]:
             title = f"{name}: adjusts for {_sets(adjust)} ({verdict})"
         if restrict:
             title = title.replace(f" ({verdict})", f", only units with {_restriction(restrict)} ({verdict})")
+        match = [str(m) for m in s.get("match") or []]
+        if match:
+            title = title.replace(f" ({verdict})", f", matched on {', '.join(match)} ({verdict})")
         paragraphs = []
         model = s.get("model", "ols")
         what = {
@@ -247,7 +250,9 @@ def explain(report: CheckReport, result=None) -> list[Story]:
                 + (
                     f" and {_sets(adjust)}"
                     if adjust
-                    else (" alone, within the units kept" if restrict else " alone, the raw comparison")
+                    else (
+                        " alone, within the units kept" if restrict or match else " alone, the raw comparison"
+                    )
                 )
                 + "."
             )
@@ -260,6 +265,12 @@ def explain(report: CheckReport, result=None) -> list[Story]:
                     else "those variables much as adjusting for them"
                 )
                 + " would."
+            )
+        if match:
+            paragraphs.append(
+                f"It first pairs each unit with {q.exposure} = 1 with one with {q.exposure} = 0 and the same "
+                f"{', '.join(match)}, and drops the units left unpaired: this balances the matched variables "
+                "between the groups by design."
             )
         open_noncausal = [p.text for p in s["open_paths"] if not p.causal]
         blocked_noncausal = [p.text for p in s["blocked_paths"] if not p.causal]
@@ -296,7 +307,7 @@ def explain(report: CheckReport, result=None) -> list[Story]:
                 f"of n = {scenario.study.n} it may keep another set: run the simulation to see how often."
             )
         kept = _number(row.get("mean_retained_n")) if row is not None else None
-        if restrict and kept is not None:
+        if (restrict or match) and kept is not None:
             n_run = getattr(result, "n", scenario.study.n)
             paragraphs.append(f"On average {kept:.0f} of the {n_run:,} units were kept.")
         if row is not None:

@@ -7,8 +7,11 @@ converged (or failed) is frozen and drops out of the work of later iterations.
 
 Fitting
     Newton-Raphson on the log-likelihood, which for the logit link is the same as iteratively reweighted
-    least squares (McCullagh & Nelder 1989, sec. 4.4). It starts from the intercept-only fit (intercept
-    ``logit(mean y)``, slopes 0) when the first column is all ones and both outcomes occur, else from zero.
+    least squares (McCullagh & Nelder 1989, sec. 4.4). When the first column is all ones and both outcomes
+    occur it starts from one reweighted least-squares step from the linear probability fit (its fitted
+    values clipped to [0.02, 0.98]), provided that point has a higher log-likelihood than the intercept-only
+    fit (intercept ``logit(mean y)``, slopes 0), and from the intercept-only fit otherwise; elsewhere from
+    zero. The start only saves iterations (about two of six); the estimates are the same optimum either way.
     Each iteration solves the Newton system after scaling the information matrix to unit diagonal
     (equilibration); when a step would move some linear predictor by more than 1 (a bound from the column
     maxima), the step is halved while the log-likelihood would fall. Iteration stops when half the Newton
@@ -106,6 +109,7 @@ _CERTIFICATE_SLACK = 1e-6  # relative slack in the separation inequalities
 _SINGULAR = 1e-12  # smallest eigenvalue of the unit-diagonal information matrix below this: singular
 _HALVINGS = 30
 _CACHE_BYTES = 6 * 2**20  # working set of one block of replicates (tuned on a 2-CPU EPYC)
+_START_CLIP = 0.02  # linear-probability fitted values clipped to [0.02, 0.98] for the start (tuned)
 _EXTREME_ETA = 18.0  # |eta| beyond this puts a fitted probability within about 1.5e-8 of 0 or 1
 
 
@@ -229,14 +233,70 @@ class _Products:
         np.subtract(1.0, mu, out=residual)
         weights = mu
         weights *= residual
+        return score, self.information(Xt, weights, rows)
+
+    def information(self, Xt, weights, rows=None):
+        """``X' diag(weights) X``, shape (B, p, p), for the replicates ``rows`` (all when None)."""
         if self.pairs is None:
-            return score, np.matmul(Xt * weights[:, None, :], np.swapaxes(Xt, 1, 2))
+            return np.matmul(Xt * weights[:, None, :], np.swapaxes(Xt, 1, 2))
         pairs = self.pairs if rows is None else self.pairs[rows]
         values = np.matmul(pairs, weights[..., None])[..., 0]
         info = np.empty((len(values), self.p, self.p))
         info[:, self.upper[0], self.upper[1]] = values
         info[:, self.upper[1], self.upper[0]] = values
-        return score, info
+        return info
+
+
+def _linear_probability_start(Xt, y, products, start):
+    """A starting point one reweighted least-squares step from the linear probability fit.
+
+    The least-squares fit of ``y`` on the columns gives fitted probabilities ``p``, clipped to
+    ``[_START_CLIP, 1 - _START_CLIP]``; one iteratively-reweighted-least-squares step from them (weights
+    ``p (1 - p)``, working response ``logit(p) + (y - p) / (p (1 - p))``; McCullagh & Nelder 1989, sec. 4.4)
+    gives the coefficients. Newton-Raphson from there needs about two iterations fewer than from the
+    intercept-only fit, at the cost of about one iteration's work.
+
+    Parameters
+    ----------
+    Xt : ndarray of shape (B, p, n)
+        Transposed designs of the block.
+    y : ndarray of shape (B, n)
+        0/1 outcomes.
+    products : _Products
+        Products of the block's column pairs.
+    start : ndarray of shape (B,), bool
+        Replicates to compute the start for (others get zeros).
+
+    Returns
+    -------
+    beta : ndarray of shape (B, p)
+        Starting coefficients.
+    eta : ndarray of shape (B, n)
+        Their linear predictors.
+    loglik : ndarray of shape (B,)
+        Their log-likelihoods.
+    ok : ndarray of shape (B,), bool
+        ``start`` and both least-squares systems regular and all values finite.
+    """
+    with np.errstate(all="ignore"):
+        gram = products.information(Xt, np.ones_like(y))
+        inverse, bad = _invert(gram)
+        xty = np.matmul(Xt, y[..., None])
+        fitted = np.matmul(np.matmul(inverse, xty)[:, None, :, 0], Xt)[:, 0, :]
+        np.clip(fitted, _START_CLIP, 1.0 - _START_CLIP, out=fitted)
+        # working response times weight: p (1 - p) logit(p) + (y - p)
+        weights = 1.0 - fitted
+        response = np.log(fitted / weights)
+        weights *= fitted
+        response *= weights
+        response += y
+        response -= fitted
+        inverse, bad_wls = _invert(products.information(Xt, weights))
+        beta = np.matmul(inverse, np.matmul(Xt, response[..., None]))[..., 0]
+        eta = np.matmul(beta[:, None, :], Xt)[:, 0, :]
+        loglik = _softplus_sum(eta, y)
+    ok = start & ~bad & ~bad_wls & np.isfinite(loglik)
+    return beta, eta, loglik, ok
 
 
 def _invert(info: np.ndarray):
@@ -246,23 +306,36 @@ def _invert(info: np.ndarray):
     is not positive, an entry is not finite, or the inverse of the scaled matrix has a row-sum norm of
     ``1 / _SINGULAR`` or more (its smallest eigenvalue is then below about ``_SINGULAR``). Singular ones get
     a zero inverse.
+
+    A non-positive or infinite diagonal entry, or a non-finite entry anywhere, leaves a non-finite entry in
+    the scaled matrix (``1 / sqrt`` of a diagonal entry is then infinite, NaN or 0 against an infinity), so
+    one finiteness check of the scaled matrices finds all of them. The work is a handful of whole-array
+    operations on the (R, p, p) stack, because with p of a few columns their fixed cost per call, not the
+    arithmetic, is what counts.
     """
     p = info.shape[1]
-    diag = np.diagonal(info, axis1=1, axis2=2)
-    good = np.all(diag > 0, axis=1) & np.all(np.isfinite(info), axis=(1, 2))
-    scale = np.where(good[:, None], 1.0 / np.sqrt(np.where(diag > 0, diag, 1.0)), 1.0)
-    scaled = info * scale[:, :, None] * scale[:, None, :]
-    scaled[~good] = np.eye(p)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        scale = 1.0 / np.sqrt(np.diagonal(info, axis1=1, axis2=2))
+        outer = scale[:, :, None] * scale[:, None, :]
+        scaled = info * outer
+    good = np.isfinite(scaled).all(axis=(1, 2))
+    all_good = good.all()
+    if not all_good:
+        scaled[~good] = np.eye(p)
+        outer[~good] = 1.0
     try:
         inverse = np.linalg.inv(scaled)
     except np.linalg.LinAlgError:  # an exactly singular matrix stops the whole batch: find it first
         good &= np.linalg.eigvalsh(scaled)[:, 0] >= _SINGULAR
         scaled[~good] = np.eye(p)
+        outer[~good] = 1.0
         inverse = np.linalg.inv(scaled)
     norm = np.abs(inverse).sum(axis=2).max(axis=1)
-    singular = ~good | ~(norm < 1.0 / _SINGULAR)
-    inverse *= scale[:, :, None] * scale[:, None, :]
-    inverse[singular] = 0.0
+    singular = ~(norm < 1.0 / _SINGULAR)
+    singular |= ~good
+    inverse *= outer
+    if singular.any():
+        inverse[singular] = 0.0
     return inverse, singular
 
 
@@ -288,8 +361,8 @@ def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> Logit
     residual = np.empty((R, n))
     products = _Products(Xt)
     column_size = np.max(np.abs(Xt), axis=2)  # (R, p): bounds |x' step| <= |step| . column_size
-    # Start from the intercept-only fit where the first column is a column of ones and both outcomes occur:
-    # intercept logit(mean y), slopes 0 (saves about one Newton iteration); elsewhere from zero.
+    # Where the first column is a column of ones and both outcomes occur, start from the intercept-only fit:
+    # intercept logit(mean y), slopes 0; elsewhere from zero.
     mean_y = y.mean(axis=1)
     start = usable & (mean_y > 0) & (mean_y < 1) & np.all(Xt[:, 0, :] == 1.0, axis=1)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -298,6 +371,16 @@ def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> Logit
     eta += intercept[:, None]
     # log-likelihood at the current iterate, known exactly at the start
     loglik = n * (mean_y * intercept - np.logaddexp(0.0, intercept))
+    # A better start where it is one: its log-likelihood must beat that of the intercept-only fit.
+    if start.any():
+        better_beta, better_eta, better_loglik, better = _linear_probability_start(Xt, y, products, start)
+        better &= better_loglik > loglik
+        if better.all():
+            beta, eta, loglik = better_beta, better_eta, better_loglik
+        elif better.any():
+            beta[better] = better_beta[better]
+            eta[better] = better_eta[better]
+            loglik[better] = better_loglik[better]
     iterations = np.zeros(R, dtype=int)
     stopped = np.zeros(R, dtype=bool)  # stopping rule met
     singular = np.zeros(R, dtype=bool)
@@ -320,14 +403,17 @@ def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> Logit
         score, info = products(Xt_a, y_a, _sigmoid(eta_a, mu_a), res_a, None if whole else idx)
         inverse, bad = _invert(info)
         step = np.matmul(inverse, score[..., None])[..., 0]
-        bad &= work
-        step[~work] = 0.0
+        every = bool(work.all())  # usually so: then no masking is needed below
+        if not every:
+            bad &= work
+            step[~work] = 0.0
         decrement = np.sum(score * step, axis=1)
         np.matmul(step[:, None, :], Xt_a, out=shift_a[:, None, :])
 
         # A large move of the linear predictor may overshoot: halve the step while the log-likelihood falls.
-        bound = np.sum(np.abs(step) * column_size[rows], axis=1)
-        big = np.flatnonzero(work & ~bad & (bound > 1.0))
+        bound = np.sum(np.abs(step) * (column_size if whole else column_size[rows]), axis=1)
+        keep = work & ~bad
+        big = np.flatnonzero(keep & (bound > 1.0))
         new_loglik = np.full(rows.size, np.nan)
         if big.size:
             old = loglik[rows[big]]
@@ -350,17 +436,23 @@ def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> Logit
             step[big] *= factor[:, None]
             shift_a[big] *= factor[:, None]
 
-        keep = work & ~bad
-        target = rows[keep]
-        beta[target] += step[keep]
-        last_step[target] = step[keep]
-        if whole:
-            shift_a[~keep] = 0.0
+        if whole and every and not bad.any():  # every replicate takes its step: no index arrays
+            beta += step
+            last_step[...] = step
             eta += shift_a
+            loglik[...] = new_loglik  # NaN (not yet known) unless the halving check computed it
+            iterations += 1
         else:
-            eta[target] = eta_a[keep] + shift_a[keep]
-        loglik[target] = new_loglik[keep]  # NaN (not yet known) unless the halving check computed it
-        iterations[target] += 1
+            target = rows[keep]
+            beta[target] += step[keep]
+            last_step[target] = step[keep]
+            if whole:
+                shift_a[~keep] = 0.0
+                eta += shift_a
+            else:
+                eta[target] = eta_a[keep] + shift_a[keep]
+            loglik[target] = new_loglik[keep]
+            iterations[target] += 1
         singular[rows[bad]] = True
         done = rows[keep & (decrement / 2.0 <= tol)]
         stopped[done] = True
@@ -372,7 +464,9 @@ def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> Logit
     # A fitted probability within 1e-8 of 0 or 1 needs |eta| > 18.4: only such replicates can be separated.
     suspect = np.flatnonzero(usable & (np.maximum(eta.max(axis=1), -eta.min(axis=1)) > _EXTREME_ETA))
     perfect = np.abs(y[suspect] - mu[suspect]) < PERFECT_FIT_TOLERANCE
-    cov, bad_final = _invert(products(Xt, y, mu, residual)[1])
+    np.subtract(1.0, mu, out=residual)
+    residual *= mu  # the weights mu (1 - mu)
+    cov, bad_final = _invert(products.information(Xt, residual))
 
     # Separation: certificate check on the last Newton step (module notes).
     moves = np.matmul(last_step[suspect, None, :], Xt[suspect])[:, 0, :]
@@ -431,8 +525,10 @@ def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10, workers: in
     -----
     The replicates are fitted in blocks of a few dozen (sized so that a block's working arrays, about
     ``8 n (p (p + 1) / 2 + p + 6)`` bytes per replicate, fit in 6 MiB of cache); within a block all
-    replicates iterate together, and those that have stopped are left out once they are the majority. Cost per iteration is
-    O(n p^2) per replicate in batched matrix products. Extra memory beyond the inputs and outputs is only
+    replicates iterate together, and those that have stopped are left out once they are the majority. The
+    start, one reweighted least-squares step from the linear probability fit (module notes), costs about
+    one iteration and saves about two. Cost per iteration is O(n p^2) per replicate in batched matrix
+    products. Extra memory beyond the inputs and outputs is only
     that of the blocks in flight (about 6 MiB each). The separation rule and the failure reasons are
     described in the module notes. Nothing is raised for data problems; failed replicates get NaN and a
     reason.

@@ -523,9 +523,9 @@ class _Planner:
         self.valid = np.array([v.valid for v in self.verdicts], dtype=bool)
         sigma = analytic_covariance(scenario)
         self.analytic = [
-            # no closed form for a set chosen from the data or a restricted sample
+            # no closed form for a set chosen from the data or a restricted or matched sample
             large_sample(scenario, s.adjust, sigma=sigma)
-            if sigma is not None and s.selection is None and not s.restrict
+            if sigma is not None and s.selection is None and not s.restrict and not s.match
             else None
             for s in self.strategies
         ]
@@ -547,7 +547,7 @@ class _Planner:
                     self.also_verdicts[i, a] = judge(scenario, regressors, target="direct", exposure=v)
                     self.also_analytic[i, a] = (
                         large_sample(scenario, regressors, variable=v, sigma=sigma)
-                        if sigma is not None and s.selection is None and not s.restrict
+                        if sigma is not None and s.selection is None and not s.restrict and not s.match
                         else None
                     )
 

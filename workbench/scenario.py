@@ -155,6 +155,10 @@ class Strategy:
     restrict : tuple of (str, value)
         Design-stage restriction: the analysis keeps only the units whose variable takes ``value``, an int 0 or
         1 for a binary variable, a ``(low, high)`` pair (closed interval) for a continuous one.
+    match : tuple of str
+        Design-stage exact matching (binary exposure, continuous outcome, ``ols``): within each stratum of
+        these observed binary variables, exposed and unexposed units are paired 1:1 and unpaired units are
+        dropped (``docs/scenario-format.md``).
     """
 
     name: str
@@ -163,6 +167,7 @@ class Strategy:
     standardize: bool = False
     selection: str | None = None
     restrict: tuple[tuple[str, int | tuple[float, float]], ...] = ()
+    match: tuple[str, ...] = ()
 
     @property
     def n_coefficients(self) -> int:
@@ -293,7 +298,7 @@ _TOP_KEYS = ("title", "summary", "question", "variables", "arrows", "strategies"
 _QUESTION_KEYS = ("exposure", "outcome", "target", "scale", "also")
 _VARIABLE_KEYS = ("type", "noise_sd", "baseline", "proportion", "observed", "label", "position")
 _ARROW_KEYS = ("from", "to", "effect")
-_STRATEGY_KEYS = ("name", "adjust", "model", "standardize", "selection", "restrict")
+_STRATEGY_KEYS = ("name", "adjust", "model", "standardize", "selection", "restrict", "match")
 _STUDY_KEYS = ("n", "replicates", "seed", "alpha", "sample_sizes", "target_power", "target_halfwidth")
 
 
@@ -662,7 +667,8 @@ def scenario_from_dict(data: dict, *, fill_default_strategies: bool = True) -> S
             raise ScenarioError(
                 'restrict applies to model = "ols" with a continuous outcome only', where=f"{where}.restrict"
             )
-        strategies.append(Strategy(name, tuple(adjust), model, standardize, selection, restrict))
+        match = _parse_match(table, where, by_name, exposure, outcome, adjust, model)
+        strategies.append(Strategy(name, tuple(adjust), model, standardize, selection, restrict, match))
     if strategy_list is not None and not strategies:
         raise ScenarioError("lists no strategy; remove the key to get the default set", where="strategies")
 
@@ -724,6 +730,36 @@ def _parse_restrict(table: dict, where: str, by_name: dict, exposure: str, outco
         if not (math.isfinite(low) and math.isfinite(high)) or not low < high:
             raise ScenarioError(f"the interval must have finite low < high, got {value!r}", where=place)
         out.append((name, (low, high)))
+    return tuple(out)
+
+
+def _parse_match(table: dict, where: str, by_name: dict, exposure: str, outcome: str, adjust, model) -> tuple:
+    """``match = ["shift", ...]``: observed binary variables to match exactly on (binary exposure, continuous
+    outcome, ``model = "ols"`` only)."""
+    spec = _get(table, "match", "list", where, [])
+    if not spec:
+        return ()
+    place = f"{where}.match"
+    if not by_name[exposure].is_binary:
+        raise ScenarioError(f"matching needs a binary exposure; '{exposure}' is continuous", where=place)
+    if by_name[outcome].is_binary:
+        raise ScenarioError(f"matching needs a continuous outcome; '{outcome}' is binary", where=place)
+    if model != "ols":
+        raise ScenarioError(f'matching applies to model = "ols" only, got {model!r}', where=place)
+    out: list[str] = []
+    for j, name in enumerate(spec, start=1):
+        here = f"{place}[{j}]"
+        _known(name, list(by_name), here)
+        if name in (exposure, outcome):
+            role = "exposure" if name == exposure else "outcome"
+            raise ScenarioError(f"'{name}' is the {role} and cannot be matched on", where=here)
+        if not by_name[name].observed:
+            raise ScenarioError(f"'{name}' is latent (observed = false) and cannot be matched on", where=here)
+        if not by_name[name].is_binary:
+            raise ScenarioError(f"'{name}' is continuous; exact matching needs a binary variable", where=here)
+        if name in out:
+            raise ScenarioError(f"'{name}' is listed twice", where=here)
+        out.append(name)
     return tuple(out)
 
 
@@ -868,6 +904,8 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
                 table["restrict"] = {
                     name: list(value) if isinstance(value, tuple) else value for name, value in s.restrict
                 }
+            if s.match:
+                table["match"] = list(s.match)
             strategies.append(table)
         out["strategies"] = strategies
     st = scenario.study

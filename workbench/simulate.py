@@ -18,7 +18,10 @@ A strategy may choose its covariates from the data (``selection``): in each repl
 the cross-products (:func:`workbench.ols.fit_selected`), replicates are grouped by the subset they chose and
 each group is refitted in one batched call, in both engines. A strategy may restrict the sample
 (``restrict``): the raw engine forms masked cross-products of the retained rows (:func:`workbench.ols.
-masked_crossproducts`), so the retained ``n`` and the degrees of freedom vary by replicate.
+masked_crossproducts`), so the retained ``n`` and the degrees of freedom vary by replicate. A strategy may
+match exactly (``match``): within each stratum of the matched binary variables the first ``min(exposed,
+unexposed)`` exposed and unexposed units in row order are kept (a random choice, the rows being i.i.d.), the
+keep-mask built for all replicates at once from cumulative counts, then fitted like a restriction.
 
 ``engine="auto"`` picks ``exact`` when it applies (never with a restriction). Replicates are processed in chunks sized so that working
 memory stays near :data:`MEMORY_BUDGET`. Random streams come from ``SeedSequence(seed)``: replicate block
@@ -136,6 +139,7 @@ TABLE_COLUMNS = [
     "note",
     "selection",
     "restrict",
+    "match",
     "selected_valid_share",
     "selected_sets",
     "mean_retained_n",
@@ -159,11 +163,17 @@ class _Fit:
     note: str
     selection: str | None = None  # a data-driven rule choosing among ``adjust`` in each replicate
     restrict: tuple = ()  # ((variable index, value or (low, high)), ...)
+    match: tuple[int, ...] = ()  # variable indices matched on exactly
+
+    @property
+    def masked(self) -> bool:
+        """Fitted on a subset of each replicate's rows (a restriction or matching)."""
+        return bool(self.restrict or self.match)
 
     @property
     def fixed(self) -> bool:
         """A plain fit: fixed set, whole sample (usable as the unadjusted reference)."""
-        return self.selection is None and not self.restrict
+        return self.selection is None and not self.masked
 
 
 @dataclass(frozen=True, eq=False)
@@ -184,11 +194,11 @@ class _Plan:
 
     @property
     def needs_rows(self) -> bool:
-        return any(f.kind != "ols" or f.restrict for f in self.fits)
+        return any(f.kind != "ols" or f.masked for f in self.fits)
 
     @property
     def restricts(self) -> bool:
-        return any(f.restrict for f in self.fits)
+        return any(f.masked for f in self.fits)
 
 
 @functools.lru_cache(maxsize=256)
@@ -223,7 +233,7 @@ def _plan(scenario: Scenario) -> _Plan:
     hidden: list[_Fit] = []
     kinds = [model_kind(s, binary_outcome) for s in scenario.strategies]
 
-    def make(name, adjust, kind, reported, reference=-1, selection=None, restrict=()):
+    def make(name, adjust, kind, reported, reference=-1, selection=None, restrict=(), match=()):
         regressors = (x,) + tuple(names.index(a) for a in adjust)
         also = tuple((1 + adjust.index(v)) if v in adjust else -1 for v in q.also)
         words, scale, note = estimand(kind, scenario, tuple(adjust))
@@ -241,10 +251,13 @@ def _plan(scenario: Scenario) -> _Plan:
             note,
             selection,
             restrict,
+            tuple(names.index(v) for v in match),
         )
 
     for s, kind in zip(scenario.strategies, kinds, strict=True):
-        fits.append(make(s.name, s.adjust, kind, True, selection=s.selection, restrict=s.restrict))
+        fits.append(
+            make(s.name, s.adjust, kind, True, selection=s.selection, restrict=s.restrict, match=s.match)
+        )
     # the unadjusted reference of each fit: a reported plain strategy with no adjustment and the same model
     resolved = []
     for f in fits:
@@ -256,7 +269,7 @@ def _plan(scenario: Scenario) -> _Plan:
             hidden.append(make(f"(unadjusted {KIND_WORDS[f.kind]})", (), f.kind, False, ref))
         resolved.append(ref)
     fits = [dataclasses.replace(f, reference=r) for f, r in zip(fits, resolved, strict=True)] + hidden
-    used = sorted({x, y} | {i for f in fits for i in f.regressors})
+    used = sorted({x, y} | {i for f in fits for i in f.regressors} | {i for f in fits for i in f.match})
     truths = {}
     for f in fits:
         if f.scale not in truths:
@@ -310,9 +323,10 @@ def choose_engine(scenario: Scenario, n: int, engine: str = "auto") -> str:
     plan = _plan(scenario)
     if plan.restricts:
         if engine == "exact":
-            restricted = [f.name for f in plan.fits if f.restrict]
+            restricted = [f for f in plan.fits if f.masked]
+            what = "restrict" if restricted[0].restrict else "match"
             raise SimulationError(
-                f"engine: 'exact' cannot restrict the sample (strategy '{restricted[0]}'); use 'raw' or 'auto'"
+                f"engine: 'exact' cannot {what} the sample (strategy '{restricted[0].name}'); use 'raw' or 'auto'"
             )
         return "raw"
     if not scenario.is_linear_gaussian:
@@ -576,6 +590,36 @@ def _restriction_mask(data: np.ndarray, restrict: tuple) -> np.ndarray:
     return mask
 
 
+def _matching_mask(data: np.ndarray, exposure: int, match: tuple, base: np.ndarray) -> np.ndarray:
+    """The rows (R, n) kept by exact 1:1 matching among the rows in ``base``: within each stratum of the
+    matched binary variables, the first ``min(exposed, unexposed)`` exposed and unexposed rows in row order.
+
+    Batched over replicates: one pass per stratum (at most ``2**len(match)``) with cumulative counts.
+    """
+    code = np.zeros(base.shape, dtype=np.int64)
+    for j, v in enumerate(match):
+        code += (data[:, v, :] == 1).astype(np.int64) << j
+    exposed = data[:, exposure, :] == 1
+    keep = np.zeros(base.shape, dtype=bool)
+    for stratum in range(2 ** len(match)):
+        inside = base & (code == stratum)
+        treated = inside & exposed
+        control = inside & ~exposed
+        treated_rank = np.cumsum(treated, axis=1)
+        control_rank = np.cumsum(control, axis=1)
+        pairs = np.minimum(treated_rank[:, -1], control_rank[:, -1])[:, None]
+        keep |= (treated & (treated_rank <= pairs)) | (control & (control_rank <= pairs))
+    return keep
+
+
+def _fit_mask(data: np.ndarray, f: _Fit, exposure: int) -> np.ndarray:
+    """The rows (R, n) a restricted and/or matched fit uses: matching applies within the restriction."""
+    mask = _restriction_mask(data, f.restrict)
+    if f.match:
+        mask = _matching_mask(data, exposure, f.match, mask)
+    return mask
+
+
 def _fit_restricted(f: _Fit, S: np.ndarray, kept: np.ndarray, y: int, regs: list[int], names, alpha: float):
     """OLS (or a selection rule) on each replicate's units inside the restriction; replicates with fewer
     than ``p + 2`` such units fail with a counted reason."""
@@ -591,7 +635,8 @@ def _fit_restricted(f: _Fit, S: np.ndarray, kept: np.ndarray, y: int, regs: list
     failed = ~ok
     reasons: Counter = Counter()
     if (~ok).any():
-        reasons[f"too few units inside the restriction (fewer than {need})"] = int((~ok).sum())
+        where = "inside the restriction" if not f.match else "after matching"
+        reasons[f"too few units {where} (fewer than {need})"] = int((~ok).sum())
     rows = np.flatnonzero(ok)
     if rows.size:
         if f.selection is not None:
@@ -620,10 +665,11 @@ def _fit_chunk(
     R = S.shape[0]
     for f in plan.fits:
         regs = [index[i] for i in f.regressors]
-        if f.restrict:
-            if f.restrict not in restricted:
-                restricted[f.restrict] = masked_crossproducts(data, _restriction_mask(data, f.restrict))
-            fit_S, kept = restricted[f.restrict]
+        if f.masked:
+            key = (f.restrict, f.match)
+            if key not in restricted:
+                restricted[key] = masked_crossproducts(data, _fit_mask(data, f, plan.exposure))
+            fit_S, kept = restricted[key]
             batch = _fit_restricted(f, fit_S, kept, y, regs, names, alpha)
         elif f.selection is not None:
             kept = None
@@ -1085,6 +1131,7 @@ class SimulationResult:
         table["restrict"] = [
             "; ".join(f"{k} = {v}" for k, v in d.items()) if d else "" for d in table["restrict"]
         ]
+        table["match"] = [" ".join(m) for m in table["match"]]
         write_text_atomically(path, table.to_csv(index=False))
 
     def to_text(self) -> str:
@@ -1168,6 +1215,11 @@ class SimulationResult:
                     f"{r['name']}: analysis restricted to {where}; mean units kept "
                     f"{r['mean_retained_n']:.1f} of {self.n}"
                 )
+            if r["match"]:
+                notes.append(
+                    f"{r['name']}: exposed and unexposed units matched 1:1 on {', '.join(r['match'])}; "
+                    f"mean units kept {r['mean_retained_n']:.1f} of {self.n}"
+                )
         for _, r in self.table.iterrows():
             if r["failure_reasons"]:
                 text = "; ".join(f"{k} ({v})" for k, v in r["failure_reasons"].items())
@@ -1249,12 +1301,13 @@ def simulate(
     * ``vif``: median over replicates of the exposure's variance inflation factor;
     * ``selection``, ``restrict``: the strategy's rule (or None) and restriction (a dict, empty if none);
     * ``selected_valid_share``: for a selection rule, the share of replicates (whose full model could be
-      fitted) where the chosen set is a valid adjustment set (restricted variables counting as conditioned
-      on); NaN for a fixed set;
+      fitted) where the chosen set is a valid adjustment set (restricted and matched variables counting as
+      conditioned on); NaN for a fixed set;
     * ``selected_sets``: for a selection rule, the three most frequent chosen sets as
       ``[{"adjust": [...], "share": float}, ...]``; empty for a fixed set;
-    * ``mean_retained_n``: for a restricted strategy, the mean number of units inside the restriction; NaN
-      otherwise;
+    * ``match``: the variables a strategy matches on exactly (a list, empty if none);
+    * ``mean_retained_n``: for a restricted or matched strategy, the mean number of units kept (inside the
+      restriction, paired by matching); NaN otherwise;
     * ``df``: ``n - p``, or for a selection rule or a restriction the mean over fitted replicates of their own
       degrees of freedom.
 
@@ -1301,7 +1354,7 @@ def simulate(
             codes, counts = np.unique(arrays.selected[:, s], return_counts=True)
             fitted = codes >= 0
             if fitted.any():
-                restricted = strategy.restricted
+                restricted = strategy.restricted + strategy.match
                 valid = np.array(
                     [
                         _validity(scenario, selected_names(int(c), f.adjust) + restricted)
@@ -1317,9 +1370,12 @@ def simulate(
             "standardize": strategy.standardize,
             "selection": strategy.selection,
             "restrict": {name: list(v) if isinstance(v, tuple) else v for name, v in strategy.restrict},
+            "match": list(strategy.match),
             "selected_valid_share": valid_share,
             "selected_sets": [{"adjust": list(chosen), "share": share} for chosen, share in sets[:3]],
-            "mean_retained_n": float(np.mean(retained)) if strategy.restrict else float("nan"),
+            "mean_retained_n": (
+                float(np.mean(retained)) if strategy.restrict or strategy.match else float("nan")
+            ),
             "valid": _strategy_validity(scenario, strategy),
             "estimand": f.estimand,
             "target": scenario.question.target,

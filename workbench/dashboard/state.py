@@ -234,14 +234,24 @@ class ScenarioState(param.Parameterized):
 
     @staticmethod
     def _prune(data: dict, names: set[str]) -> str:
-        """Remove ``names`` from every strategy's adjustment set, restriction and from ``question.also``
+        """Remove ``names`` from every strategy's adjustment set, restriction, matching and ``question.also``
         (a selection rule left with no candidate is dropped: the strategy adjusts for nothing)."""
         removed = []
         for table in data.get("strategies", []):
             kept = [v for v in table.get("adjust", []) if v not in names]
             restrict = {k: v for k, v in (table.get("restrict") or {}).items() if k not in names}
-            if len(kept) != len(table.get("adjust", [])) or len(restrict) != len(table.get("restrict") or {}):
+            match = [v for v in table.get("match", []) if v not in names]
+            if (
+                len(kept) != len(table.get("adjust", []))
+                or len(restrict) != len(table.get("restrict") or {})
+                or len(match) != len(table.get("match", []))
+            ):
                 removed.append(table["name"])
+            if "match" in table:
+                if match:
+                    table["match"] = match
+                else:
+                    del table["match"]
             table["adjust"] = kept
             if "restrict" in table:
                 if restrict:
@@ -384,6 +394,10 @@ class ScenarioState(param.Parameterized):
                     q["also"] = [new if v == name else v for v in q["also"]]
                 for s in data.get("strategies", []):
                     s["adjust"] = [new if v == name else v for v in s["adjust"]]
+                    if "match" in s:
+                        s["match"] = [new if v == name else v for v in s["match"]]
+                    if s.get("restrict"):
+                        s["restrict"] = {(new if k == name else k): v for k, v in s["restrict"].items()}
                 return ""
             if field == "type":
                 if value == table.get("type"):
@@ -394,6 +408,10 @@ class ScenarioState(param.Parameterized):
                     (s.get("restrict") or {}).pop(name, None)
                     if "restrict" in s and not s["restrict"]:
                         del s["restrict"]
+                    if name in s.get("match", []):  # exact matching needs a binary variable
+                        s["match"] = [v for v in s["match"] if v != name]
+                        if not s["match"]:
+                            del s["match"]
                     if value == "binary" and name == q["outcome"]:
                         s.pop("selection", None)  # selection rules apply to continuous outcomes only
                 if value == "binary":
@@ -690,6 +708,7 @@ class ScenarioState(param.Parameterized):
                     "standardize": s.standardize,
                     "selection": getattr(s, "selection", None),
                     "restrict": dict(getattr(s, "restrict", ()) or ()),
+                    "match": list(getattr(s, "match", ()) or ()),
                     "valid": checked.get("valid"),
                     "reasons": list(checked.get("reasons", [])),
                 }

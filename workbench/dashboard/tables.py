@@ -185,7 +185,7 @@ def with_mcse(value: Any, mcse: Any) -> str:
     return f"{text} (Monte Carlo SE {spread:.1g})"
 
 
-def strategy_text(adjust: Any, selection: Any = None, restrict: Any = None) -> str:
+def strategy_text(adjust: Any, selection: Any = None, restrict: Any = None, match: Any = None) -> str:
     """What a strategy adjusts for, in words, with how the set is chosen and the units it keeps.
 
     Examples
@@ -194,6 +194,8 @@ def strategy_text(adjust: Any, selection: Any = None, restrict: Any = None) -> s
     ('a, b', 'nothing', 'chosen by p-value from a, b')
     >>> strategy_text(["a"], None, {"shift": 0, "age": [1, 5]})
     'a; only units with shift = 0, age in [1, 5]'
+    >>> strategy_text(["a"], match=["night_shift"])
+    'a; matched on night_shift'
     """
     names = list(adjust) if isinstance(adjust, list | tuple) else ([adjust] if adjust else [])
     text = ", ".join(str(n) for n in names) or "nothing"
@@ -208,6 +210,8 @@ def strategy_text(adjust: Any, selection: Any = None, restrict: Any = None) -> s
             for k, v in restrict.items()
         ]
         text += "; only units with " + ", ".join(parts)
+    if isinstance(match, list | tuple) and match:
+        text += "; matched on " + ", ".join(str(m) for m in match)
     return text
 
 
@@ -339,7 +343,9 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
     for _, r in table.iterrows():
         name = str(r["name"])
         flag = flags(r, alpha)
-        adjust_text = strategy_text(_get(r, "adjust"), _get(r, "selection"), _get(r, "restrict"))
+        adjust_text = strategy_text(
+            _get(r, "adjust"), _get(r, "selection"), _get(r, "restrict"), _get(r, "match")
+        )
         verdict = _verdict_cell(_get(r, "valid"))
         share = _get(r, "selected_valid_share")
         if isinstance(_get(r, "selection"), str) and share is not None:
@@ -451,7 +457,7 @@ def strategies_table(rows: list[dict], *, table_id: str = "verdicts") -> str:
     """
     out = []
     for r in rows:
-        adjust = strategy_text(r.get("adjust") or [], r.get("selection"), r.get("restrict"))
+        adjust = strategy_text(r.get("adjust") or [], r.get("selection"), r.get("restrict"), r.get("match"))
         reasons = "<br>".join(html.escape(x) for x in (r.get("reasons") or []))
         notes = "<br>".join(html.escape(x) for x in (r.get("notes") or []))
         model = r.get("model", "ols") + (" (standardised)" if r.get("standardize") else "")
