@@ -42,9 +42,20 @@ def _wait_for_count(locator, count: int, timeout: float = 30.0) -> None:
 
 
 def _pick_preset(page, name: str) -> None:
+    """Pick a preset and wait for its title. On a loaded machine a change event sent while the session is
+    busy applying a live run can be lost; the choice is then made again, as a user would (at most 3 times)."""
     label = f"{list_presets()[name]} ({name})"
-    page.page.locator(".wb-preset select").select_option(label=label)
-    page.wait_for_text(".wb-header", list_presets()[name])
+    for attempt in range(3):
+        page.page.locator(".wb-preset select").select_option(label=label)
+        try:
+            page.wait_for_text(".wb-header", list_presets()[name], timeout=20.0 if attempt < 2 else 40.0)
+            return
+        except AssertionError:
+            if attempt == 2:
+                raise
+            other = "mediator" if name == "common_cause" else "common_cause"
+            page.page.locator(".wb-preset select").select_option(label=f"{list_presets()[other]} ({other})")
+            page.page.wait_for_timeout(1000)
 
 
 def test_graph_tab_shows_the_question_the_truth_and_the_paths(page):
