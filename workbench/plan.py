@@ -702,17 +702,7 @@ class _Planner:
             p = self.points[n]
             for i, name in enumerate(self.names):
                 row = {"n": n, "strategy": name}
-                for key in (
-                    "power",
-                    "power_mcse",
-                    "bias",
-                    "bias_mcse",
-                    "emp_se",
-                    "model_se",
-                    "coverage",
-                    "coverage_mcse",
-                    "rmse",
-                ):
+                for key in TABLE_COLUMNS[2 : TABLE_COLUMNS.index("mean_ci_halfwidth")]:
                     row[key] = p.measures[key][i]
                 row["mean_ci_halfwidth"] = p.halfwidth[i]
                 row["analytic_power"], row["analytic_se"], row["analytic_ci_halfwidth"] = (
