@@ -261,23 +261,6 @@ class Scenario:
         """Direct causes of ``name`` with their effects, in arrow order."""
         return [(a.source, a.effect) for a in self.arrows if a.target == name]
 
-    def topological_order(self) -> list[str]:
-        """Variable names, every cause before its effects (ties kept in file order)."""
-        indegree = {n: 0 for n in self.names}
-        for a in self.arrows:
-            indegree[a.target] += 1
-        order: list[str] = []
-        ready = [n for n in self.names if indegree[n] == 0]
-        while ready:
-            node = ready.pop(0)
-            order.append(node)
-            for a in self.arrows:
-                if a.source == node:
-                    indegree[a.target] -= 1
-                    if indegree[a.target] == 0:
-                        ready.append(a.target)
-        return order
-
     def strategy(self, name: str) -> Strategy:
         for s in self.strategies:
             if s.name == name:
