@@ -840,15 +840,9 @@ class _Planner:
                     "variable": self.also[a],
                     "truth": self.also_truth[self.also[a]],
                 }
-                for key in (
-                    "power",
-                    "power_mcse",
-                    "bias",
-                    "bias_mcse",
-                    "emp_se",
-                    "coverage",
-                    "coverage_mcse",
-                ):
+                for key in ALSO_COLUMNS[
+                    ALSO_COLUMNS.index("power") : ALSO_COLUMNS.index("mean_ci_halfwidth")
+                ]:
                     row[key] = m[key][i]
                 row.update(
                     mean_ci_halfwidth=p.also_halfwidth[i, a],
