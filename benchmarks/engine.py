@@ -33,8 +33,8 @@ import numpy as np
 import statsmodels.api as sm
 
 import workbench as wb
-from workbench.generate import block_seed, draw_rows, structure
-from workbench.simulate import MEMORY_BUDGET, _chunk_size, _plan, _Stream, run_replicates
+from workbench.analysis.simulate import MEMORY_BUDGET, _chunk_size, _plan, _Stream, run_replicates
+from workbench.engine.generate import block_seed, draw_rows, structure
 
 DEPOT_TEXT = """
 title = "Night shifts and packing errors in a warehouse"
@@ -113,7 +113,7 @@ def peak_rss_child(replicates: int, n: int) -> tuple[float, float, float]:
         f"""
         import resource, time
         import workbench as wb
-        from workbench.simulate import run_replicates
+        from workbench.analysis.simulate import run_replicates
         sc = wb.load_scenario({DEPOT_TEXT!r})
         run_replicates(sc, 50, 10, seed=1)  # imports and caches
         base = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss

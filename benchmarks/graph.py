@@ -1,7 +1,7 @@
 """Benchmark: finding every minimal valid adjustment set with 15 candidate covariates (issue 2, target < 2 s).
 
 Random DAGs over 15 observed covariates, an exposure and an outcome, each possible forward arrow present with
-probability p (and exposure -> outcome always), are analysed by ``workbench.adjustment.minimal_sets`` in a
+probability p (and exposure -> outcome always), are analysed by ``workbench.graph.adjustment.minimal_sets`` in a
 fresh cache; the search is also run against a brute-force reference that tests every subset with networkx's
 ``is_d_separator``, and the two must agree. Prints the slowest time per density and its ratio to the target.
 
@@ -16,7 +16,8 @@ import time
 import networkx as nx
 import numpy as np
 
-from workbench import adjustment, load_scenario
+from workbench import load_scenario
+from workbench.graph import adjustment
 
 TARGET_SECONDS = 2.0
 

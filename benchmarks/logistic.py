@@ -32,7 +32,7 @@ from scipy.special import expit
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from workbench.logistic import design_matrix, fit_logit_batch, standardized_contrast  # noqa: E402
+from workbench.engine.logistic import design_matrix, fit_logit_batch, standardized_contrast  # noqa: E402
 
 
 def cpu_model() -> str:

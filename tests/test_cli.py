@@ -9,7 +9,7 @@ import subprocess
 import pytest
 
 from workbench.cli import main
-from workbench.presets import list_presets
+from workbench.scenario.presets import list_presets
 
 GOOD = """title = "Workshop lathes"
 [question]

@@ -3,7 +3,7 @@
 Common practice, no source: these check the behaviour the dashboard promises (a bad edit never loses the
 last valid scenario, uploads are limited and parsed only, results are cached per scenario and settings);
 the numbers they compare come from the library's own closed form (Wright 1934 path rules via
-:func:`workbench.check.check`).
+:func:`workbench.analysis.check.check`).
 """
 
 from __future__ import annotations
@@ -12,15 +12,15 @@ import time
 
 import pytest
 
-from workbench.dashboard.state import (
+from workbench.app.state import (
     MAX_UPLOAD_BYTES,
     SampleState,
     ScenarioState,
     SimulationJob,
     Workbench,
 )
-from workbench.presets import load_preset, preset_text
-from workbench.scenario import dumps_scenario
+from workbench.scenario.parse import dumps_scenario
+from workbench.scenario.presets import load_preset, preset_text
 
 
 @pytest.fixture
@@ -301,7 +301,7 @@ def test_a_hidden_result_tab_catches_up_when_shown():
     """Common practice, no source: a result that arrives while its tab is hidden is drawn when the tab is
     shown (the bug: the Estimates tab kept an earlier preset's figures after switching presets)."""
     pytest.importorskip("panel")
-    from workbench.dashboard.app import App
+    from workbench.app.app import App
 
     wb = Workbench(preset="common_cause", background=False)
     app = App(workbench=wb)

@@ -11,11 +11,11 @@ from __future__ import annotations
 
 import pytest
 
-from workbench.check import check
-from workbench.dashboard.tables import with_mcse
-from workbench.explain import ASSUMPTION_NOTE, explain
-from workbench.presets import load_preset
-from workbench.simulate import simulate
+from workbench.analysis.check import check
+from workbench.analysis.simulate import simulate
+from workbench.report.explain import ASSUMPTION_NOTE, explain
+from workbench.report.tables import with_mcse
+from workbench.scenario.presets import load_preset
 
 
 @pytest.fixture(scope="module")
@@ -112,7 +112,7 @@ def test_a_restricted_analysis_says_which_units_it_keeps():
     """Restricting to one level of a confounder removes its confounding, like adjusting for it (Rothman
     K.J., Greenland S., Lash T.L. (2008). Modern Epidemiology, 3rd ed., ch. 15); the story names the
     restriction and quotes the run's mean number of units kept."""
-    from workbench.dashboard.state import ScenarioState
+    from workbench.app.state import ScenarioState
 
     state = ScenarioState(preset="binary_exposure")
     assert state.set_strategy("unadjusted", restrict="night_shift = 0")

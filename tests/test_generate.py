@@ -7,7 +7,8 @@ import pytest
 from scipy import special
 
 import workbench as wb
-from workbench.generate import (
+from workbench.analysis.simulate import run_replicates
+from workbench.engine.generate import (
     block_seed,
     calibrate_intercepts,
     draw,
@@ -15,7 +16,6 @@ from workbench.generate import (
     evaluate,
     structure,
 )
-from workbench.simulate import run_replicates
 
 
 def build(variables, arrows, exposure, outcome, strategies=(("unadjusted", ()),), study=""):

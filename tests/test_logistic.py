@@ -8,10 +8,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy.special import expit
 
-from workbench import logistic
+from workbench.engine import logistic
+from workbench.engine.logistic import LogitFit, design_matrix, fit_logit_batch, standardized_contrast
+from workbench.engine.robust import ols_hc3_batch
 from workbench.errors import SimulationError
-from workbench.logistic import LogitFit, design_matrix, fit_logit_batch, standardized_contrast
-from workbench.robust import ols_hc3_batch
 
 
 def _draw(seed, R=8, n=300, effects=(-0.5, 0.8, 1.2)):

@@ -10,12 +10,12 @@ import pytest
 from scipy import stats
 
 import workbench as wb
-from workbench.check import check
-from workbench.dashboard.tables import strategy_text
+from workbench.analysis.check import check
+from workbench.analysis.simulate import _matching_mask, choose_engine, run_replicates, simulate
 from workbench.errors import ScenarioError, SimulationError
-from workbench.presets import load_preset
-from workbench.scenario import dumps_scenario, load_scenario
-from workbench.simulate import _matching_mask, choose_engine, run_replicates, simulate
+from workbench.report.tables import strategy_text
+from workbench.scenario.parse import dumps_scenario, load_scenario
+from workbench.scenario.presets import load_preset
 
 PRESET = load_preset("restriction")
 
@@ -202,7 +202,7 @@ def test_planner_runs_with_matched_strategies():
 def test_dashboard_state_renames_and_prunes_matched_variables():
     """Common practice, no source: renaming, hiding or retyping a matched variable never leaves a strategy
     that the scenario format refuses, and the strategy rows carry ``match``."""
-    from workbench.dashboard.state import ScenarioState
+    from workbench.app.state import ScenarioState
 
     state = ScenarioState(preset="restriction")
     rows = {r["name"]: r for r in state.strategy_rows()}

@@ -14,8 +14,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from workbench.errors import Cancelled, SimulationError
-from workbench.plan import (
+from workbench.analysis.plan import (
     ABSOLUTE_RESOLUTION,
     ALSO_COLUMNS,
     RELATIVE_RESOLUTION,
@@ -24,9 +23,10 @@ from workbench.plan import (
     PlanResult,
     plan,
 )
-from workbench.power import find_smallest_n, large_sample, noncentral_t_power, regression_power
-from workbench.presets import load_preset
-from workbench.scenario import load_scenario
+from workbench.analysis.power import find_smallest_n, large_sample, noncentral_t_power, regression_power
+from workbench.errors import Cancelled, SimulationError
+from workbench.scenario.parse import load_scenario
+from workbench.scenario.presets import load_preset
 
 REPLICATES = 400
 TWO_STRATEGIES = """
@@ -321,7 +321,7 @@ def test_ci_halfwidth_falls_as_one_over_root_n(effect, n):
 
 def test_raw_engine_search_fits_only_the_strategies_it_needs_with_the_same_numbers():
     """A bisection size fitted for one strategy alone gives the same power as fitting them all."""
-    from workbench.simulate import run_replicates
+    from workbench.analysis.simulate import run_replicates
 
     sc = load_preset("binary_exposure")
     result = plan(sc, sample_sizes=[100, 400], replicates=200, seed=8)

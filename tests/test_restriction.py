@@ -10,11 +10,11 @@ import pytest
 from scipy import stats
 
 import workbench as wb
-from workbench.check import check
+from workbench.analysis.check import check
+from workbench.analysis.simulate import choose_engine, run_replicates, simulate
 from workbench.errors import ScenarioError, SimulationError
-from workbench.presets import load_preset
-from workbench.scenario import dumps_scenario, load_scenario
-from workbench.simulate import choose_engine, run_replicates, simulate
+from workbench.scenario.parse import dumps_scenario, load_scenario
+from workbench.scenario.presets import load_preset
 
 PRESET = load_preset("restriction")
 

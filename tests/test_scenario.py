@@ -10,7 +10,13 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from workbench.errors import ScenarioError
-from workbench.scenario import MAX_ARROWS, MAX_VARIABLES, dumps_scenario, load_scenario, scenario_from_dict
+from workbench.scenario.parse import (
+    MAX_ARROWS,
+    MAX_VARIABLES,
+    dumps_scenario,
+    load_scenario,
+    scenario_from_dict,
+)
 
 BASE = """title = "Drip irrigation and harvest"
 [question]

@@ -9,11 +9,11 @@ import pandas as pd
 import pytest
 
 import workbench as wb
-from workbench.check import check
+from workbench.analysis.check import check
+from workbench.analysis.simulate import TABLE_COLUMNS, run_replicates, simulate
 from workbench.errors import ScenarioError
-from workbench.presets import load_preset
-from workbench.scenario import dumps_scenario, load_scenario
-from workbench.simulate import TABLE_COLUMNS, run_replicates, simulate
+from workbench.scenario.parse import dumps_scenario, load_scenario
+from workbench.scenario.presets import load_preset
 
 PRESET = load_preset("selection_by_significance")
 
@@ -185,8 +185,8 @@ def test_planner_runs_and_has_no_closed_form_for_a_selection():
 def test_planner_flags_the_optimistic_power_of_p_value_selection():
     """Common practice, no source: a strategy whose intervals under-cover has SEs that are too small, so its
     power is optimistic; the planner says so beside its smallest n."""
-    from workbench.plan import plan
-    from workbench.presets import load_preset
+    from workbench.analysis.plan import plan
+    from workbench.scenario.presets import load_preset
 
     result = plan(load_preset("selection_by_significance"), sample_sizes=[60, 120], replicates=400, seed=3)
     notes = result.smallest_n.set_index("strategy")["note"]

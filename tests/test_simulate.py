@@ -10,8 +10,8 @@ import pandas as pd
 import pytest
 
 import workbench as wb
+from workbench.analysis.simulate import REQUIRED_KEYS, run_replicates, simulate
 from workbench.errors import Cancelled, SimulationError
-from workbench.simulate import REQUIRED_KEYS, run_replicates, simulate
 
 
 def build(variables, arrows, exposure, outcome, strategies, study="", question=""):
@@ -239,9 +239,9 @@ def test_simulation_defaults_come_from_the_study():
 def test_huge_n_is_drawn_in_row_groups_with_the_same_numbers(monkeypatch):
     """A replicate larger than the memory budget is drawn and accumulated in row groups; the stream order
     (pieces of PIECE rows) makes the result equal to the whole-replicate path up to rounding."""
-    from workbench.generate import PIECE
+    from workbench.engine.generate import PIECE
 
-    engine = importlib.import_module("workbench.simulate")  # the module, not the function of that name
+    engine = importlib.import_module("workbench.analysis.simulate")
 
     n = 2 * PIECE + 123
     whole = run_replicates(WORKSHOP, n, 2, seed=6, engine="raw")

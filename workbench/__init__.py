@@ -15,13 +15,14 @@ from __future__ import annotations
 
 __version__ = "0.1.0"
 
-from .check import CheckReport, check
-from .errors import Cancelled, ScenarioError, SimulationError, WorkbenchError
-from .estimate import estimate
-from .generate import draw
-from .plan import PlanResult, plan
-from .presets import list_presets, load_preset
-from .scenario import (
+from workbench.analysis.check import CheckReport, check
+from workbench.analysis.estimate import estimate
+from workbench.analysis.plan import PlanResult, plan
+from workbench.analysis.simulate import ReplicateArrays, SimulationResult, run_replicates, simulate
+from workbench.engine.generate import draw
+from workbench.engine.truth import Truth, true_effect
+from workbench.errors import Cancelled, ScenarioError, SimulationError, WorkbenchError
+from workbench.scenario.parse import (
     Arrow,
     Question,
     Scenario,
@@ -34,8 +35,7 @@ from .scenario import (
     scenario_from_dict,
     scenario_to_dict,
 )
-from .simulate import ReplicateArrays, SimulationResult, run_replicates, simulate
-from .truth import Truth, true_effect
+from workbench.scenario.presets import list_presets, load_preset
 
 __all__ = [
     "__version__",

@@ -5,7 +5,7 @@ performance table with the library's own numbers for the same seed; edit an arro
 open a broken file and see the error with the previous scenario still in effect; download the HTML report and
 open it with the network cut off. Screenshots of each tab at 1440x900 go to ``test-artifacts/``.
 
-Common practice, no source: the reference for every number is :func:`workbench.simulate.simulate` with the
+Common practice, no source: the reference for every number is :func:`workbench.analysis.simulate.simulate` with the
 same scenario and seed (the dashboard must show exactly what the library computes).
 """
 
@@ -18,8 +18,8 @@ from pathlib import Path
 
 import pytest
 
-from workbench.presets import list_presets, load_preset, preset_text
-from workbench.simulate import simulate
+from workbench.analysis.simulate import simulate
+from workbench.scenario.presets import list_presets, load_preset, preset_text
 
 pytestmark = pytest.mark.browser
 

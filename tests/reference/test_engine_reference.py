@@ -8,10 +8,11 @@ import pytest
 from scipy import special, stats
 
 import workbench as wb
-from workbench import linear, truth
-from workbench.generate import calibrate_intercepts
-from workbench.simulate import run_replicates, simulate
-from workbench.wishart import draw_wishart
+from workbench.analysis.simulate import run_replicates, simulate
+from workbench.engine import truth
+from workbench.engine.generate import calibrate_intercepts
+from workbench.engine.wishart import draw_wishart
+from workbench.graph import linear
 
 
 def build(arrows, exposure, outcome, strategies, variables=None, study=""):

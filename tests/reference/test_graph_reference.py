@@ -11,8 +11,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import workbench as wb
-from workbench import adjustment, linear
-from workbench.check import check
+from workbench.analysis.check import check
+from workbench.graph import adjustment, linear
 
 
 def make(arrows, exposure="x", outcome="y", latent=(), target="total", effects=None, strategies=None):

@@ -15,11 +15,11 @@ import pandas as pd
 import pytest
 import statsmodels.api as sm
 
-from workbench.estimate import estimate
-from workbench.generate import block_seed, draw, draw_rows
-from workbench.presets import load_preset
-from workbench.scenario import load_scenario
-from workbench.simulate import run_replicates, simulate
+from workbench.analysis.estimate import estimate
+from workbench.analysis.simulate import run_replicates, simulate
+from workbench.engine.generate import block_seed, draw, draw_rows
+from workbench.scenario.parse import load_scenario
+from workbench.scenario.presets import load_preset
 
 WAREHOUSE = load_preset("restriction")
 MATCHED = [s for s in WAREHOUSE.strategies if s.match]
@@ -116,7 +116,7 @@ def test_matched_batched_fits_match_statsmodels_per_replicate():
 
 def test_pandas_rule_with_two_matched_variables_agrees():
     """Source: independent pandas implementation of the stated rule, two matched variables (exact)."""
-    from workbench.simulate import _matching_mask
+    from workbench.analysis.simulate import _matching_mask
 
     rng = np.random.default_rng(5)
     df = pd.DataFrame(

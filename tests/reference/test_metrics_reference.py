@@ -24,7 +24,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from workbench.metrics import performance
+from workbench.engine.metrics import performance
 
 EST = np.array([0.9, 1.1, 1.3, 0.7])
 SE = np.array([0.2, 0.2, 0.3, 0.3])

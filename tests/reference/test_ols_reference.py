@@ -13,9 +13,9 @@ import pytest
 import statsmodels.api as sm
 
 import workbench as wb
-from workbench.estimate import estimate
-from workbench.generate import block_seed, draw, draw_rows
-from workbench.simulate import run_replicates
+from workbench.analysis.estimate import estimate
+from workbench.analysis.simulate import run_replicates
+from workbench.engine.generate import block_seed, draw, draw_rows
 
 ORCHARD = wb.load_scenario(
     """

@@ -11,10 +11,10 @@ import pytest
 from scipy import stats
 from statsmodels.stats.power import TTestIndPower
 
-from workbench.plan import ABSOLUTE_RESOLUTION, RELATIVE_RESOLUTION, plan
-from workbench.power import analytic_available, noncentral_t_power
-from workbench.presets import list_presets, load_preset
-from workbench.scenario import load_scenario
+from workbench.analysis.plan import ABSOLUTE_RESOLUTION, RELATIVE_RESOLUTION, plan
+from workbench.analysis.power import analytic_available, noncentral_t_power
+from workbench.scenario.parse import load_scenario
+from workbench.scenario.presets import list_presets, load_preset
 
 LINEAR_PRESETS = [
     name

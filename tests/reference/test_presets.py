@@ -1,7 +1,7 @@
 """The built-in presets: each loads, survives a round trip, and teaches its lesson in numbers.
 
 For the all-continuous presets the lesson is checked in closed form: the large-sample regression of
-:mod:`workbench.linear` is compared with formulas worked out by hand from the preset's effect sizes
+:mod:`workbench.graph.linear` is compared with formulas worked out by hand from the preset's effect sizes
 (omitted-variable bias, Wooldridge sec. 3.3; path tracing, Wright 1934; Gaussian conditioning), so the test
 checks both the preset and the algebra. Thresholds that say a bias is "material" or a power curve is
 "informative" are house conventions (common practice, no source).
@@ -19,10 +19,10 @@ from scipy.optimize import brentq
 from scipy.special import expit
 from scipy.stats import norm
 
-from workbench import linear
-from workbench.adjustment import find_roles
-from workbench.presets import DEFAULT_PRESET, list_presets, load_preset
-from workbench.scenario import dumps_scenario, load_scenario
+from workbench.graph import linear
+from workbench.graph.adjustment import find_roles
+from workbench.scenario.parse import dumps_scenario, load_scenario
+from workbench.scenario.presets import DEFAULT_PRESET, list_presets, load_preset
 
 PRESETS = sorted(list_presets())
 MATERIAL = 0.2  # a bias of at least 20% of the true effect counts as material (common practice, no source)
@@ -297,7 +297,7 @@ def lesson_selection_by_significance(sc):
     1989, from memory), so the cost of selection shown by the simulation is a small-sample one: at the study's
     n the t statistic of C in the full model is modest (common practice, no source). A strategy with a
     selection rule is judged here by its full candidate set."""
-    from workbench.check import large_sample_selection
+    from workbench.analysis.check import large_sample_selection
 
     e = _effects(sc)
     a, c, b = e["complexity", "review_hours"], e["complexity", "defects"], e["review_hours", "defects"]

@@ -15,10 +15,10 @@ import pytest
 import statsmodels.api as sm
 
 import workbench as wb
-from workbench.estimate import estimate
-from workbench.generate import block_seed, draw, draw_rows
-from workbench.presets import load_preset
-from workbench.simulate import run_replicates, simulate
+from workbench.analysis.estimate import estimate
+from workbench.analysis.simulate import run_replicates, simulate
+from workbench.engine.generate import block_seed, draw, draw_rows
+from workbench.scenario.presets import load_preset
 
 WAREHOUSE = load_preset("restriction")
 

@@ -15,11 +15,11 @@ import pytest
 import statsmodels.api as sm
 
 import workbench as wb
-from workbench.estimate import estimate
-from workbench.generate import draw
-from workbench.ols import crossproducts, fit_selected, selected_names
-from workbench.presets import load_preset
-from workbench.simulate import simulate
+from workbench.analysis.estimate import estimate
+from workbench.analysis.simulate import simulate
+from workbench.engine.generate import draw
+from workbench.engine.ols import crossproducts, fit_selected, selected_names
+from workbench.scenario.presets import load_preset
 
 CANDIDATES = ["complexity", "team_experience", "tooling", "office_noise"]
 

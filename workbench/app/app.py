@@ -1,0 +1,128 @@
+"""The dashboard page: the sidebar and the tabs, composed from the views of
+:mod:`workbench.app.views` over one :class:`~workbench.app.state.Workbench` state per browser
+session.
+
+The page uses no template that fetches anything from another host: Panel and Bokeh serve their scripts and
+styles themselves, and the text uses the system's fonts.
+"""
+
+from __future__ import annotations
+
+import html
+
+import panel as pn
+import param
+
+from workbench import __version__
+from workbench.app.state import Workbench
+from workbench.app.views import (
+    ArrowsEditor,
+    EstimatesView,
+    ExplainView,
+    ExportView,
+    GraphView,
+    SampleSizeView,
+    Sidebar,
+    StrategiesEditor,
+    TomlEditor,
+    VariablesEditor,
+    library_status,
+)
+
+__all__ = ["App", "create_app", "GLOBAL_CSS"]
+
+#: Page-wide styles: system fonts only (no web fonts), a calm background.
+GLOBAL_CSS = """
+body { font-family: system-ui, -apple-system, "Segoe UI", Roboto, "Helvetica Neue", Arial, sans-serif;
+       margin: 0; background: #ffffff; }
+"""
+
+
+class App(pn.viewable.Viewer):
+    """The whole page for one session."""
+
+    workbench = param.ClassSelector(class_=Workbench)
+
+    def __init__(self, **params):
+        super().__init__(**params)
+        wb = self.workbench
+        state = wb.scenario_state
+        self.header = pn.pane.HTML(
+            "", css_classes=["wb-header"], sizing_mode="stretch_width", margin=(8, 12, 0, 12)
+        )
+        state.param.watch(self._header, "scenario")
+        self._header()
+        editors = pn.Tabs(
+            ("Arrows", ArrowsEditor(state=state)),
+            ("Variables", VariablesEditor(state=state)),
+            ("Strategies", StrategiesEditor(state=state)),
+            ("Scenario text (TOML)", TomlEditor(state=state)),
+            css_classes=["wb-editor-tabs"],
+            margin=(6, 0),
+            dynamic=False,
+        )
+        graph_tab = pn.Column(GraphView(state=state), editors, margin=(6, 10))
+        self.result_views = {
+            1: EstimatesView(workbench=wb),
+            2: SampleSizeView(workbench=wb),
+            3: ExplainView(workbench=wb),
+        }
+        self.tabs = pn.Tabs(
+            ("Graph", graph_tab),
+            ("Estimates", pn.Column(self.result_views[1], margin=(6, 10))),
+            ("Sample size", pn.Column(self.result_views[2], margin=(6, 10))),
+            ("Explain", pn.Column(self.result_views[3], margin=(6, 10))),
+            ("Export", pn.Column(ExportView(workbench=wb), margin=(6, 10))),
+            css_classes=["wb-tabs"],
+            dynamic=False,
+            margin=(0, 6),
+        )
+        self.tabs.param.watch(self._tab_shown, "active")
+        self.sidebar = Sidebar(workbench=wb)
+
+    def _tab_shown(self, event):
+        """Result views rebuild their figures only while shown (a hidden tab's changes wait)."""
+        for index, view in self.result_views.items():
+            view.active = index == event.new
+
+    def _header(self, *_):
+        sc = self.workbench.scenario
+        summary = html.escape(sc.summary or "")
+        status = library_status()
+        self.header.object = (
+            f"<div style='font-size:18px;font-weight:700;color:#111'>{html.escape(sc.title)}</div>"
+            f"<div style='font-size:13px;color:#444;max-width:1060px;line-height:1.4'>{summary}</div>"
+            f"<div style='font-size:11px;color:#777'>workbench {__version__}. The graph is an assumption: "
+            f"the results show its consequences, not facts about the world."
+            f"{' ' + html.escape(status) if status else ''}</div>"
+        )
+
+    def __panel__(self):
+        return pn.Row(self.sidebar, pn.Column(self.header, self.tabs, margin=0), margin=0)
+
+
+def create_app(preset: str | None = None) -> pn.viewable.Viewable:
+    """Build the page for one browser session.
+
+    Computations run in worker threads; a periodic callback on the session's own thread applies their
+    progress and results, so the page stays responsive while they run.
+
+    Examples
+    --------
+    >>> page = create_app("common_cause")
+    >>> type(page).__name__
+    'Row'
+    """
+    pn.extension("tabulator", raw_css=[GLOBAL_CSS], notifications=False)
+    doc = pn.state.curdoc
+    if doc is not None:
+        # Panel learns where its own static files live only when the page is rendered; components built
+        # before that point would otherwise reference its CDN. Tell the document now: served locally.
+        from panel.io.resources import LOCAL_DIST
+
+        doc._template_variables.setdefault("dist_url", LOCAL_DIST)
+    workbench = Workbench(preset=preset, deferred=True)
+    page = App(workbench=workbench).__panel__()
+    if pn.state.curdoc is not None and pn.state.curdoc.session_context is not None:
+        pn.state.add_periodic_callback(workbench.poll, period=200)
+    return page

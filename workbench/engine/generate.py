@@ -1,0 +1,459 @@
+"""Drawing data from a scenario's structural equations.
+
+Every variable is computed from its direct causes in topological order (causes first):
+
+* a continuous variable is ``baseline + sum(effect x cause) + noise_sd x Z``;
+* a binary variable is 1 with probability ``logistic(a + sum(effect x cause))``, where the intercept ``a`` is
+  calibrated once so that the population share of 1s equals the variable's ``proportion``
+  (:func:`calibrate_intercepts`).
+
+All randomness enters through one standard normal ``Z`` per variable and row. A binary variable uses its
+``Z`` through the normal distribution function, ``U = Phi(Z)`` uniform on (0, 1), and is 1 when
+``U < logistic(a + ...)``. One noise array therefore fixes a whole dataset, which lets the truth be computed
+with common random numbers (:func:`evaluate` with an intervention on the exposure) and makes the draws
+independent of how replicates are split into chunks: each replicate's noise is one contiguous run of the
+random stream.
+
+Examples
+--------
+>>> from workbench.scenario.parse import load_scenario
+>>> sc = load_scenario('''
+... title = "Workshop training and defects"
+... [question]
+... exposure = "training"
+... outcome = "defects"
+... [variables.experience]
+... [variables.training]
+... type = "binary"
+... proportion = 0.4
+... [variables.defects]
+... [[arrows]]
+... from = "experience"
+... to = "training"
+... effect = 0.8
+... [[arrows]]
+... from = "experience"
+... to = "defects"
+... effect = -0.5
+... [[arrows]]
+... from = "training"
+... to = "defects"
+... effect = -0.3
+... [[strategies]]
+... name = "unadjusted"
+... ''')
+>>> df = draw(sc, 1000, seed=1)
+>>> list(df.columns), df.attrs["latent"]
+(['experience', 'training', 'defects'], [])
+>>> bool(abs(df["training"].mean() - 0.4) < 0.05)
+True
+"""
+
+from __future__ import annotations
+
+import functools
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+from scipy import optimize, special
+
+from workbench.scenario.parse import Scenario
+
+__all__ = [
+    "CALIBRATION_DRAWS",
+    "CALIBRATION_SEED",
+    "calibrate_intercepts",
+    "draw",
+    "draw_rows",
+    "evaluate",
+    "draw_noise",
+    "noise_pieces",
+    "PIECE",
+    "structure",
+    "Structure",
+    "block_seed",
+]
+
+PIECE = 2**16
+"""Rows per piece of a replicate's noise stream (see :func:`draw_noise`)."""
+CALIBRATION_DRAWS = 2**20
+CALIBRATION_SEED = 20_261_201
+
+
+@dataclass(frozen=True, eq=False)
+class Structure:
+    """The structural equations of a scenario in array form (cached per graph by :func:`structure`).
+
+    Attributes
+    ----------
+    names : tuple of str
+        Variable names in file order; index ``j`` of every array below refers to ``names[j]``.
+    order : tuple of int
+        Variable indices, every cause before its effects.
+    parents : tuple of (ndarray of int, ndarray of float)
+        For every variable (file order) the indices of its causes and the arrows' effects.
+    binary : ndarray of bool, shape (k,)
+    intercept : ndarray of float, shape (k,)
+        The baseline of a continuous variable; the calibrated log-odds intercept of a binary one.
+    noise_sd : ndarray of float, shape (k,)
+        Continuous variables only (0 for binary ones).
+    """
+
+    names: tuple[str, ...]
+    order: tuple[int, ...]
+    parents: tuple[tuple[np.ndarray, np.ndarray], ...]
+    binary: np.ndarray
+    intercept: np.ndarray
+    noise_sd: np.ndarray
+
+    @property
+    def k(self) -> int:
+        return len(self.names)
+
+    def index(self, name: str) -> int:
+        return self.names.index(name)
+
+
+def _bare_structure(variables: tuple, arrows: tuple) -> Structure:
+    names = tuple(v.name for v in variables)
+    index = {name: i for i, name in enumerate(names)}
+    parents = []
+    for name in names:
+        incoming = [(index[a.source], a.effect) for a in arrows if a.target == name]
+        parents.append(
+            (
+                np.array([i for i, _ in incoming], dtype=np.intp),
+                np.array([e for _, e in incoming], dtype=float),
+            )
+        )
+    indegree = {n: 0 for n in names}
+    for a in arrows:
+        indegree[a.target] += 1
+    order: list[int] = []
+    ready = [n for n in names if indegree[n] == 0]
+    while ready:
+        node = ready.pop(0)
+        order.append(index[node])
+        for a in arrows:
+            if a.source == node:
+                indegree[a.target] -= 1
+                if indegree[a.target] == 0:
+                    ready.append(a.target)
+    binary = np.array([v.type == "binary" for v in variables])
+    intercept = np.array([0.0 if v.type == "binary" else v.baseline for v in variables])
+    noise_sd = np.array([0.0 if v.type == "binary" else v.noise_sd for v in variables])
+    return Structure(names, tuple(order), tuple(parents), binary, intercept, noise_sd)
+
+
+def _share_gap(a: float, linear: np.ndarray, proportion: float) -> float:
+    return float(special.expit(a + linear).mean()) - proportion
+
+
+@functools.lru_cache(maxsize=64)
+def _structure_cached(variables: tuple, arrows: tuple) -> Structure:
+    bare = _bare_structure(variables, arrows)
+    if not bare.binary.any():
+        return bare
+    proportions = {v.name: v.proportion for v in variables if v.type == "binary"}
+    intercept = bare.intercept.copy()
+    rng = np.random.default_rng(CALIBRATION_SEED)
+    z = rng.standard_normal((bare.k, CALIBRATION_DRAWS))
+    values = np.empty_like(z)
+    linear = np.empty(CALIBRATION_DRAWS)
+    for j in bare.order:
+        idx, eff = bare.parents[j]
+        linear.fill(0.0)
+        for i, e in zip(idx, eff, strict=True):
+            linear += e * values[i]
+        if not bare.binary[j]:
+            np.multiply(z[j], bare.noise_sd[j], out=values[j])
+            values[j] += bare.intercept[j] + linear
+            continue
+        p = proportions[bare.names[j]]
+        base = float(special.logit(p))
+        if len(idx) == 0 or np.ptp(linear) == 0.0:
+            a = base - (float(linear[0]) if len(idx) else 0.0)
+        else:
+            lo, hi = base - float(linear.max()) - 1.0, base - float(linear.min()) + 1.0
+            a = optimize.brentq(_share_gap, lo, hi, args=(linear, p), xtol=1e-12)
+        intercept[j] = a
+        values[j] = special.ndtr(z[j]) < special.expit(a + linear)
+    return Structure(bare.names, bare.order, bare.parents, bare.binary, intercept, bare.noise_sd)
+
+
+def structure(scenario: Scenario) -> Structure:
+    """The scenario's structural equations with calibrated binary intercepts (cached per graph).
+
+    Examples
+    --------
+    >>> from workbench.scenario.presets import load_preset
+    >>> st = structure(load_preset("common_cause"))
+    >>> st.names, [st.names[j] for j in st.order]
+    (('soil_quality', 'fertiliser', 'wheat_yield'), ['soil_quality', 'fertiliser', 'wheat_yield'])
+    """
+    return _structure_cached(scenario.variables, scenario.arrows)
+
+
+def calibrate_intercepts(scenario: Scenario) -> dict[str, float]:
+    """Log-odds intercepts of the binary variables that give each its population ``proportion`` of 1s.
+
+    For a binary variable ``B`` with linear predictor ``eta = sum(effect x cause)``, the intercept ``a``
+    solves ``E[logistic(a + eta)] = proportion``. The expectation is taken over ``2**20`` draws of the causes
+    from a fixed internal seed and the equation is solved by Brent's method, so the result is deterministic.
+    Binary variables are calibrated in topological order, each using the calibrated intercepts of its
+    causes. Without causes the answer is exactly ``logit(proportion)``.
+
+    Parameters
+    ----------
+    scenario : Scenario
+
+    Returns
+    -------
+    dict of str to float
+        One entry per binary variable, in file order.
+
+    References
+    ----------
+    Brent R.P. (1973). Algorithms for Minimization without Derivatives. Prentice-Hall, ch. 4.
+
+    Examples
+    --------
+    >>> from workbench.scenario.parse import load_scenario
+    >>> sc = load_scenario('title = "t"\\n[question]\\nexposure = "upgrade"\\noutcome = "uptime"\\n'
+    ...     '[variables.upgrade]\\ntype = "binary"\\nproportion = 0.25\\n[variables.uptime]\\n'
+    ...     '[[arrows]]\\nfrom = "upgrade"\\nto = "uptime"\\neffect = 1.0\\n'
+    ...     '[[strategies]]\\nname = "unadjusted"\\n')
+    >>> round(calibrate_intercepts(sc)["upgrade"], 6)  # logit(0.25)
+    -1.098612
+    """
+    st = structure(scenario)
+    return {name: float(st.intercept[j]) for j, name in enumerate(st.names) if st.binary[j]}
+
+
+def evaluate(
+    scenario_or_structure,
+    noise: np.ndarray,
+    *,
+    intervention: tuple[str, float] | None = None,
+    exposure: str | None = None,
+    axis: int = -1,
+    out: np.ndarray | None = None,
+    probability: str | None = None,
+) -> np.ndarray:
+    """Evaluate the structural equations from given standard normal noise.
+
+    Parameters
+    ----------
+    scenario_or_structure : Scenario or Structure
+    noise : ndarray
+        Standard normal draws, one per variable along ``axis`` (in file order), any other shape.
+    intervention : ("set", value) or ("shift", delta), optional
+        Applied to ``exposure``: ``set`` replaces its value by ``value`` (do(X = value)); ``shift`` adds
+        ``delta`` to the value its own equation gives. Its descendants are recomputed from the new value.
+    exposure : str, optional
+        The intervened variable; default the scenario's exposure.
+    axis : int
+        The axis of ``noise`` that runs over variables.
+    out : ndarray, optional
+        Where to write the values (same shape as ``noise``); may be ``noise`` itself (in place).
+    probability : str, optional
+        A binary variable to return as its probability of being 1 given its causes instead of a 0/1 draw
+        (used for the truth: it has the same mean and a smaller Monte Carlo error).
+
+    Returns
+    -------
+    ndarray
+        The variables' values, shape of ``noise``; binary variables as 0.0/1.0.
+
+    Examples
+    --------
+    >>> from workbench.scenario.presets import load_preset
+    >>> sc = load_preset("common_cause")
+    >>> z = np.zeros((1, 3))
+    >>> evaluate(sc, z)  # soil 0, fertiliser baseline 2, yield 5 + 0.25 x 2
+    array([[0. , 2. , 5.5]])
+    >>> evaluate(sc, z, intervention=("shift", 1.0))
+    array([[0.  , 3.  , 5.75]])
+    """
+    if isinstance(scenario_or_structure, Structure):
+        st = scenario_or_structure
+        target = None if exposure is None else st.index(exposure)
+    else:
+        st = structure(scenario_or_structure)
+        target = st.index(exposure or scenario_or_structure.question.exposure)
+    if intervention is not None and target is None:
+        raise ValueError("evaluate: an intervention on a Structure needs exposure=")
+    if out is None:
+        out = np.empty_like(noise, dtype=float)
+    in_place = out is noise
+    z = np.moveaxis(noise, axis, 0)
+    v = np.moveaxis(out, axis, 0)
+    prob_index = None if probability is None else st.index(probability)
+    scratch = np.empty(v.shape[1:])
+    tmp = np.empty(v.shape[1:]) if st.binary.any() else None
+    for j in st.order:
+        idx, eff = st.parents[j]
+        if intervention is not None and j == target and intervention[0] == "set":
+            v[j] = intervention[1]
+            continue
+        if st.binary[j] and not len(idx) and j != prob_index:
+            # no causes: Phi(Z) < p is Z < Phi^-1(p), one comparison per row
+            np.less(z[j], special.ndtri(special.expit(st.intercept[j])), out=v[j], casting="unsafe")
+        elif st.binary[j]:
+            if len(idx):
+                np.multiply(v[idx[0]], eff[0], out=scratch)
+                scratch += st.intercept[j]
+            else:
+                np.copyto(scratch, st.intercept[j])
+            for i, e in zip(idx[1:], eff[1:], strict=True):
+                np.multiply(v[i], e, out=tmp)
+                scratch += tmp
+            special.expit(scratch, out=scratch)
+            if j == prob_index:
+                v[j] = scratch
+            else:
+                np.less(special.ndtr(z[j]), scratch, out=v[j], casting="unsafe")
+        else:
+            if st.noise_sd[j] != 1.0 or not in_place:
+                np.multiply(z[j], st.noise_sd[j], out=v[j])
+            if st.intercept[j] != 0.0:
+                v[j] += st.intercept[j]
+            for i, e in zip(idx, eff, strict=True):
+                np.multiply(v[i], e, out=scratch)
+                v[j] += scratch
+        if intervention is not None and j == target:
+            if intervention[0] != "shift":
+                raise ValueError(f"evaluate: unknown intervention {intervention[0]!r}")
+            v[j] += intervention[1]
+    return out
+
+
+def draw_noise(rng: np.random.Generator, replicates: int, k: int, n: int, out: np.ndarray | None = None):
+    """Standard normal noise of shape (replicates, k, n), in the order the engine's streams define.
+
+    Each replicate's noise is one contiguous run of ``rng``'s stream, taken in pieces of at most
+    :data:`PIECE` rows, each piece variable by variable (a ``k x rows`` block). With ``n <= PIECE`` that is
+    simply the replicate's ``k x n`` block. So drawing replicates one at a time or all at once, or one
+    replicate's rows piece by piece (:func:`noise_pieces`), gives the same numbers.
+
+    Examples
+    --------
+    >>> together = draw_noise(np.random.default_rng(1), 2, 3, 4)
+    >>> rng = np.random.default_rng(1)
+    >>> one_by_one = np.concatenate([draw_noise(rng, 1, 3, 4), draw_noise(rng, 1, 3, 4)])
+    >>> together.shape, bool(np.array_equal(together, one_by_one))
+    ((2, 3, 4), True)
+    """
+    if out is None:
+        out = np.empty((replicates, k, n))
+    if n <= PIECE:
+        rng.standard_normal(out=out)
+        return out
+    for i in range(out.shape[0]):
+        for start, piece in noise_pieces(rng, k, n, PIECE):
+            out[i, :, start : start + piece.shape[1]] = piece
+    return out
+
+
+def noise_pieces(rng: np.random.Generator, k: int, n: int, rows: int):
+    """One replicate's noise in row groups of ``rows`` (a multiple of :data:`PIECE`, or ``n``): yields
+    ``(first_row, array of shape (k, group_rows))`` in stream order (see :func:`draw_noise`).
+
+    Examples
+    --------
+    >>> [(start, piece.shape) for start, piece in noise_pieces(np.random.default_rng(0), 2, 5, 5)]
+    [(0, (2, 5))]
+    """
+    if n <= PIECE:
+        yield 0, rng.standard_normal((k, n))
+        return
+    rows = max(PIECE, (rows // PIECE) * PIECE)
+    for start in range(0, n, rows):
+        stop = min(n, start + rows)
+        group = np.empty((k, stop - start))
+        for a in range(start, stop, PIECE):
+            b = min(stop, a + PIECE)
+            group[:, a - start : b - start] = rng.standard_normal((k, b - a))
+        yield start, group
+
+
+def draw_rows(scenario: Scenario, n: int, replicates: int, rng: np.random.Generator) -> np.ndarray:
+    """Draw ``replicates`` datasets of ``n`` rows each, batched.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    n, replicates : int
+    rng : numpy.random.Generator
+
+    Returns
+    -------
+    ndarray of shape (replicates, n, k)
+        Every variable in file order (latent ones included); binary ones as 0.0/1.0. It is a transposed view
+        of a (replicates, k, n) array, the layout the raw engine works in.
+
+    Examples
+    --------
+    >>> from workbench.scenario.presets import load_preset
+    >>> rows = draw_rows(load_preset("common_cause"), 50, 4, np.random.default_rng(0))
+    >>> rows.shape
+    (4, 50, 3)
+    """
+    st = structure(scenario)
+    z = draw_noise(rng, replicates, st.k, n)
+    evaluate(st, z, axis=1, out=z)
+    return z.transpose(0, 2, 1)
+
+
+def draw(scenario: Scenario, n: int, seed=None) -> pd.DataFrame:
+    """One simulated dataset of ``n`` rows.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    n : int
+    seed : None, int or numpy.random.Generator
+        An integer gives the same data as replicate 0 of a simulation with that seed on the raw engine.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One column per variable in file order, latent ones included and listed in ``df.attrs["latent"]``;
+        binary variables as 0.0/1.0.
+
+    Examples
+    --------
+    >>> from workbench.scenario.presets import load_preset
+    >>> df = draw(load_preset("common_cause"), 5, seed=3)
+    >>> df.shape
+    (5, 3)
+    """
+    from workbench.errors import SimulationError
+
+    if isinstance(n, bool) or not isinstance(n, int | np.integer) or n < 1:
+        raise SimulationError(f"draw: n must be a positive integer, got {n!r}")
+    if isinstance(seed, np.random.Generator):
+        rng = seed
+    else:
+        rng = np.random.default_rng(block_seed(seed, 0))
+    rows = draw_rows(scenario, int(n), 1, rng)[0]
+    df = pd.DataFrame(np.array(rows), columns=scenario.names)
+    df.attrs["latent"] = list(scenario.latent_names)
+    return df
+
+
+def block_seed(seed, block: int) -> np.random.SeedSequence:
+    """The seed sequence of replicate block ``block``: child ``block`` of ``SeedSequence(seed)``.
+
+    Examples
+    --------
+    >>> block_seed(7, 2).spawn_key
+    (2,)
+    >>> block_seed(7, 2).entropy == np.random.SeedSequence(7).spawn(3)[2].entropy
+    True
+    """
+    root = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)
+    return np.random.SeedSequence(
+        root.entropy, spawn_key=tuple(root.spawn_key) + (block,), pool_size=root.pool_size
+    )

@@ -1,0 +1,283 @@
+"""The true effect each strategy is scored against.
+
+* ``target = "direct"``: the effect written on the arrow exposure -> outcome (0 without an arrow). The
+  outcome is then continuous and its equation is linear in its causes, so this is exactly the change in the
+  outcome's mean when the exposure rises by one unit and every other cause of the outcome is held fixed.
+* ``target = "total"`` on a linear-Gaussian graph: the closed form, the sum over directed paths of the
+  products of the arrows' effects (Wright 1934; :func:`workbench.graph.linear.total_effects`).
+* Anything else, by simulated intervention with common random numbers: the same ``2**20`` noise draws
+  (from a fixed internal seed, in chunks to bound memory) are pushed through the structural equations twice,
+
+  - binary exposure: with the exposure set to 1 and set to 0, ``E[Y | do(X = 1)] - E[Y | do(X = 0)]``;
+  - continuous exposure: with everyone's exposure shifted up by one unit and as it is,
+    ``E[Y(X + 1)] - E[Y(X)]``;
+
+  descendants of the exposure recomputed each time. For a binary outcome the outcome's probability given its
+  causes replaces the 0/1 draw (same mean, smaller Monte Carlo error). ``scale = "log_odds_ratio"`` reports
+  ``logit(E[Y_1]) - logit(E[Y_0])`` with a delta-method Monte Carlo SE.
+
+Results are cached per scenario graph and question, so repeated simulations pay once.
+
+References
+----------
+1. Wright S. (1934). The method of path coefficients. Annals of Mathematical Statistics 5:161-215.
+2. Pearl J. (2009). Causality, 2nd ed. Cambridge University Press, ch. 3 (the do-operator).
+3. Greenland S., Robins J.M., Pearl J. (1999). Confounding and collapsibility in causal inference.
+   Statistical Science 14(1):29-46 (marginal versus conditional odds ratios).
+"""
+
+from __future__ import annotations
+
+import functools
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import special
+
+from workbench.engine.generate import _structure_cached, evaluate
+from workbench.graph.linear import total_effects
+from workbench.scenario.parse import Scenario, Strategy
+
+__all__ = [
+    "TRUTH_DRAWS",
+    "TRUTH_SEED",
+    "KIND_WORDS",
+    "Truth",
+    "true_effect",
+    "conditional_log_odds_ratio",
+    "direct_effect",
+    "model_kind",
+    "estimand",
+]
+
+TRUTH_DRAWS = 2**20
+TRUTH_SEED = 19_340_161
+_CHUNK = 2**16
+
+
+@dataclass(frozen=True)
+class Truth:
+    """A true effect.
+
+    Attributes
+    ----------
+    value : float
+    mcse : float
+        Its Monte Carlo standard error (0 for a closed form).
+    method : {"closed form", "simulated intervention"}
+    description : str
+        What the number means, in words.
+    draws : int
+        Draws of the simulated intervention (0 for a closed form).
+    scale : {"difference", "log_odds_ratio"}
+    """
+
+    value: float
+    mcse: float
+    method: str
+    description: str
+    draws: int = 0
+    scale: str = "difference"
+
+
+def direct_effect(scenario: Scenario) -> float:
+    """The effect on the arrow exposure -> outcome, 0 when there is no such arrow.
+
+    Examples
+    --------
+    >>> from workbench.scenario.presets import load_preset
+    >>> direct_effect(load_preset("common_cause"))
+    0.25
+    """
+    q = scenario.question
+    for a in scenario.arrows:
+        if a.source == q.exposure and a.target == q.outcome:
+            return float(a.effect)
+    return 0.0
+
+
+def conditional_log_odds_ratio(scenario: Scenario) -> float:
+    """The conditional (structural) log odds ratio of a binary outcome for the exposure: the effect on the
+    arrow exposure -> outcome in the outcome's own logistic equation, 0 without an arrow. It is what a
+    logistic regression adjusting for exactly the outcome's other causes estimates.
+
+    Examples
+    --------
+    >>> from workbench.scenario.presets import load_preset
+    >>> conditional_log_odds_ratio(load_preset("common_cause"))
+    0.25
+    """
+    return direct_effect(scenario)
+
+
+def _words(scenario: Scenario, scale: str) -> str:
+    q = scenario.question
+    x, y = scenario.exposure, scenario.outcome
+    if q.target == "direct":
+        return (
+            f"change in the mean of '{y.name}' per unit of '{x.name}' with every other direct cause of "
+            f"'{y.name}' held fixed (the arrow's effect)"
+        )
+    if x.is_binary:
+        contrast = f"if every unit had '{x.name}' = 1 versus if every unit had '{x.name}' = 0"
+    else:
+        contrast = f"if every unit's '{x.name}' were one unit higher versus as it is"
+    if y.is_binary:
+        what = (
+            "difference in the share of '{y}' = 1"
+            if scale == "difference"
+            else "log odds ratio of '{y}' = 1 (marginal, over the whole population)"
+        ).format(y=y.name)
+    else:
+        what = f"difference in the mean of '{y.name}'"
+    return f"{what} {contrast}"
+
+
+@functools.lru_cache(maxsize=128)
+def _simulated(
+    variables: tuple, arrows: tuple, exposure: str, outcome: str, scale: str
+) -> tuple[float, float]:
+    st = _structure_cached(variables, arrows)
+    x = st.index(exposure)
+    y = st.index(outcome)
+    binary_x = bool(st.binary[x])
+    binary_y = bool(st.binary[y])
+    rng = np.random.default_rng(TRUTH_SEED)
+    probability = outcome if binary_y else None
+    if binary_x:
+        worlds = (("set", 1.0), ("set", 0.0))
+    else:
+        worlds = (("shift", 1.0), None)
+    sums = np.zeros(2)
+    cross = np.zeros((2, 2))
+    done = 0
+    z = np.empty((_CHUNK, st.k))
+    values = np.empty_like(z)
+    while done < TRUTH_DRAWS:
+        rng.standard_normal(out=z)
+        pair = []
+        for world in worlds:
+            evaluate(st, z, intervention=world, exposure=exposure, out=values, probability=probability)
+            pair.append(values[:, y].copy())
+        pair = np.array(pair)
+        sums += pair.sum(axis=1)
+        cross += pair @ pair.T
+        done += _CHUNK
+    N = float(done)
+    means = sums / N
+    cov = (cross / N - np.outer(means, means)) * N / (N - 1) / N  # covariance of the two means
+    if scale == "log_odds_ratio":
+        value = float(special.logit(means[0]) - special.logit(means[1]))
+        grad = np.array([1.0 / (means[0] * (1 - means[0])), -1.0 / (means[1] * (1 - means[1]))])
+    else:
+        value = float(means[0] - means[1])
+        grad = np.array([1.0, -1.0])
+    mcse = float(np.sqrt(max(grad @ cov @ grad, 0.0)))
+    return value, mcse
+
+
+def true_effect(scenario: Scenario, scale: str | None = None) -> Truth:
+    """The true effect of the question's exposure on its outcome.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    scale : {"difference", "log_odds_ratio"}, optional
+        Default the question's scale. A binary outcome's strategies may target a different scale from the
+        question's (a linear probability model estimates a difference).
+
+    Returns
+    -------
+    Truth
+
+    Notes
+    -----
+    See the module docstring for the definitions. The simulated intervention uses ``2**20`` draws with common
+    random numbers for the two worlds; its Monte Carlo SE is the SD of the per-draw contrast over
+    ``sqrt(draws)`` (delta method for the log odds ratio).
+
+    References
+    ----------
+    Wright S. (1934). The method of path coefficients. Annals of Mathematical Statistics 5:161-215.
+    Pearl J. (2009). Causality, 2nd ed., ch. 3.
+
+    Examples
+    --------
+    >>> from workbench.scenario.presets import load_preset
+    >>> t = true_effect(load_preset("common_cause"))
+    >>> t.value, t.method
+    (0.25, 'closed form')
+    """
+    q = scenario.question
+    scale = scale or q.scale
+    words = _words(scenario, scale)
+    if q.target == "direct":
+        return Truth(direct_effect(scenario), 0.0, "closed form", words, 0, scale)
+    if scenario.is_linear_gaussian and scale == "difference":
+        names = scenario.names
+        value = float(total_effects(scenario)[names.index(q.exposure), names.index(q.outcome)])
+        return Truth(value, 0.0, "closed form", words, 0, scale)
+    value, mcse = _simulated(scenario.variables, scenario.arrows, q.exposure, q.outcome, scale)
+    return Truth(value, mcse, "simulated intervention", words, TRUTH_DRAWS, scale)
+
+
+KIND_WORDS = {
+    "ols": "OLS",
+    "lpm": "linear probability model",
+    "logit": "logistic",
+    "logit_std": "standardised logistic",
+}
+"""Words for each kind of fit (see :func:`model_kind`)."""
+
+
+def model_kind(strategy: Strategy, binary_outcome: bool) -> str:
+    """The kind of fit a strategy is: ``"ols"`` (classical OLS, continuous outcome), ``"lpm"`` (OLS on a
+    binary outcome: the linear probability model, HC3 SEs), ``"logit"`` or ``"logit_std"`` (standardised).
+
+    Examples
+    --------
+    >>> model_kind(Strategy("s", (), "logit", True), True)
+    'logit_std'
+    """
+    if strategy.model == "logit":
+        return "logit_std" if strategy.standardize else "logit"
+    return "lpm" if binary_outcome else "ols"
+
+
+def estimand(kind: str, scenario: Scenario, adjust: tuple[str, ...] = ()) -> tuple[str, str, str]:
+    """What a fit of ``kind`` with adjustment set ``adjust`` estimates, the scale of the truth it is scored
+    against, and a note when the two differ by design (see ``docs/targets.md``).
+
+    Returns
+    -------
+    words : str
+        For example ``"marginal risk difference"`` or ``"conditional log odds ratio"``.
+    scale : {"difference", "log_odds_ratio"}
+        The scale of the true effect it is compared with (:func:`true_effect` with that ``scale``).
+    note : str
+        Empty, or why the estimate and its truth differ even without bias (non-collapsibility).
+
+    Examples
+    --------
+    >>> from workbench.scenario.presets import load_preset
+    >>> estimand("ols", load_preset("common_cause"))
+    ('total effect (difference in means per unit)', 'difference', '')
+    """
+    q = scenario.question
+    per_unit = "" if scenario.exposure.is_binary else " per unit"
+    if kind == "ols":
+        target = "direct effect" if q.target == "direct" else "total effect"
+        return f"{target} (difference in means{per_unit})", "difference", ""
+    if kind == "lpm":
+        return f"marginal risk difference{per_unit}", "difference", ""
+    if kind == "logit_std":
+        words = "marginal risk difference" if q.scale == "difference" else "marginal log odds ratio"
+        return f"{words}{per_unit}", q.scale, ""
+    if not adjust:
+        return f"marginal log odds ratio{per_unit}", "log_odds_ratio", ""
+    note = (
+        "conditional log odds ratio scored against the marginal log odds ratio; they differ even without "
+        f"confounding (non-collapsibility); the structural conditional log odds ratio is "
+        f"{conditional_log_odds_ratio(scenario):.4g}"
+    )
+    return f"conditional log odds ratio{per_unit}", "log_odds_ratio", note

@@ -1,0 +1,540 @@
+"""HTML tables built from library results (no Panel import), for the dashboard and the HTML report.
+
+The performance table flags a cell when the Monte Carlo evidence says something is off (Morris, White &
+Crowther 2019, "Using simulation studies to evaluate statistical methods", Statistics in Medicine
+38:2074-2102): the bias when ``|bias| > 3 x MCSE(bias)``, and the coverage when it lies outside
+``nominal +/- 3 x MCSE(coverage)``. Every number cell carries ``data-strategy``, ``data-field`` and
+``data-value`` attributes so tests and scripts can read the exact values.
+
+Examples
+--------
+>>> import pandas as pd
+>>> row = dict(name="a", adjust=[], valid=True, mean=0.25, bias=0.01, bias_mcse=0.002, relative_bias=4.0,
+...            emp_se=0.07, emp_se_mcse=0.001, model_se=0.07, model_se_mcse=0.0005, rmse=0.07,
+...            coverage=0.95, coverage_mcse=0.005, power=0.9, power_mcse=0.007, failures=0)
+>>> html = performance_table(pd.DataFrame([row]), alpha=0.05)
+>>> 'class="flag"' in html
+True
+"""
+
+from __future__ import annotations
+
+import html
+import math
+from typing import Any
+
+import pandas as pd
+
+__all__ = [
+    "fmt_mcse",
+    "effect_digits",
+    "TABLE_CSS",
+    "flags",
+    "performance_table",
+    "signals_table",
+    "strategies_table",
+    "smallest_n_table",
+    "also_smallest_n_table",
+    "fmt",
+    "estimate_decimals",
+    "with_mcse",
+    "strategy_text",
+    "selected_sets_text",
+]
+
+#: Styles of the tables (no web fonts: the system's sans-serif).
+TABLE_CSS = """
+table.wb { border-collapse: collapse; font-family: system-ui, -apple-system, "Segoe UI", sans-serif;
+  font-size: 12.5px; margin: 4px 0 8px 0; }
+table.wb th { text-align: right; padding: 4px 7px; border-bottom: 2px solid #333; font-weight: 600;
+  background: #f4f4f4; white-space: normal; vertical-align: bottom; max-width: 96px; }
+table.wb th:first-child, table.wb td:first-child, table.wb th.text { text-align: left; }
+table.wb th.text { min-width: 48px; padding-left: 12px; }
+table.wb td.text { padding-left: 12px; }
+table.wb td { text-align: right; padding: 3px 7px; vertical-align: top; border-bottom: 1px solid #ddd;
+  white-space: nowrap; font-variant-numeric: tabular-nums; }
+table.wb td.text { text-align: left; white-space: normal; }
+table.wb td.text div { max-width: 460px; min-width: 90px; }
+table.wb td.flag { background: #F0E442; font-weight: 600; }
+table.wb td.invalid { color: #A33C00; font-weight: 600; }
+table.wb td.valid { color: #00603F; font-weight: 600; }
+table.wb span.mcse { color: #666; font-size: 11px; font-weight: normal; }
+"""
+
+
+_TEXT_HEAD = {
+    h: ' class="text"'
+    for h in ("adjusts for", "estimates", "note", "why", "further effect of", "chosen most often")
+}
+
+
+def _html_table(table_id: str, head, rows: list[str]) -> str:
+    """A ``<table class="wb">`` with the column names ``head`` and the ``<tr>`` strings ``rows``."""
+    header = "".join(f"<th{_TEXT_HEAD.get(h, '')}>{html.escape(h)}</th>" for h in head)
+    return (
+        f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
+        + "".join(rows)
+        + "</tbody></table>"
+    )
+
+
+def fmt(value: Any, digits: int = 3) -> str:
+    """A number for a table: fixed decimals, '-' for missing.
+
+    Examples
+    --------
+    >>> fmt(0.123456), fmt(None), fmt(float("nan")), fmt(12)
+    ('0.123', '-', '-', '12')
+    """
+    if value is None or value is pd.NA:
+        return "-"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, int):
+        return f"{value:,}"
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return html.escape(str(value))
+    if not math.isfinite(number):
+        return "-"
+    return f"{number:.{digits}f}"
+
+
+def _get(row: Any, key: str) -> Any:
+    try:
+        value = row[key]
+    except (KeyError, IndexError):
+        return None
+    if not isinstance(value, list | tuple) and pd.isna(value):
+        return None
+    return value
+
+
+def fmt_mcse(value: Any) -> str:
+    """A Monte Carlo SE with two significant digits.
+
+    Examples
+    --------
+    >>> fmt_mcse(0.00412), fmt_mcse(5.5e-05), fmt_mcse(None)
+    ('0.0041', '5.5e-05', '-')
+    """
+    if value is None or value is pd.NA:
+        return "-"
+    number = float(value)
+    return f"{number:.2g}" if math.isfinite(number) else "-"
+
+
+def effect_digits(emp_se: Any) -> int:
+    """Decimals that show an estimate to about a hundredth of its spread (at least 3, at most 6).
+
+    Examples
+    --------
+    >>> effect_digits(3.1), effect_digits(0.02), effect_digits(None)
+    (3, 4, 3)
+    """
+    try:
+        spread = float(emp_se)
+    except (TypeError, ValueError):
+        return 3
+    if not math.isfinite(spread) or spread <= 0:
+        return 3
+    return max(3, min(6, 2 - math.floor(math.log10(spread))))
+
+
+def estimate_decimals(mcse: Any, default: int = 3) -> int:
+    """Decimals for a Monte Carlo estimate shown beside its MCSE: enough that the value carries as many
+    decimals as the MCSE's two significant digits, but at most one more than ``default``.
+
+    Examples
+    --------
+    >>> estimate_decimals(0.0041, 3), estimate_decimals(0.04, 3), estimate_decimals(None, 4)
+    (4, 3, 4)
+    """
+    try:
+        number = float(mcse)
+    except (TypeError, ValueError):
+        return default
+    if not math.isfinite(number) or number <= 0:
+        return default
+    wanted = 1 - math.floor(math.log10(number))
+    return max(default, min(wanted, default + 1))
+
+
+def with_mcse(value: Any, mcse: Any) -> str:
+    """A Monte Carlo estimate in words: rounded where its MCSE's first significant digit lies, the MCSE to
+    one significant digit (so a stakeholder is not shown digits that are noise).
+
+    Examples
+    --------
+    >>> with_mcse(-0.000495, 0.00051), with_mcse(0.2208, 0.0015), with_mcse(0.5, None)
+    ('-0.0005 (Monte Carlo SE 0.0005)', '+0.221 (Monte Carlo SE 0.002)', '+0.5')
+    """
+    number = float(value)
+    try:
+        spread = float(mcse)
+    except (TypeError, ValueError):
+        spread = math.nan
+    if not math.isfinite(spread) or spread <= 0:
+        return f"{number:+.3g}"
+    first = -math.floor(math.log10(spread))
+    decimals = max(0, min(8, first))
+    text = f"{number:+.{decimals}f}"
+    if float(text) == 0:
+        text = f"{number:.{decimals}f}".replace("-", "")
+    return f"{text} (Monte Carlo SE {spread:.1g})"
+
+
+def strategy_text(adjust: Any, selection: Any = None, restrict: Any = None, match: Any = None) -> str:
+    """What a strategy adjusts for, in words, with how the set is chosen and the units it keeps.
+
+    Examples
+    --------
+    >>> strategy_text(["a", "b"]), strategy_text([]), strategy_text(["a", "b"], "p_value")
+    ('a, b', 'nothing', 'chosen by p-value from a, b')
+    >>> strategy_text(["a"], None, {"shift": 0, "age": [1, 5]})
+    'a; only units with shift = 0, age in [1, 5]'
+    >>> strategy_text(["a"], match=["night_shift"])
+    'a; matched on night_shift'
+    """
+    names = list(adjust) if isinstance(adjust, list | tuple) else ([adjust] if adjust else [])
+    text = ", ".join(str(n) for n in names) or "nothing"
+    if isinstance(selection, str) and selection:
+        rule = {"p_value": "p-value", "change_in_estimate": "change in estimate > 10%"}.get(
+            selection, selection
+        )
+        text = f"chosen by {rule} from {text}"
+    if isinstance(restrict, dict) and restrict:
+        parts = [
+            f"{k} in [{v[0]:g}, {v[1]:g}]" if isinstance(v, list | tuple) else f"{k} = {v}"
+            for k, v in restrict.items()
+        ]
+        text += "; only units with " + ", ".join(parts)
+    if isinstance(match, list | tuple) and match:
+        text += "; matched on " + ", ".join(str(m) for m in match)
+    return text
+
+
+def selected_sets_text(sets: Any, limit: int = 3) -> str:
+    """The sets a selection rule chose most often, with their shares (``SimulationResult.table``'s
+    ``selected_sets``).
+
+    Examples
+    --------
+    >>> selected_sets_text([{"adjust": ["a"], "share": 0.57}, {"adjust": [], "share": 0.43}])
+    'a (57%); nothing (43%)'
+    """
+    if not isinstance(sets, list | tuple) or not sets:
+        return ""
+    parts = []
+    for item in list(sets)[:limit]:
+        chosen = ", ".join(item.get("adjust") or []) or "nothing"
+        parts.append(f"{chosen} ({100 * float(item.get('share', math.nan)):.0f}%)")
+    return "; ".join(parts)
+
+
+def flags(row: Any, alpha: float) -> dict[str, bool]:
+    """Which cells of a performance-table row to flag: ``bias`` when |bias| > 3 MCSE, ``coverage`` when
+    outside (1 - alpha) +/- 3 MCSE.
+
+    Examples
+    --------
+    >>> flags({"bias": 0.01, "bias_mcse": 0.002, "coverage": 0.95, "coverage_mcse": 0.005}, 0.05)
+    {'bias': True, 'coverage': False}
+    """
+    bias, bias_mcse = _get(row, "bias"), _get(row, "bias_mcse")
+    cov, cov_mcse = _get(row, "coverage"), _get(row, "coverage_mcse")
+    out = {"bias": False, "coverage": False}
+    if bias is not None and bias_mcse is not None:
+        out["bias"] = abs(bias) > 3 * bias_mcse
+    if cov is not None and cov_mcse is not None:
+        out["coverage"] = abs(cov - (1 - alpha)) > 3 * cov_mcse
+    return out
+
+
+def _cell(
+    strategy: str,
+    field: str,
+    value: Any,
+    *,
+    mcse: Any = None,
+    digits: int = 3,
+    flagged: bool = False,
+    title: str = "",
+    percent: bool = False,
+) -> str:
+    text = fmt(value, digits)
+    if percent and value is not None and math.isfinite(float(value)):
+        text = f"{100 * float(value):.{digits}f}%"
+    if mcse is not None:
+        text += f'<br><span class="mcse">&plusmn; {fmt_mcse(mcse)}</span>'
+    raw = (
+        ""
+        if value is None
+        else html.escape(repr(float(value)) if isinstance(value, int | float) else str(value))
+    )
+    attrs = f'data-strategy="{html.escape(strategy)}" data-field="{field}" data-value="{raw}"'
+    if flagged:
+        attrs += ' class="flag"'
+    if title:
+        attrs += f' title="{html.escape(title)}"'
+    return f"<td {attrs}>{text}</td>"
+
+
+def _verdict_cell(valid: Any) -> str:
+    if valid is None:
+        return "<td>-</td>"
+    return '<td class="valid">valid</td>' if bool(valid) else '<td class="invalid">invalid</td>'
+
+
+def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "performance") -> str:
+    """The performance table: each measure with its Monte Carlo SE below it, suspicious cells flagged.
+
+    Parameters
+    ----------
+    table : DataFrame
+        ``SimulationResult.table``.
+    alpha : float
+        The study's alpha; nominal coverage is 1 - alpha.
+
+    Returns
+    -------
+    str
+        An HTML table.
+
+    Examples
+    --------
+    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench.analysis.simulate import simulate
+    >>> result = simulate(load_preset("common_cause"), replicates=300, seed=1)
+    >>> html = performance_table(result.table, alpha=0.05)
+    >>> html.startswith("<table"), "flag" in html  # the unadjusted bias is flagged
+    (True, True)
+    """
+    scored = (
+        "truth" in table
+        and "estimand" in table
+        and (table["truth"].nunique(dropna=True) > 1 or table["estimand"].nunique(dropna=True) > 1)
+    )
+    head = ["strategy", "verdict", "adjusts for"]
+    if scored:
+        head += ["estimates", "its truth"]
+    selection = "selection" in table and any(isinstance(v, str) and v for v in table["selection"])
+    retained = "mean_retained_n" in table and bool(
+        pd.to_numeric(table["mean_retained_n"], errors="coerce").notna().any()
+    )
+    if selection:
+        head += ["chosen set valid in", "chosen most often"]
+    if retained:
+        head += ["units kept (mean)"]
+    head += [
+        "mean estimate",
+        "bias",
+        "relative bias %",
+        "empirical SE",
+        "model SE",
+        "RMSE",
+        f"coverage of {1 - alpha:.0%} CI",
+        "power",
+        "failed fits",
+    ]
+    rows = []
+    notes = []
+    for _, r in table.iterrows():
+        name = str(r["name"])
+        flag = flags(r, alpha)
+        adjust_text = strategy_text(
+            _get(r, "adjust"), _get(r, "selection"), _get(r, "restrict"), _get(r, "match")
+        )
+        verdict = _verdict_cell(_get(r, "valid"))
+        share = _get(r, "selected_valid_share")
+        if isinstance(_get(r, "selection"), str) and share is not None:
+            # a set chosen from the data is valid only in the studies whose chosen set is valid
+            kind = "valid" if share >= 0.95 else "invalid"
+            verdict = f'<td class="{kind}" title="share of studies whose chosen set was valid">valid in {100 * share:.0f}%</td>'
+        cells = [
+            f"<td>{html.escape(name)}</td>",
+            verdict,
+            f'<td class="text"><div>{html.escape(str(adjust_text))}</div></td>',
+        ]
+        if scored:
+            cells += [
+                f'<td class="text"><div>{html.escape(str(_get(r, "estimand") or ""))}</div></td>',
+                _cell(name, "truth", _get(r, "truth"), digits=effect_digits(_get(r, "emp_se"))),
+            ]
+        if selection:
+            share = _get(r, "selected_valid_share")
+            chosen = selected_sets_text(_get(r, "selected_sets"))
+            cells += [
+                _cell(name, "selected_valid_share", share, digits=0, percent=True)
+                if share is not None
+                else f'<td data-strategy="{html.escape(name)}" data-field="selected_valid_share">-</td>',
+                f'<td class="text" data-strategy="{html.escape(name)}" data-field="selected_sets"><div>'
+                f"{html.escape(chosen) or '-'}</div></td>",
+            ]
+        if retained:
+            cells.append(_cell(name, "mean_retained_n", _get(r, "mean_retained_n"), digits=1))
+        d = effect_digits(_get(r, "emp_se"))
+        cells += [
+            _cell(name, "mean", _get(r, "mean"), digits=d),
+            _cell(
+                name,
+                "bias",
+                _get(r, "bias"),
+                digits=estimate_decimals(_get(r, "bias_mcse"), d),
+                mcse=_get(r, "bias_mcse"),
+                flagged=flag["bias"],
+                title="|bias| exceeds 3 Monte Carlo SEs" if flag["bias"] else "",
+            ),
+            _cell(name, "relative_bias", _get(r, "relative_bias"), digits=1),
+            _cell(name, "emp_se", _get(r, "emp_se"), mcse=_get(r, "emp_se_mcse"), digits=d),
+            _cell(name, "model_se", _get(r, "model_se"), mcse=_get(r, "model_se_mcse"), digits=d),
+            _cell(name, "rmse", _get(r, "rmse"), digits=d),
+            _cell(
+                name,
+                "coverage",
+                _get(r, "coverage"),
+                mcse=_get(r, "coverage_mcse"),
+                flagged=flag["coverage"],
+                title="coverage is outside nominal +/- 3 Monte Carlo SEs" if flag["coverage"] else "",
+            ),
+            _cell(name, "power", _get(r, "power"), mcse=_get(r, "power_mcse")),
+            _cell(name, "failures", _get(r, "failures"), digits=0),
+        ]
+        rows.append("<tr>" + "".join(cells) + "</tr>")
+        note = _get(r, "note")
+        if note:
+            notes.append(f"<li><b>{html.escape(name)}</b>: {html.escape(str(note))}</li>")
+        reasons = _get(r, "failure_reasons")
+        if isinstance(reasons, dict) and reasons:
+            text = ", ".join(f"{k}: {v}" for k, v in reasons.items())
+            notes.append(f"<li><b>{html.escape(name)}</b> failed fits: {html.escape(text)}</li>")
+    out = _html_table(table_id, head, rows)
+    if notes:
+        out += f'<ul class="wb-notes" style="font-size:12px;margin:2px 0 6px 0">{"".join(notes)}</ul>'
+    return out
+
+
+def signals_table(table: pd.DataFrame, *, table_id: str = "signals") -> str:
+    """Change in estimate against the unadjusted strategy, SE ratio and the exposure's VIF per strategy.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> html = signals_table(pd.DataFrame([{"name": "a", "se_ratio": 1.25, "vif": 1.5}]))
+    >>> 'data-field="se_ratio" data-value="1.25"' in html
+    True
+    """
+    head = (
+        "strategy",
+        "median change in estimate vs unadjusted",
+        "share of replicates with change > 10%",
+        "SE ratio vs unadjusted",
+        "VIF of the exposure",
+    )
+    rows = []
+    for _, r in table.iterrows():
+        name = str(r["name"])
+        cells = [
+            f"<td>{html.escape(name)}</td>",
+            _cell(name, "change_in_estimate_median", _get(r, "change_in_estimate_median")),
+            _cell(name, "share_change_over_10pct", _get(r, "share_change_over_10pct")),
+            _cell(name, "se_ratio", _get(r, "se_ratio")),
+            _cell(name, "vif", _get(r, "vif"), digits=2),
+        ]
+        rows.append("<tr>" + "".join(cells) + "</tr>")
+    return _html_table(table_id, head, rows)
+
+
+def strategies_table(rows: list[dict], *, table_id: str = "verdicts") -> str:
+    """Strategies with their verdict and reasons (rows from ``CheckReport.strategies``).
+
+    Examples
+    --------
+    >>> html = strategies_table([{"name": "raw", "adjust": [], "valid": False, "reasons": ["a <- c -> y open"]}])
+    >>> '<td class="invalid">invalid</td>' in html, "a &lt;- c -&gt; y open" in html
+    (True, True)
+    """
+    out = []
+    for r in rows:
+        adjust = strategy_text(r.get("adjust") or [], r.get("selection"), r.get("restrict"), r.get("match"))
+        reasons = "<br>".join(html.escape(x) for x in (r.get("reasons") or []))
+        notes = "<br>".join(html.escape(x) for x in (r.get("notes") or []))
+        model = r.get("model", "ols") + (" (standardised)" if r.get("standardize") else "")
+        out.append(
+            f"<tr><td>{html.escape(r['name'])}</td>{_verdict_cell(r.get('valid'))}"
+            f'<td class="text"><div>{html.escape(adjust)}</div></td><td>{html.escape(model)}</td>'
+            f'<td class="text"><div>{reasons}{"<br><i>" + notes + "</i>" if notes else ""}</div></td></tr>'
+        )
+    return _html_table(table_id, ("strategy", "verdict", "adjusts for", "model", "why"), out)
+
+
+def smallest_n_table(smallest: pd.DataFrame, *, table_id: str = "smallest-n") -> str:
+    """The smallest n per strategy for the target power (and half-width), with notes.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> row = {"strategy": "a", "n_for_power": 131, "n_for_halfwidth": None, "valid": True, "note": ""}
+    >>> 'data-field="n_for_power" data-value="131.0"' in smallest_n_table(pd.DataFrame([row]))
+    True
+    """
+    out = []
+    for _, r in smallest.iterrows():
+        name = str(r["strategy"])
+        cells = [
+            f"<td>{html.escape(name)}</td>",
+            _verdict_cell(_get(r, "valid")),
+            _cell(name, "n_for_power", _get(r, "n_for_power"), digits=0),
+            _cell(name, "n_for_halfwidth", _get(r, "n_for_halfwidth"), digits=0),
+            f'<td class="text"><div>{html.escape(str(_get(r, "note") or ""))}</div></td>',
+        ]
+        out.append("<tr>" + "".join(cells) + "</tr>")
+    return _html_table(
+        table_id,
+        (
+            "strategy",
+            "verdict",
+            "smallest n for target power",
+            "smallest n for target half-width",
+            "note",
+        ),
+        out,
+    )
+
+
+def also_smallest_n_table(smallest: pd.DataFrame, *, table_id: str = "also-smallest-n") -> str:
+    """The smallest n reaching the target power for each further effect of ``question.also``.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> row = {"strategy": "a", "variable": "b", "n_for_power": 290, "valid": True, "note": "",
+    ...        "analytic_n_for_power": 285}
+    >>> "<td>b</td>" in also_smallest_n_table(pd.DataFrame([row]))
+    True
+    """
+    out = []
+    for _, r in smallest.iterrows():
+        name = str(r["strategy"])
+        cells = [
+            f"<td>{html.escape(name)}</td>",
+            f"<td>{html.escape(str(r['variable']))}</td>",
+            _verdict_cell(_get(r, "valid")),
+            _cell(name, "n_for_power", _get(r, "n_for_power"), digits=0),
+            _cell(name, "analytic_n_for_power", _get(r, "analytic_n_for_power"), digits=0),
+            f'<td class="text"><div>{html.escape(str(_get(r, "note") or ""))}</div></td>',
+        ]
+        out.append("<tr>" + "".join(cells) + "</tr>")
+    return _html_table(
+        table_id,
+        (
+            "strategy",
+            "further effect of",
+            "verdict",
+            "smallest n for target power",
+            "analytic approximation",
+            "note",
+        ),
+        out,
+    )

@@ -1,0 +1,959 @@
+"""Scenario files: the assumed data-generating graph, the question, the strategies and the study settings.
+
+A scenario is one TOML file (the format is documented in ``docs/scenario-format.md``). This module reads it
+into frozen dataclasses, checks every field, and writes it back. Every problem raises
+:class:`~workbench.errors.ScenarioError` with a one-line message naming the place, for example
+``arrows[3].to: unknown variable 'rainfal' (did you mean 'rainfall'?)``. Arrays are counted from 1 in
+places, as people count them.
+
+The graph is an assumption written down by the user; nothing here checks it against data.
+
+Examples
+--------
+>>> sc = load_scenario('''
+... title = "Shade cloth and seedling growth"
+... [question]
+... exposure = "shade"
+... outcome = "growth"
+... [variables.sun]
+... [variables.shade]
+... [variables.growth]
+... [[arrows]]
+... from = "sun"
+... to = "shade"
+... effect = 0.6
+... [[arrows]]
+... from = "sun"
+... to = "growth"
+... effect = 0.4
+... [[arrows]]
+... from = "shade"
+... to = "growth"
+... effect = 0.2
+... ''')
+>>> sc.question.exposure, [v.name for v in sc.variables]
+('shade', ['sun', 'shade', 'growth'])
+>>> [s.name for s in sc.strategies]
+['unadjusted', 'adjust_sun']
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import difflib
+import math
+import os
+import re
+import tempfile
+import tomllib
+import warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import tomli_w
+
+from workbench.errors import ScenarioError
+
+__all__ = [
+    "Variable",
+    "Arrow",
+    "Strategy",
+    "Question",
+    "Study",
+    "Scenario",
+    "load_scenario",
+    "save_scenario",
+    "dumps_scenario",
+    "scenario_from_dict",
+    "scenario_to_dict",
+    "MAX_VARIABLES",
+    "MAX_ARROWS",
+    "SELECTIONS",
+    "MAX_SELECTION_CANDIDATES",
+]
+
+MAX_VARIABLES = 40
+MAX_ARROWS = 200
+MAX_REPLICATES = 1_000_000
+NAME_PATTERN = re.compile(r"^[A-Za-z][A-Za-z0-9_]{0,31}$")
+VARIABLE_TYPES = ("continuous", "binary")
+TARGETS = ("total", "direct")
+SCALES = ("difference", "log_odds_ratio")
+MODELS = ("ols", "logit")
+SELECTIONS = ("p_value", "change_in_estimate")
+MAX_SELECTION_CANDIDATES = 10
+
+
+@dataclass(frozen=True)
+class Variable:
+    """One variable of the graph.
+
+    Parameters
+    ----------
+    name : str
+        A letter, then letters, digits or ``_``; at most 32 characters.
+    type : {"continuous", "binary"}
+    noise_sd : float
+        Continuous only: SD of the variable's own Gaussian disturbance.
+    baseline : float
+        Continuous only: the value when all causes are 0.
+    proportion : float or None
+        Binary only: the population share of 1s, in (0, 1).
+    observed : bool
+        False for a latent variable: simulated, never adjustable.
+    label : str or None
+        Text shown to users (with units).
+    position : tuple of two floats or None
+        Layout hint for drawing.
+    """
+
+    name: str
+    type: str = "continuous"
+    noise_sd: float = 1.0
+    baseline: float = 0.0
+    proportion: float | None = None
+    observed: bool = True
+    label: str | None = None
+    position: tuple[float, float] | None = None
+
+    @property
+    def is_binary(self) -> bool:
+        return self.type == "binary"
+
+    @property
+    def display(self) -> str:
+        """The label when there is one, else the name."""
+        return self.label or self.name
+
+
+@dataclass(frozen=True)
+class Arrow:
+    """A direct causal effect ``source -> target`` of size ``effect`` (mean scale for a continuous target,
+    log-odds scale for a binary one)."""
+
+    source: str
+    target: str
+    effect: float
+
+
+@dataclass(frozen=True)
+class Strategy:
+    """A model to compare: regress the outcome on the exposure and the variables in ``adjust``.
+
+    Parameters
+    ----------
+    name : str
+    adjust : tuple of str
+        Observed variables other than the exposure and the outcome.
+    model : {"ols", "logit"}
+    standardize : bool
+        ``logit`` only: report the marginal contrast by standardisation over the sample.
+    selection : {None, "p_value", "change_in_estimate"}
+        None: ``adjust`` is the fixed set. Otherwise ``adjust`` lists the *candidate* covariates and the rule
+        picks a subset from the data in each study (``docs/scenario-format.md``).
+    restrict : tuple of (str, value)
+        Design-stage restriction: the analysis keeps only the units whose variable takes ``value``, an int 0 or
+        1 for a binary variable, a ``(low, high)`` pair (closed interval) for a continuous one.
+    match : tuple of str
+        Design-stage exact matching (binary exposure, continuous outcome, ``ols``): within each stratum of
+        these observed binary variables, exposed and unexposed units are paired 1:1 and unpaired units are
+        dropped (``docs/scenario-format.md``).
+    """
+
+    name: str
+    adjust: tuple[str, ...] = ()
+    model: str = "ols"
+    standardize: bool = False
+    selection: str | None = None
+    restrict: tuple[tuple[str, int | tuple[float, float]], ...] = ()
+    match: tuple[str, ...] = ()
+
+    @property
+    def n_coefficients(self) -> int:
+        """Fitted coefficients: intercept, exposure and each adjusted variable (each candidate when the set
+        is selected from the data: the full model is fitted first)."""
+        return 2 + len(self.adjust)
+
+    @property
+    def restricted(self) -> tuple[str, ...]:
+        """Names of the variables the analysis restricts on."""
+        return tuple(name for name, _ in self.restrict)
+
+
+@dataclass(frozen=True)
+class Question:
+    """The effect of interest: ``exposure`` on ``outcome``, ``target`` total or direct, on ``scale``; ``also``
+    names further variables whose direct effects are reported beside it."""
+
+    exposure: str
+    outcome: str
+    target: str = "total"
+    scale: str = "difference"
+    also: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class Study:
+    """Settings of the simulated study and of the sample-size plan."""
+
+    n: int = 500
+    replicates: int = 2000
+    seed: int = 20261201
+    alpha: float = 0.05
+    sample_sizes: tuple[int, ...] = (100, 200, 400, 800, 1600)
+    target_power: float = 0.8
+    target_halfwidth: float | None = None
+
+
+@dataclass(frozen=True)
+class Scenario:
+    """A whole scenario. Build it with :func:`load_scenario` or :func:`scenario_from_dict`, which validate.
+
+    ``strategies`` is never empty: when the file gives none, the default set is filled in
+    (``strategies_given`` is then False).
+    """
+
+    title: str
+    question: Question
+    variables: tuple[Variable, ...]
+    arrows: tuple[Arrow, ...]
+    strategies: tuple[Strategy, ...]
+    study: Study = field(default_factory=Study)
+    summary: str | None = None
+    strategies_given: bool = field(default=True, compare=False)
+
+    # --- lookups ---------------------------------------------------------------------------------------
+    @property
+    def names(self) -> list[str]:
+        """Variable names in file order."""
+        return [v.name for v in self.variables]
+
+    def variable(self, name: str) -> Variable:
+        for v in self.variables:
+            if v.name == name:
+                return v
+        raise KeyError(name)
+
+    @property
+    def exposure(self) -> Variable:
+        return self.variable(self.question.exposure)
+
+    @property
+    def outcome(self) -> Variable:
+        return self.variable(self.question.outcome)
+
+    @property
+    def observed_names(self) -> list[str]:
+        return [v.name for v in self.variables if v.observed]
+
+    @property
+    def latent_names(self) -> list[str]:
+        return [v.name for v in self.variables if not v.observed]
+
+    @property
+    def is_linear_gaussian(self) -> bool:
+        """True when every variable is continuous: the graph is a linear structural model with Gaussian
+        disturbances, so its joint distribution is known in closed form."""
+        return all(v.type == "continuous" for v in self.variables)
+
+    def parents(self, name: str) -> list[tuple[str, float]]:
+        """Direct causes of ``name`` with their effects, in arrow order."""
+        return [(a.source, a.effect) for a in self.arrows if a.target == name]
+
+    def strategy(self, name: str) -> Strategy:
+        for s in self.strategies:
+            if s.name == name:
+                return s
+        raise KeyError(name)
+
+    def replace(self, **changes: Any) -> Scenario:
+        """A copy with fields changed, validated again (``strategies=None`` refills the defaults)."""
+        merged = dataclasses.replace(self, **changes)
+        data = scenario_to_dict(merged, include_default_strategies=merged.strategies_given)
+        return scenario_from_dict(data)
+
+
+# --------------------------------------------------------------------------------------------------------
+# Reading
+# --------------------------------------------------------------------------------------------------------
+_TOP_KEYS = ("title", "summary", "question", "variables", "arrows", "strategies", "study")
+_QUESTION_KEYS = ("exposure", "outcome", "target", "scale", "also")
+_VARIABLE_KEYS = ("type", "noise_sd", "baseline", "proportion", "observed", "label", "position")
+_ARROW_KEYS = ("from", "to", "effect")
+_STRATEGY_KEYS = ("name", "adjust", "model", "standardize", "selection", "restrict", "match")
+_STUDY_KEYS = ("n", "replicates", "seed", "alpha", "sample_sizes", "target_power", "target_halfwidth")
+
+
+def _suggest(word: str, choices) -> str:
+    close = difflib.get_close_matches(str(word), [str(c) for c in choices], n=1, cutoff=0.6)
+    return f" (did you mean '{close[0]}'?)" if close else ""
+
+
+def _check_keys(table: dict, allowed, where: str) -> None:
+    for key in table:
+        if key not in allowed:
+            place = f"{where}.{key}" if where else key
+            raise ScenarioError(f"unknown key '{key}'{_suggest(key, allowed)}", where=place)
+
+
+def _type_name(value: Any) -> str:
+    return {
+        bool: "a boolean",
+        int: "an integer",
+        float: "a number",
+        str: "a string",
+        list: "an array",
+        dict: "a table",
+    }.get(type(value), type(value).__name__)
+
+
+def _get(table: dict, key: str, kind: str, where: str, default: Any = None, required: bool = False) -> Any:
+    place = f"{where}.{key}" if where else key
+    if key not in table:
+        if required:
+            raise ScenarioError("missing (required)", where=place)
+        return default
+    value = table[key]
+    ok = {
+        "str": isinstance(value, str),
+        "bool": isinstance(value, bool),
+        "int": isinstance(value, int) and not isinstance(value, bool),
+        "number": isinstance(value, int | float) and not isinstance(value, bool),
+        "list": isinstance(value, list),
+        "table": isinstance(value, dict),
+    }[kind]
+    if not ok:
+        wanted = {
+            "str": "a string",
+            "bool": "true or false",
+            "int": "an integer",
+            "number": "a number",
+            "list": "an array",
+            "table": "a table",
+        }[kind]
+        raise ScenarioError(f"must be {wanted}, got {_type_name(value)} {value!r}", where=place)
+    if kind == "number":
+        value = float(value)
+        if not math.isfinite(value):
+            raise ScenarioError(f"must be a finite number, got {value!r}", where=place)
+    return value
+
+
+def _choice(value: str, choices, place: str) -> str:
+    if value not in choices:
+        options = ", ".join(f"'{c}'" for c in choices)
+        raise ScenarioError(f"must be one of {options}, got '{value}'{_suggest(value, choices)}", where=place)
+    return value
+
+
+def _known(name: Any, names, place: str) -> str:
+    if not isinstance(name, str):
+        raise ScenarioError(
+            f"must be a variable name (a string), got {_type_name(name)} {name!r}", where=place
+        )
+    if name not in names:
+        raise ScenarioError(f"unknown variable '{name}'{_suggest(name, names)}", where=place)
+    return name
+
+
+def _parse_variable(name: str, table: Any) -> Variable:
+    where = f"variables.{name}"
+    if not NAME_PATTERN.match(name):
+        raise ScenarioError(
+            "a variable name must be a letter, then letters, digits or '_', at most 32 characters",
+            where=where,
+        )
+    if not isinstance(table, dict):
+        raise ScenarioError(f"must be a table, got {_type_name(table)} {table!r}", where=where)
+    _check_keys(table, _VARIABLE_KEYS, where)
+    vtype = _choice(_get(table, "type", "str", where, "continuous"), VARIABLE_TYPES, f"{where}.type")
+    observed = _get(table, "observed", "bool", where, True)
+    label = _get(table, "label", "str", where)
+    position = _get(table, "position", "list", where)
+    if position is not None:
+        if len(position) != 2 or not all(
+            isinstance(p, int | float) and not isinstance(p, bool) for p in position
+        ):
+            raise ScenarioError(f"must be two numbers [x, y], got {position!r}", where=f"{where}.position")
+        position = (float(position[0]), float(position[1]))
+    if vtype == "binary":
+        for key in ("noise_sd", "baseline"):
+            if key in table:
+                raise ScenarioError(
+                    "applies to continuous variables only; a binary variable is set by 'proportion'",
+                    where=f"{where}.{key}",
+                )
+        proportion = _get(table, "proportion", "number", where, required=True)
+        if not 0.0 < proportion < 1.0:
+            raise ScenarioError(
+                f"must lie strictly between 0 and 1, got {proportion:g}", where=f"{where}.proportion"
+            )
+        return Variable(name, "binary", 0.0, 0.0, proportion, observed, label, position)
+    if "proportion" in table:
+        raise ScenarioError(
+            'applies to binary variables only (set type = "binary")', where=f"{where}.proportion"
+        )
+    noise_sd = _get(table, "noise_sd", "number", where, 1.0)
+    if noise_sd < 0:
+        raise ScenarioError(f"must be >= 0, got {noise_sd:g}", where=f"{where}.noise_sd")
+    if noise_sd == 0:
+        warnings.warn(
+            f"{where}.noise_sd: 0 makes '{name}' a deterministic function of its causes", stacklevel=3
+        )
+    baseline = _get(table, "baseline", "number", where, 0.0)
+    return Variable(name, "continuous", noise_sd, baseline, None, observed, label, position)
+
+
+def _find_cycle(names: list[str], arrows: list[Arrow]) -> list[str] | None:
+    children: dict[str, list[str]] = {n: [] for n in names}
+    for a in arrows:
+        children[a.source].append(a.target)
+    state: dict[str, int] = {}
+    stack: list[str] = []
+
+    def visit(node: str) -> list[str] | None:
+        state[node] = 1
+        stack.append(node)
+        for child in children[node]:
+            if state.get(child) == 1:
+                return stack[stack.index(child) :] + [child]
+            if child not in state:
+                found = visit(child)
+                if found:
+                    return found
+        state[node] = 2
+        stack.pop()
+        return None
+
+    for n in names:
+        if n not in state:
+            found = visit(n)
+            if found:
+                return found
+    return None
+
+
+def scenario_from_dict(data: dict, *, fill_default_strategies: bool = True) -> Scenario:
+    """Build and validate a scenario from the parsed TOML tables.
+
+    Parameters
+    ----------
+    data : dict
+        The TOML document as nested dicts and lists (keys as in the file: ``from``/``to`` for arrows).
+    fill_default_strategies : bool, default True
+        When the document has no ``[[strategies]]``, fill in the default set.
+
+    Returns
+    -------
+    Scenario
+
+    Raises
+    ------
+    ScenarioError
+        On the first problem found, naming its place.
+
+    Examples
+    --------
+    >>> data = {"title": "t", "question": {"exposure": "a", "outcome": "b"},
+    ...         "variables": {"a": {}, "b": {}}, "arrows": [{"from": "a", "to": "b", "effect": 0.5}]}
+    >>> [s.name for s in scenario_from_dict(data).strategies]
+    ['unadjusted']
+    >>> data["arrows"][0]["to"] = "c"
+    >>> scenario_from_dict(data)
+    Traceback (most recent call last):
+    ...
+    workbench.errors.ScenarioError: arrows[1].to: unknown variable 'c'
+    """
+    if not isinstance(data, dict):
+        raise ScenarioError("a scenario must be a TOML document (a table)")
+    _check_keys(data, _TOP_KEYS, "")
+    title = _get(data, "title", "str", "", required=True).strip()
+    if not title:
+        raise ScenarioError("must not be empty", where="title")
+    summary = _get(data, "summary", "str", "")
+
+    var_tables = _get(data, "variables", "table", "", required=True)
+    if len(var_tables) < 2:
+        raise ScenarioError("needs at least the exposure and the outcome", where="variables")
+    if len(var_tables) > MAX_VARIABLES:
+        raise ScenarioError(f"at most {MAX_VARIABLES} variables, got {len(var_tables)}", where="variables")
+    variables = tuple(_parse_variable(name, table) for name, table in var_tables.items())
+    names = [v.name for v in variables]
+
+    arrow_list = _get(data, "arrows", "list", "", default=[])
+    if len(arrow_list) > MAX_ARROWS:
+        raise ScenarioError(f"at most {MAX_ARROWS} arrows, got {len(arrow_list)}", where="arrows")
+    arrows: list[Arrow] = []
+    seen: dict[tuple[str, str], int] = {}
+    for i, table in enumerate(arrow_list, start=1):
+        where = f"arrows[{i}]"
+        if not isinstance(table, dict):
+            raise ScenarioError(
+                f"must be a table with from, to, effect, got {_type_name(table)}", where=where
+            )
+        _check_keys(table, _ARROW_KEYS, where)
+        source = _known(_get(table, "from", "str", where, required=True), names, f"{where}.from")
+        target = _known(_get(table, "to", "str", where, required=True), names, f"{where}.to")
+        effect = _get(table, "effect", "number", where, required=True)
+        if source == target:
+            raise ScenarioError(f"an arrow from '{source}' to itself is not allowed", where=where)
+        if (source, target) in seen:
+            raise ScenarioError(
+                f"duplicate arrow {source} -> {target} (also arrows[{seen[(source, target)]}])", where=where
+            )
+        seen[(source, target)] = i
+        arrows.append(Arrow(source, target, effect))
+    cycle = _find_cycle(names, arrows)
+    if cycle:
+        raise ScenarioError(
+            "cycle: " + " -> ".join(cycle) + " (a causal graph must have no cycle)", where="arrows"
+        )
+
+    q = _get(data, "question", "table", "", required=True)
+    _check_keys(q, _QUESTION_KEYS, "question")
+    exposure = _known(_get(q, "exposure", "str", "question", required=True), names, "question.exposure")
+    outcome = _known(_get(q, "outcome", "str", "question", required=True), names, "question.outcome")
+    if exposure == outcome:
+        raise ScenarioError(
+            f"the outcome must differ from the exposure (both '{exposure}')", where="question.outcome"
+        )
+    by_name = {v.name: v for v in variables}
+    for role, name in (("exposure", exposure), ("outcome", outcome)):
+        if not by_name[name].observed:
+            raise ScenarioError(
+                f"the {role} '{name}' is latent (observed = false); it must be observed",
+                where=f"question.{role}",
+            )
+    target = _choice(_get(q, "target", "str", "question", "total"), TARGETS, "question.target")
+    scale = _choice(_get(q, "scale", "str", "question", "difference"), SCALES, "question.scale")
+    outcome_binary = by_name[outcome].is_binary
+    if scale == "log_odds_ratio" and not outcome_binary:
+        raise ScenarioError(
+            f"'log_odds_ratio' needs a binary outcome; '{outcome}' is continuous", where="question.scale"
+        )
+    if target == "direct" and outcome_binary:
+        raise ScenarioError(
+            f"the 'direct' target needs a continuous outcome; '{outcome}' is binary, and its arrow from "
+            "the exposure is a conditional log odds ratio that no marginal contrast equals",
+            where="question.target",
+        )
+    also_list = _get(q, "also", "list", "question", [])
+    also: list[str] = []
+    for i, name in enumerate(also_list, start=1):
+        place = f"question.also[{i}]"
+        _known(name, names, place)
+        if name in (exposure, outcome):
+            raise ScenarioError(
+                f"'{name}' is the {'exposure' if name == exposure else 'outcome'}; "
+                "'also' names further variables",
+                where=place,
+            )
+        if not by_name[name].observed:
+            raise ScenarioError(f"'{name}' is latent and cannot be estimated", where=place)
+        if name in also:
+            raise ScenarioError(f"'{name}' is listed twice", where=place)
+        also.append(name)
+    question = Question(exposure, outcome, target, scale, tuple(also))
+
+    study_table = _get(data, "study", "table", "", {})
+    _check_keys(study_table, _STUDY_KEYS, "study")
+    defaults = Study()
+    n = _get(study_table, "n", "int", "study", defaults.n)
+    replicates = _get(study_table, "replicates", "int", "study", defaults.replicates)
+    if not 1 <= replicates <= MAX_REPLICATES:
+        raise ScenarioError(
+            f"must be between 1 and {MAX_REPLICATES:,}, got {replicates}", where="study.replicates"
+        )
+    seed = _get(study_table, "seed", "int", "study", defaults.seed)
+    if seed < 0:
+        raise ScenarioError(f"must be a non-negative integer, got {seed}", where="study.seed")
+    alpha = _get(study_table, "alpha", "number", "study", defaults.alpha)
+    if not 0.0 < alpha <= 0.5:
+        raise ScenarioError(f"must lie in (0, 0.5], got {alpha:g}", where="study.alpha")
+    sizes = _get(study_table, "sample_sizes", "list", "study", list(defaults.sample_sizes))
+    if not sizes:
+        raise ScenarioError("must list at least one sample size", where="study.sample_sizes")
+    for i, size in enumerate(sizes, start=1):
+        if not isinstance(size, int) or isinstance(size, bool) or size < 1:
+            raise ScenarioError(f"must be a positive integer, got {size!r}", where=f"study.sample_sizes[{i}]")
+    sample_sizes = tuple(sorted(set(sizes)))
+    target_power = _get(study_table, "target_power", "number", "study", defaults.target_power)
+    if not 0.0 < target_power < 1.0:
+        raise ScenarioError(
+            f"must lie strictly between 0 and 1, got {target_power:g}", where="study.target_power"
+        )
+    target_halfwidth = _get(study_table, "target_halfwidth", "number", "study", None)
+    if target_halfwidth is not None and target_halfwidth <= 0:
+        raise ScenarioError(f"must be > 0, got {target_halfwidth:g}", where="study.target_halfwidth")
+    study = Study(n, replicates, seed, alpha, sample_sizes, target_power, target_halfwidth)
+
+    strategy_list = _get(data, "strategies", "list", "", None)
+    strategies: list[Strategy] = []
+    adjustable = {v.name for v in variables if v.observed} - {exposure, outcome}
+    for i, table in enumerate(strategy_list or [], start=1):
+        where = f"strategies[{i}]"
+        if not isinstance(table, dict):
+            raise ScenarioError(f"must be a table, got {_type_name(table)}", where=where)
+        _check_keys(table, _STRATEGY_KEYS, where)
+        name = _get(table, "name", "str", where, required=True).strip()
+        if not name:
+            raise ScenarioError("must not be empty", where=f"{where}.name")
+        if any(s.name == name for s in strategies):
+            raise ScenarioError(f"duplicate strategy name '{name}'", where=f"{where}.name")
+        adjust_list = _get(table, "adjust", "list", where, [])
+        adjust: list[str] = []
+        for j, var in enumerate(adjust_list, start=1):
+            place = f"{where}.adjust[{j}]"
+            _known(var, names, place)
+            if var == exposure:
+                raise ScenarioError(f"'{var}' is the exposure; it is always in the model", where=place)
+            if var == outcome:
+                raise ScenarioError(f"'{var}' is the outcome and cannot be adjusted for", where=place)
+            if var not in adjustable:
+                raise ScenarioError(
+                    f"'{var}' is latent (observed = false) and cannot be adjusted for", where=place
+                )
+            if var in adjust:
+                raise ScenarioError(f"'{var}' is listed twice", where=place)
+            adjust.append(var)
+        model = _choice(_get(table, "model", "str", where, "ols"), MODELS, f"{where}.model")
+        if model == "logit" and not outcome_binary:
+            raise ScenarioError(
+                f"'logit' needs a binary outcome; '{outcome}' is continuous", where=f"{where}.model"
+            )
+        standardize = _get(table, "standardize", "bool", where, False)
+        if standardize and model != "logit":
+            raise ScenarioError(
+                'standardize = true applies to model = "logit" only', where=f"{where}.standardize"
+            )
+        selection = _get(table, "selection", "str", where, None)
+        if selection is not None:
+            _choice(selection, SELECTIONS, f"{where}.selection")
+            if model != "ols" or outcome_binary:
+                raise ScenarioError(
+                    'selection applies to model = "ols" with a continuous outcome only',
+                    where=f"{where}.selection",
+                )
+            if not adjust:
+                raise ScenarioError(
+                    "a selection rule needs candidate covariates in 'adjust'", where=f"{where}.selection"
+                )
+            if len(adjust) > MAX_SELECTION_CANDIDATES:
+                raise ScenarioError(
+                    f"at most {MAX_SELECTION_CANDIDATES} candidate covariates with a selection rule, "
+                    f"got {len(adjust)}",
+                    where=f"{where}.adjust",
+                )
+        restrict = _parse_restrict(table, where, by_name, exposure, outcome, adjust)
+        if restrict and (model != "ols" or outcome_binary):
+            raise ScenarioError(
+                'restrict applies to model = "ols" with a continuous outcome only', where=f"{where}.restrict"
+            )
+        match = _parse_match(table, where, by_name, exposure, outcome, adjust, model)
+        strategies.append(Strategy(name, tuple(adjust), model, standardize, selection, restrict, match))
+    if strategy_list is not None and not strategies:
+        raise ScenarioError("lists no strategy; remove the key to get the default set", where="strategies")
+
+    scenario = Scenario(
+        title,
+        question,
+        variables,
+        tuple(arrows),
+        tuple(strategies),
+        study,
+        summary,
+        strategies_given=strategy_list is not None,
+    )
+    if strategy_list is None and fill_default_strategies:
+        from workbench.graph.adjustment import default_strategies
+
+        scenario = dataclasses.replace(scenario, strategies=tuple(default_strategies(scenario)))
+    _check_sizes(scenario)
+    return scenario
+
+
+def _parse_restrict(table: dict, where: str, by_name: dict, exposure: str, outcome: str, adjust) -> tuple:
+    """``restrict = { var = 0 }`` (binary: keep units with that value) or ``{ var = [low, high] }``
+    (continuous: keep units inside the closed interval)."""
+    spec = _get(table, "restrict", "table", where, {})
+    out = []
+    for name, value in spec.items():
+        place = f"{where}.restrict.{name}"
+        _known(name, list(by_name), place)
+        if name in (exposure, outcome):
+            role = "exposure" if name == exposure else "outcome"
+            raise ScenarioError(f"'{name}' is the {role} and cannot be restricted on", where=place)
+        if not by_name[name].observed:
+            raise ScenarioError(
+                f"'{name}' is latent (observed = false) and cannot be restricted on", where=place
+            )
+        if by_name[name].is_binary:
+            if name in adjust:
+                raise ScenarioError(
+                    f"'{name}' is also in 'adjust': after restriction it is constant; drop it from 'adjust'",
+                    where=place,
+                )
+            if isinstance(value, bool) or not isinstance(value, int) or value not in (0, 1):
+                raise ScenarioError(
+                    f"'{name}' is binary: give the value to keep, 0 or 1, got {value!r}", where=place
+                )
+            out.append((name, int(value)))
+            continue
+        if (
+            not isinstance(value, list)
+            or len(value) != 2
+            or not all(isinstance(v, int | float) and not isinstance(v, bool) for v in value)
+        ):
+            raise ScenarioError(
+                f"'{name}' is continuous: give the interval to keep as [low, high], got {value!r}",
+                where=place,
+            )
+        low, high = float(value[0]), float(value[1])
+        if not (math.isfinite(low) and math.isfinite(high)) or not low < high:
+            raise ScenarioError(f"the interval must have finite low < high, got {value!r}", where=place)
+        out.append((name, (low, high)))
+    return tuple(out)
+
+
+def _parse_match(table: dict, where: str, by_name: dict, exposure: str, outcome: str, adjust, model) -> tuple:
+    """``match = ["shift", ...]``: observed binary variables to match exactly on (binary exposure, continuous
+    outcome, ``model = "ols"`` only)."""
+    spec = _get(table, "match", "list", where, [])
+    if not spec:
+        return ()
+    place = f"{where}.match"
+    if not by_name[exposure].is_binary:
+        raise ScenarioError(f"matching needs a binary exposure; '{exposure}' is continuous", where=place)
+    if by_name[outcome].is_binary:
+        raise ScenarioError(f"matching needs a continuous outcome; '{outcome}' is binary", where=place)
+    if model != "ols":
+        raise ScenarioError(f'matching applies to model = "ols" only, got {model!r}', where=place)
+    out: list[str] = []
+    for j, name in enumerate(spec, start=1):
+        here = f"{place}[{j}]"
+        _known(name, list(by_name), here)
+        if name in (exposure, outcome):
+            role = "exposure" if name == exposure else "outcome"
+            raise ScenarioError(f"'{name}' is the {role} and cannot be matched on", where=here)
+        if not by_name[name].observed:
+            raise ScenarioError(f"'{name}' is latent (observed = false) and cannot be matched on", where=here)
+        if not by_name[name].is_binary:
+            raise ScenarioError(f"'{name}' is continuous; exact matching needs a binary variable", where=here)
+        if name in out:
+            raise ScenarioError(f"'{name}' is listed twice", where=here)
+        out.append(name)
+    return tuple(out)
+
+
+def _check_sizes(scenario: Scenario) -> None:
+    """n (and every planned size) must exceed the largest strategy's fitted coefficients + 1."""
+    if not scenario.strategies:
+        return
+    widest = max(scenario.strategies, key=lambda s: s.n_coefficients)
+    p = widest.n_coefficients
+    needed = p + 2
+    if scenario.study.n < needed:
+        raise ScenarioError(
+            f"n = {scenario.study.n} is too small for strategy '{widest.name}' ({p} coefficients); "
+            f"n must be at least {needed}",
+            where="study.n",
+        )
+    for i, size in enumerate(scenario.study.sample_sizes, start=1):
+        if size < needed:
+            raise ScenarioError(
+                f"{size} is too small for strategy '{widest.name}' ({p} coefficients); sizes must be at "
+                f"least {needed}",
+                where=f"study.sample_sizes[{i}]",
+            )
+
+
+_TOML_POSITION = re.compile(r"\(at line (\d+), column (\d+)\)")
+
+
+def _parse_text(text: str, source: str | None) -> dict:
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        message = str(exc)
+        match = _TOML_POSITION.search(message)
+        problem = _TOML_POSITION.sub("", message).strip().rstrip(".")
+        where = f"line {match.group(1)}, column {match.group(2)}" if match else None
+        if source:
+            where = f"{source}: {where}" if where else source
+        raise ScenarioError(f"TOML syntax error: {problem}", where=where) from None
+
+
+def load_scenario(path_or_text: str | os.PathLike) -> Scenario:
+    """Read and validate a scenario from a TOML file or from TOML text.
+
+    Parameters
+    ----------
+    path_or_text : str or path-like
+        A path to a ``.toml`` file, or the TOML text itself (any string with a newline or an ``=``).
+
+    Returns
+    -------
+    Scenario
+
+    Raises
+    ------
+    ScenarioError
+        One line naming the file, the place and the problem.
+
+    Examples
+    --------
+    >>> load_scenario('title = "x"')
+    Traceback (most recent call last):
+    ...
+    workbench.errors.ScenarioError: variables: missing (required)
+    """
+    source = None
+    if isinstance(path_or_text, os.PathLike) or ("\n" not in path_or_text and "=" not in path_or_text):
+        path = Path(path_or_text)
+        source = str(path)
+        try:
+            text = path.read_text(encoding="utf-8")
+        except FileNotFoundError:
+            raise ScenarioError("no such file", where=source) from None
+        except UnicodeDecodeError:
+            raise ScenarioError("is not UTF-8 text; a scenario is a TOML text file", where=source) from None
+        except IsADirectoryError:
+            raise ScenarioError("is a folder, not a scenario file", where=source) from None
+        except OSError as exc:
+            raise ScenarioError(f"cannot read: {exc.strerror or exc}", where=source) from None
+    else:
+        text = path_or_text
+    data = _parse_text(text, source)
+    if source is None:
+        return scenario_from_dict(data)
+    try:
+        return scenario_from_dict(data)
+    except ScenarioError as exc:
+        raise ScenarioError(exc.problem, where=f"{source}: {exc.where}" if exc.where else source) from None
+
+
+# --------------------------------------------------------------------------------------------------------
+# Writing
+# --------------------------------------------------------------------------------------------------------
+def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = True) -> dict:
+    """The scenario as TOML-ready nested dicts (keys as in the file). Default values are written out too,
+    so the file says everything it assumes.
+
+    Examples
+    --------
+    >>> from workbench.scenario.presets import load_preset
+    >>> scenario_to_dict(load_preset("common_cause"))["arrows"][0]
+    {'from': 'soil_quality', 'to': 'fertiliser', 'effect': 0.6}
+    """
+    q = scenario.question
+    out: dict[str, Any] = {"title": scenario.title}
+    if scenario.summary is not None:
+        out["summary"] = scenario.summary
+    question: dict[str, Any] = {
+        "exposure": q.exposure,
+        "outcome": q.outcome,
+        "target": q.target,
+        "scale": q.scale,
+    }
+    if q.also:
+        question["also"] = list(q.also)
+    out["question"] = question
+    variables: dict[str, Any] = {}
+    for v in scenario.variables:
+        table: dict[str, Any] = {"type": v.type}
+        if v.is_binary:
+            table["proportion"] = v.proportion
+        else:
+            table["noise_sd"] = v.noise_sd
+            table["baseline"] = v.baseline
+        table["observed"] = v.observed
+        if v.label is not None:
+            table["label"] = v.label
+        if v.position is not None:
+            table["position"] = list(v.position)
+        variables[v.name] = table
+    out["variables"] = variables
+    out["arrows"] = [{"from": a.source, "to": a.target, "effect": a.effect} for a in scenario.arrows]
+    if include_default_strategies or scenario.strategies_given:
+        strategies = []
+        for s in scenario.strategies:
+            table = {"name": s.name, "adjust": list(s.adjust), "model": s.model}
+            if s.standardize:
+                table["standardize"] = True
+            if s.selection is not None:
+                table["selection"] = s.selection
+            if s.restrict:
+                table["restrict"] = {
+                    name: list(value) if isinstance(value, tuple) else value for name, value in s.restrict
+                }
+            if s.match:
+                table["match"] = list(s.match)
+            strategies.append(table)
+        out["strategies"] = strategies
+    st = scenario.study
+    study: dict[str, Any] = {
+        "n": st.n,
+        "replicates": st.replicates,
+        "seed": st.seed,
+        "alpha": st.alpha,
+        "sample_sizes": list(st.sample_sizes),
+        "target_power": st.target_power,
+    }
+    if st.target_halfwidth is not None:
+        study["target_halfwidth"] = st.target_halfwidth
+    out["study"] = study
+    return out
+
+
+def dumps_scenario(scenario: Scenario, *, include_default_strategies: bool = True) -> str:
+    """The scenario as TOML text that :func:`load_scenario` reads back to an equal scenario.
+
+    Examples
+    --------
+    >>> from workbench.scenario.presets import load_preset
+    >>> sc = load_preset("common_cause")
+    >>> load_scenario(dumps_scenario(sc)) == sc
+    True
+    """
+    return tomli_w.dumps(scenario_to_dict(scenario, include_default_strategies=include_default_strategies))
+
+
+def write_text_atomically(path: str | os.PathLike, text: str) -> None:
+    """Write ``text`` to ``path`` through a temporary file in the same folder and a rename, so a crash never
+    leaves a half-written file in place of the user's."""
+    path = Path(path)
+    directory = path.parent if str(path.parent) else Path(".")
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=directory)
+    try:
+        try:  # keep an existing file's permissions; a new file gets the usual ones (0666 less the umask)
+            mode = path.stat().st_mode & 0o777
+        except FileNotFoundError:
+            umask = os.umask(0)
+            os.umask(umask)
+            mode = 0o666 & ~umask
+        os.chmod(tmp, mode)
+        with os.fdopen(fd, "w", encoding="utf-8") as handle:
+            handle.write(text)
+            handle.flush()
+            os.fsync(handle.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+def save_scenario(scenario: Scenario, path: str | os.PathLike) -> None:
+    """Write the scenario as TOML, atomically (temporary file and rename).
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> sc = load_scenario('title = "t"\\n[question]\\nexposure = "a"\\noutcome = "b"\\n'
+    ...                    '[variables.a]\\n[variables.b]\\n[[arrows]]\\nfrom = "a"\\nto = "b"\\neffect = 1.0\\n')
+    >>> target = pathlib.Path(tempfile.mkdtemp()) / "copy.toml"
+    >>> save_scenario(sc, target)
+    >>> load_scenario(target) == sc
+    True
+    """
+    write_text_atomically(path, dumps_scenario(scenario))

@@ -1,0 +1,96 @@
+"""The built-in presets: invented scenarios of our own, one lesson each.
+
+Presets ship as package data (the top-level ``presets/`` folder is their source and is installed as the
+``workbench.preset_data`` package), so they are found after a plain ``pip install .`` from any directory. Loading
+is by name only, never by a path taken from a user interface.
+
+Examples
+--------
+>>> "common_cause" in list_presets()
+True
+"""
+
+from __future__ import annotations
+
+import re
+from importlib import resources
+from pathlib import Path
+
+from workbench.errors import ScenarioError
+from workbench.scenario.parse import Scenario, load_scenario
+
+__all__ = ["DEFAULT_PRESET", "list_presets", "preset_text", "load_preset"]
+
+DEFAULT_PRESET = "common_cause"
+_NAME = re.compile(r"^[a-z][a-z0-9_]{0,63}$")
+
+
+def _folder():
+    try:
+        folder = resources.files("workbench.preset_data")
+        if any(str(p.name).endswith(".toml") for p in folder.iterdir()):
+            return folder
+    except (ModuleNotFoundError, FileNotFoundError, NotADirectoryError, TypeError):
+        pass
+    return Path(__file__).resolve().parent.parent / "presets"  # running from a source checkout
+
+
+def list_presets() -> dict[str, str]:
+    """Names of the built-in presets mapped to their titles, in name order.
+
+    Examples
+    --------
+    >>> list_presets()["common_cause"]
+    'Fertiliser and wheat yield on hillside farms'
+    """
+    out = {}
+    for entry in sorted(_folder().iterdir(), key=lambda p: p.name):
+        if entry.name.endswith(".toml"):
+            name = entry.name[: -len(".toml")]
+            match = re.search(r'^title\s*=\s*"(.*)"\s*$', entry.read_text(encoding="utf-8"), re.MULTILINE)
+            out[name] = match.group(1) if match else name
+    return out
+
+
+def preset_text(name: str) -> str:
+    """The TOML text of a built-in preset.
+
+    Raises
+    ------
+    ScenarioError
+        For a name that is not a preset (the message lists the presets).
+
+    Examples
+    --------
+    >>> preset_text("common_cause").splitlines()[0]
+    'title = "Fertiliser and wheat yield on hillside farms"'
+    """
+    if not isinstance(name, str) or not _NAME.match(name):
+        raise ScenarioError(f"not a preset name: {name!r}", where="preset")
+    entry = _folder() / f"{name}.toml"
+    if not entry.is_file():
+        choices = ", ".join(list_presets())
+        raise ScenarioError(f"no preset named '{name}'; the presets are: {choices}", where="preset")
+    return entry.read_text(encoding="utf-8")
+
+
+def load_preset(name: str) -> Scenario:
+    """Load a built-in preset by name.
+
+    Raises
+    ------
+    ScenarioError
+        When there is no such preset (the message lists the names).
+
+    Examples
+    --------
+    >>> load_preset("mediator").question.outcome
+    'output'
+    """
+    text = preset_text(name)
+    try:
+        return load_scenario(text)
+    except ScenarioError as exc:
+        raise ScenarioError(
+            exc.problem, where=f"preset {name}: {exc.where}" if exc.where else f"preset {name}"
+        ) from None
