@@ -34,7 +34,63 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["MEASURES", "performance"]
+__all__ = [
+    "MEASURES",
+    "performance",
+    "is_biased",
+    "coverage_is_off",
+    "BIAS_MCSE_MULTIPLE",
+    "BIAS_RELATIVE_FLOOR",
+]
+
+BIAS_MCSE_MULTIPLE = 3.0
+"""A measure is judged off its target when it lies more than this many Monte Carlo SEs away (about a 0.3%
+chance for an unbiased estimate: common practice, no source)."""
+BIAS_RELATIVE_FLOOR = 0.05
+"""...and, for the bias, when it is at least this share of the true value's size, so that a bias too small
+to matter is not called one when the replicates are many."""
+
+
+def is_biased(bias, bias_mcse, truth) -> bool:
+    """The one rule for calling a simulated strategy *biased*: ``|bias| > 3 MCSE(bias)`` and
+    ``|bias| >= 5% of |truth|`` (the second part only when the truth is not 0).
+
+    Every output (the run's table and notes, the planner, the explanations, the dashboard) calls this
+    function; ``docs/roles-and-verdicts.md`` states the rule. Missing values give False.
+
+    Examples
+    --------
+    >>> is_biased(0.06, 0.01, 0.25), is_biased(0.02, 0.005, 1.0), is_biased(0.02, 0.005, 0.0)
+    (True, False, True)
+    >>> is_biased(float("nan"), 0.01, 1.0)
+    False
+    """
+    try:
+        bias, mcse, truth = float(bias), float(bias_mcse), float(truth)
+    except (TypeError, ValueError):
+        return False
+    if not (np.isfinite(bias) and np.isfinite(mcse)):
+        return False
+    big_enough = not np.isfinite(truth) or truth == 0 or abs(bias) >= BIAS_RELATIVE_FLOOR * abs(truth)
+    return bool(abs(bias) > BIAS_MCSE_MULTIPLE * mcse and big_enough)
+
+
+def coverage_is_off(coverage, coverage_mcse, nominal) -> bool:
+    """True when coverage lies more than 3 Monte Carlo SEs from the nominal level (either side).
+
+    Examples
+    --------
+    >>> coverage_is_off(0.90, 0.005, 0.95), coverage_is_off(0.947, 0.005, 0.95)
+    (True, False)
+    """
+    try:
+        coverage, mcse = float(coverage), float(coverage_mcse)
+    except (TypeError, ValueError):
+        return False
+    if not (np.isfinite(coverage) and np.isfinite(mcse)):
+        return False
+    return bool(abs(coverage - nominal) > BIAS_MCSE_MULTIPLE * mcse)
+
 
 MEASURES = (
     "mean",

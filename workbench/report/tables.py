@@ -25,6 +25,9 @@ from typing import Any
 
 import pandas as pd
 
+from workbench.formatting.numbers import effect_digits, estimate_decimals, fmt, fmt_mcse, with_mcse
+from workbench.formatting.phrases import selected_sets_text, strategy_text
+
 __all__ = [
     "fmt_mcse",
     "effect_digits",
@@ -78,29 +81,6 @@ def _html_table(table_id: str, head, rows: list[str]) -> str:
     )
 
 
-def fmt(value: Any, digits: int = 3) -> str:
-    """A number for a table: fixed decimals, '-' for missing.
-
-    Examples
-    --------
-    >>> fmt(0.123456), fmt(None), fmt(float("nan")), fmt(12)
-    ('0.123', '-', '-', '12')
-    """
-    if value is None or value is pd.NA:
-        return "-"
-    if isinstance(value, bool):
-        return "yes" if value else "no"
-    if isinstance(value, int):
-        return f"{value:,}"
-    try:
-        number = float(value)
-    except (TypeError, ValueError):
-        return html.escape(str(value))
-    if not math.isfinite(number):
-        return "-"
-    return f"{number:.{digits}f}"
-
-
 def _get(row: Any, key: str) -> Any:
     try:
         value = row[key]
@@ -109,128 +89,6 @@ def _get(row: Any, key: str) -> Any:
     if not isinstance(value, list | tuple) and pd.isna(value):
         return None
     return value
-
-
-def fmt_mcse(value: Any) -> str:
-    """A Monte Carlo SE with two significant digits.
-
-    Examples
-    --------
-    >>> fmt_mcse(0.00412), fmt_mcse(5.5e-05), fmt_mcse(None)
-    ('0.0041', '5.5e-05', '-')
-    """
-    if value is None or value is pd.NA:
-        return "-"
-    number = float(value)
-    return f"{number:.2g}" if math.isfinite(number) else "-"
-
-
-def effect_digits(emp_se: Any) -> int:
-    """Decimals that show an estimate to about a hundredth of its spread (at least 3, at most 6).
-
-    Examples
-    --------
-    >>> effect_digits(3.1), effect_digits(0.02), effect_digits(None)
-    (3, 4, 3)
-    """
-    try:
-        spread = float(emp_se)
-    except (TypeError, ValueError):
-        return 3
-    if not math.isfinite(spread) or spread <= 0:
-        return 3
-    return max(3, min(6, 2 - math.floor(math.log10(spread))))
-
-
-def estimate_decimals(mcse: Any, default: int = 3) -> int:
-    """Decimals for a Monte Carlo estimate shown beside its MCSE: enough that the value carries as many
-    decimals as the MCSE's two significant digits, but at most one more than ``default``.
-
-    Examples
-    --------
-    >>> estimate_decimals(0.0041, 3), estimate_decimals(0.04, 3), estimate_decimals(None, 4)
-    (4, 3, 4)
-    """
-    try:
-        number = float(mcse)
-    except (TypeError, ValueError):
-        return default
-    if not math.isfinite(number) or number <= 0:
-        return default
-    wanted = 1 - math.floor(math.log10(number))
-    return max(default, min(wanted, default + 1))
-
-
-def with_mcse(value: Any, mcse: Any) -> str:
-    """A Monte Carlo estimate in words: rounded where its MCSE's first significant digit lies, the MCSE to
-    one significant digit (so a stakeholder is not shown digits that are noise).
-
-    Examples
-    --------
-    >>> with_mcse(-0.000495, 0.00051), with_mcse(0.2208, 0.0015), with_mcse(0.5, None)
-    ('-0.0005 (Monte Carlo SE 0.0005)', '+0.221 (Monte Carlo SE 0.002)', '+0.5')
-    """
-    number = float(value)
-    try:
-        spread = float(mcse)
-    except (TypeError, ValueError):
-        spread = math.nan
-    if not math.isfinite(spread) or spread <= 0:
-        return f"{number:+.3g}"
-    first = -math.floor(math.log10(spread))
-    decimals = max(0, min(8, first))
-    text = f"{number:+.{decimals}f}"
-    if float(text) == 0:
-        text = f"{number:.{decimals}f}".replace("-", "")
-    return f"{text} (Monte Carlo SE {spread:.1g})"
-
-
-def strategy_text(adjust: Any, selection: Any = None, restrict: Any = None, match: Any = None) -> str:
-    """What a strategy adjusts for, in words, with how the set is chosen and the units it keeps.
-
-    Examples
-    --------
-    >>> strategy_text(["a", "b"]), strategy_text([]), strategy_text(["a", "b"], "p_value")
-    ('a, b', 'nothing', 'chosen by p-value from a, b')
-    >>> strategy_text(["a"], None, {"shift": 0, "age": [1, 5]})
-    'a; only units with shift = 0, age in [1, 5]'
-    >>> strategy_text(["a"], match=["night_shift"])
-    'a; matched on night_shift'
-    """
-    names = list(adjust) if isinstance(adjust, list | tuple) else ([adjust] if adjust else [])
-    text = ", ".join(str(n) for n in names) or "nothing"
-    if isinstance(selection, str) and selection:
-        rule = {"p_value": "p-value", "change_in_estimate": "change in estimate > 10%"}.get(
-            selection, selection
-        )
-        text = f"chosen by {rule} from {text}"
-    if isinstance(restrict, dict) and restrict:
-        parts = [
-            f"{k} in [{v[0]:g}, {v[1]:g}]" if isinstance(v, list | tuple) else f"{k} = {v}"
-            for k, v in restrict.items()
-        ]
-        text += "; only units with " + ", ".join(parts)
-    if isinstance(match, list | tuple) and match:
-        text += "; matched on " + ", ".join(str(m) for m in match)
-    return text
-
-
-def selected_sets_text(sets: Any, limit: int = 3) -> str:
-    """The sets a selection rule chose most often, with their shares (``SimulationResult.table``'s
-    ``selected_sets``).
-
-    Examples
-    --------
-    >>> selected_sets_text([{"adjust": ["a"], "share": 0.57}, {"adjust": [], "share": 0.43}])
-    'a (57%); nothing (43%)'
-    """
-    if not isinstance(sets, list | tuple) or not sets:
-        return ""
-    parts = []
-    for item in list(sets)[:limit]:
-        chosen = ", ".join(item.get("adjust") or []) or "nothing"
-        parts.append(f"{chosen} ({100 * float(item.get('share', math.nan)):.0f}%)")
-    return "; ".join(parts)
 
 
 def flags(row: Any, alpha: float) -> dict[str, bool]:
