@@ -33,8 +33,8 @@ import numpy as np
 import statsmodels.api as sm
 
 import workbench as wb
-from workbench.analysis.simulate import MEMORY_BUDGET, _chunk_size, _plan, _Stream, run_replicates
 from workbench.engine.generate import block_seed, draw_rows, structure
+from workbench.engine.replicates import MEMORY_BUDGET, _chunk_size, _Stream, fit_plan, run_replicates
 
 DEPOT_TEXT = """
 title = "Night shifts and packing errors in a warehouse"
@@ -113,7 +113,7 @@ def peak_rss_child(replicates: int, n: int) -> tuple[float, float, float]:
         f"""
         import resource, time
         import workbench as wb
-        from workbench.analysis.simulate import run_replicates
+        from workbench.engine.replicates import run_replicates
         sc = wb.load_scenario({DEPOT_TEXT!r})
         run_replicates(sc, 50, 10, seed=1)  # imports and caches
         base = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
@@ -204,7 +204,7 @@ def main(argv=None) -> int:
 
     # 4. raw engine vs only drawing the same random numbers ---------------------------------------------
     k = structure(depot).k
-    chunk = _chunk_size("raw", n, k, _plan(depot), R, None)
+    chunk = _chunk_size("raw", n, k, fit_plan(depot), R, None)
 
     def draw_only():
         stream = _Stream(np.random.SeedSequence(seed))

@@ -19,8 +19,8 @@ from workbench.app.state import (
     SimulationJob,
     Workbench,
 )
-from workbench.scenario.parse import dumps_scenario
 from workbench.scenario.presets import load_preset, preset_text
+from workbench.scenario.write import dumps_scenario
 
 
 @pytest.fixture

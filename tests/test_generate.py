@@ -7,7 +7,6 @@ import pytest
 from scipy import special
 
 import workbench as wb
-from workbench.analysis.simulate import run_replicates
 from workbench.engine.generate import (
     block_seed,
     calibrate_intercepts,
@@ -16,6 +15,7 @@ from workbench.engine.generate import (
     evaluate,
     structure,
 )
+from workbench.engine.replicates import run_replicates
 
 
 def build(variables, arrows, exposure, outcome, strategies=(("unadjusted", ()),), study=""):

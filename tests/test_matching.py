@@ -11,11 +11,13 @@ from scipy import stats
 
 import workbench as wb
 from workbench.analysis.check import check
-from workbench.analysis.simulate import _matching_mask, choose_engine, run_replicates, simulate
+from workbench.analysis.simulate import simulate
+from workbench.engine.replicates import _matching_mask, choose_engine, run_replicates
 from workbench.errors import ScenarioError, SimulationError
 from workbench.report.tables import strategy_text
-from workbench.scenario.parse import dumps_scenario, load_scenario
+from workbench.scenario.parse import load_scenario
 from workbench.scenario.presets import load_preset
+from workbench.scenario.write import dumps_scenario
 
 PRESET = load_preset("restriction")
 

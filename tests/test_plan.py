@@ -321,7 +321,7 @@ def test_ci_halfwidth_falls_as_one_over_root_n(effect, n):
 
 def test_raw_engine_search_fits_only_the_strategies_it_needs_with_the_same_numbers():
     """A bisection size fitted for one strategy alone gives the same power as fitting them all."""
-    from workbench.analysis.simulate import run_replicates
+    from workbench.engine.replicates import run_replicates
 
     sc = load_preset("binary_exposure")
     result = plan(sc, sample_sizes=[100, 400], replicates=200, seed=8)

@@ -10,13 +10,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from workbench.errors import ScenarioError
-from workbench.scenario.parse import (
-    MAX_ARROWS,
-    MAX_VARIABLES,
-    dumps_scenario,
-    load_scenario,
-    scenario_from_dict,
-)
+from workbench.scenario.constraints import MAX_ARROWS, MAX_VARIABLES
+from workbench.scenario.parse import load_scenario, scenario_from_dict
+from workbench.scenario.write import dumps_scenario
 
 BASE = """title = "Drip irrigation and harvest"
 [question]

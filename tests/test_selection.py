@@ -10,10 +10,12 @@ import pytest
 
 import workbench as wb
 from workbench.analysis.check import check
-from workbench.analysis.simulate import TABLE_COLUMNS, run_replicates, simulate
+from workbench.analysis.simulate import TABLE_COLUMNS, simulate
+from workbench.engine.replicates import run_replicates
 from workbench.errors import ScenarioError
-from workbench.scenario.parse import dumps_scenario, load_scenario
+from workbench.scenario.parse import load_scenario
 from workbench.scenario.presets import load_preset
+from workbench.scenario.write import dumps_scenario
 
 PRESET = load_preset("selection_by_significance")
 

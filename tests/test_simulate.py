@@ -10,7 +10,8 @@ import pandas as pd
 import pytest
 
 import workbench as wb
-from workbench.analysis.simulate import REQUIRED_KEYS, run_replicates, simulate
+from workbench.analysis.simulate import REQUIRED_KEYS, simulate
+from workbench.engine.replicates import run_replicates
 from workbench.errors import Cancelled, SimulationError
 
 
@@ -241,13 +242,13 @@ def test_huge_n_is_drawn_in_row_groups_with_the_same_numbers(monkeypatch):
     (pieces of PIECE rows) makes the result equal to the whole-replicate path up to rounding."""
     from workbench.engine.generate import PIECE
 
-    engine = importlib.import_module("workbench.analysis.simulate")
+    engine = importlib.import_module("workbench.engine.replicates")
 
     n = 2 * PIECE + 123
     whole = run_replicates(WORKSHOP, n, 2, seed=6, engine="raw")
-    assert not engine._piecewise(n, 4, engine._plan(WORKSHOP))
+    assert not engine._piecewise(n, 4, engine.fit_plan(WORKSHOP))
     monkeypatch.setattr(engine, "MEMORY_BUDGET", 2**20)
-    assert engine._piecewise(n, 4, engine._plan(WORKSHOP))
+    assert engine._piecewise(n, 4, engine.fit_plan(WORKSHOP))
     pieces = run_replicates(WORKSHOP, n, 2, seed=6, engine="raw")
     np.testing.assert_allclose(pieces.estimate, whole.estimate, rtol=1e-9)
     np.testing.assert_allclose(pieces.se, whole.se, rtol=1e-9)

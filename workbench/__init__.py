@@ -18,24 +18,15 @@ __version__ = "0.1.0"
 from workbench.analysis.check import CheckReport, check
 from workbench.analysis.estimate import estimate
 from workbench.analysis.plan import PlanResult, plan
-from workbench.analysis.simulate import ReplicateArrays, SimulationResult, run_replicates, simulate
+from workbench.analysis.simulate import SimulationResult, simulate
 from workbench.engine.generate import draw
+from workbench.engine.replicates import ReplicateArrays, run_replicates
 from workbench.engine.truth import Truth, true_effect
 from workbench.errors import Cancelled, ScenarioError, SimulationError, WorkbenchError
-from workbench.scenario.parse import (
-    Arrow,
-    Question,
-    Scenario,
-    Strategy,
-    Study,
-    Variable,
-    dumps_scenario,
-    load_scenario,
-    save_scenario,
-    scenario_from_dict,
-    scenario_to_dict,
-)
+from workbench.scenario.model import Arrow, Question, Scenario, Strategy, Study, Variable
+from workbench.scenario.parse import load_scenario, scenario_from_dict
 from workbench.scenario.presets import list_presets, load_preset
+from workbench.scenario.write import dumps_scenario, save_scenario, scenario_to_dict
 
 __all__ = [
     "__version__",

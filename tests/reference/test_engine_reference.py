@@ -8,9 +8,10 @@ import pytest
 from scipy import special, stats
 
 import workbench as wb
-from workbench.analysis.simulate import run_replicates, simulate
+from workbench.analysis.simulate import simulate
 from workbench.engine import truth
 from workbench.engine.generate import calibrate_intercepts
+from workbench.engine.replicates import run_replicates
 from workbench.engine.wishart import draw_wishart
 from workbench.graph import linear
 

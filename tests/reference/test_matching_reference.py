@@ -16,8 +16,9 @@ import pytest
 import statsmodels.api as sm
 
 from workbench.analysis.estimate import estimate
-from workbench.analysis.simulate import run_replicates, simulate
+from workbench.analysis.simulate import simulate
 from workbench.engine.generate import block_seed, draw, draw_rows
+from workbench.engine.replicates import run_replicates
 from workbench.scenario.parse import load_scenario
 from workbench.scenario.presets import load_preset
 
@@ -116,7 +117,7 @@ def test_matched_batched_fits_match_statsmodels_per_replicate():
 
 def test_pandas_rule_with_two_matched_variables_agrees():
     """Source: independent pandas implementation of the stated rule, two matched variables (exact)."""
-    from workbench.analysis.simulate import _matching_mask
+    from workbench.engine.replicates import _matching_mask
 
     rng = np.random.default_rng(5)
     df = pd.DataFrame(

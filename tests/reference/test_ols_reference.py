@@ -14,8 +14,8 @@ import statsmodels.api as sm
 
 import workbench as wb
 from workbench.analysis.estimate import estimate
-from workbench.analysis.simulate import run_replicates
 from workbench.engine.generate import block_seed, draw, draw_rows
+from workbench.engine.replicates import run_replicates
 
 ORCHARD = wb.load_scenario(
     """

@@ -21,8 +21,9 @@ from scipy.stats import norm
 
 from workbench.graph import linear
 from workbench.graph.adjustment import find_roles
-from workbench.scenario.parse import dumps_scenario, load_scenario
+from workbench.scenario.parse import load_scenario
 from workbench.scenario.presets import DEFAULT_PRESET, list_presets, load_preset
+from workbench.scenario.write import dumps_scenario
 
 PRESETS = sorted(list_presets())
 MATERIAL = 0.2  # a bias of at least 20% of the true effect counts as material (common practice, no source)

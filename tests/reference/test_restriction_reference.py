@@ -16,8 +16,9 @@ import statsmodels.api as sm
 
 import workbench as wb
 from workbench.analysis.estimate import estimate
-from workbench.analysis.simulate import run_replicates, simulate
+from workbench.analysis.simulate import simulate
 from workbench.engine.generate import block_seed, draw, draw_rows
+from workbench.engine.replicates import run_replicates
 from workbench.scenario.presets import load_preset
 
 WAREHOUSE = load_preset("restriction")

@@ -13,7 +13,7 @@ from functools import lru_cache
 from typing import Any
 
 from workbench.graph import adjustment, linear
-from workbench.scenario.parse import Scenario
+from workbench.scenario.model import Scenario
 
 __all__ = ["CheckReport", "check", "large_sample_rows", "large_sample_selection"]
 

@@ -37,7 +37,7 @@ import pandas as pd
 from workbench.engine.ols import crossproducts, ols_fit, select_covariates, selected_names, t_inference
 from workbench.engine.truth import estimand, model_kind
 from workbench.errors import ScenarioError
-from workbench.scenario.parse import Scenario
+from workbench.scenario.model import Scenario
 
 __all__ = ["estimate"]
 
@@ -223,7 +223,7 @@ def _restriction_rows(columns: dict, restrict, n: int) -> np.ndarray:
 
 def _matched_rows(columns: dict, exposure: str, match, keep: np.ndarray) -> np.ndarray:
     """The rows among ``keep`` that exact 1:1 matching on ``match`` retains (the simulation's rule)."""
-    from workbench.analysis.simulate import _matching_mask
+    from workbench.engine.replicates import _matching_mask
 
     names = [exposure, *match]
     data = np.stack([columns[v] for v in names])[None]

@@ -51,11 +51,12 @@ import numpy as np
 import pandas as pd
 
 from workbench.analysis.power import analytic_covariance, find_smallest_n, large_sample
-from workbench.analysis.simulate import choose_engine, run_replicates
+from workbench.engine.replicates import choose_engine, run_replicates
 from workbench.engine.truth import true_effect
 from workbench.errors import SimulationError
 from workbench.graph.adjustment import judge, judge_strategy
-from workbench.scenario.parse import Scenario, write_text_atomically
+from workbench.scenario.model import Scenario
+from workbench.scenario.write import write_text_atomically
 
 __all__ = ["PlanResult", "plan", "RELATIVE_RESOLUTION", "ABSOLUTE_RESOLUTION"]
 

@@ -49,7 +49,7 @@ import numpy as np
 from scipy import stats
 
 from workbench.graph.linear import implied_covariance, population_regression
-from workbench.scenario.parse import Scenario
+from workbench.scenario.model import Scenario
 
 __all__ = [
     "LargeSample",

@@ -40,14 +40,10 @@ from typing import Any
 import param
 
 from workbench.errors import Cancelled, ScenarioError, WorkbenchError
-from workbench.scenario.parse import (
-    Scenario,
-    dumps_scenario,
-    load_scenario,
-    scenario_from_dict,
-    scenario_to_dict,
-)
+from workbench.scenario.model import Scenario
+from workbench.scenario.parse import load_scenario, scenario_from_dict
 from workbench.scenario.presets import DEFAULT_PRESET, list_presets, preset_text
+from workbench.scenario.write import dumps_scenario, scenario_to_dict
 
 __all__ = [
     "MAX_UPLOAD_BYTES",
@@ -88,7 +84,7 @@ def strategy_fields() -> set[str]:
     """
     import dataclasses
 
-    from workbench.scenario.parse import Strategy
+    from workbench.scenario.model import Strategy
 
     return {f.name for f in dataclasses.fields(Strategy)}
 

@@ -28,7 +28,7 @@ from workbench.app.state import (
     strategy_fields,
 )
 from workbench.report import figures, tables
-from workbench.scenario.parse import Scenario
+from workbench.scenario.model import Scenario
 
 __all__ = [
     "ErrorBox",

@@ -57,7 +57,7 @@ def _emit_json(text: str, target: str) -> None:
     if target == "-":
         sys.stdout.write(text + "\n")
         return
-    from workbench.scenario.parse import write_text_atomically
+    from workbench.scenario.write import write_text_atomically
 
     write_text_atomically(target, text + "\n")
     print(f"wrote {target}", file=sys.stderr)

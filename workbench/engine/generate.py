@@ -58,7 +58,7 @@ import numpy as np
 import pandas as pd
 from scipy import optimize, special
 
-from workbench.scenario.parse import Scenario
+from workbench.scenario.model import Scenario
 
 __all__ = [
     "CALIBRATION_DRAWS",

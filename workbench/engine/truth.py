@@ -36,7 +36,7 @@ from scipy import special
 
 from workbench.engine.generate import _structure_cached, evaluate
 from workbench.graph.linear import total_effects
-from workbench.scenario.parse import Scenario, Strategy
+from workbench.scenario.model import Scenario, Strategy
 
 __all__ = [
     "TRUTH_DRAWS",

@@ -58,19 +58,22 @@ def strategy_text(adjust: Any, selection: Any = None, restrict: Any = None, matc
     return text
 
 
-def selected_sets_text(sets: Any, limit: int = 3) -> str:
+def selected_sets_text(sets: Any, limit: int | None = 3) -> str:
     """The sets a selection rule chose most often, with their shares (``SimulationResult.table``'s
-    ``selected_sets``).
+    ``selected_sets``); ``limit=None`` lists them all.
 
     Examples
     --------
     >>> selected_sets_text([{"adjust": ["a"], "share": 0.57}, {"adjust": [], "share": 0.43}])
     'a (57%); nothing (43%)'
+    >>> selected_sets_text([{"adjust": ["a", "b"], "share": 0.996}, {"adjust": ["b"], "share": 0.004}])
+    'a, b (100%); b (<1%)'
     """
     if not isinstance(sets, list | tuple) or not sets:
         return ""
     parts = []
     for item in list(sets)[:limit]:
         chosen = ", ".join(item.get("adjust") or []) or "nothing"
-        parts.append(f"{chosen} ({100 * float(item.get('share', math.nan)):.0f}%)")
+        share = float(item.get("share", math.nan))
+        parts.append(f"{chosen} (<1%)" if share < 0.005 else f"{chosen} ({100 * share:.0f}%)")
     return "; ".join(parts)

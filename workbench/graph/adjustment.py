@@ -42,7 +42,7 @@ from functools import lru_cache
 
 import networkx as nx
 
-from workbench.scenario.parse import Scenario, Strategy
+from workbench.scenario.model import Scenario, Strategy
 
 __all__ = [
     "ROLES",

@@ -23,7 +23,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from workbench.scenario.parse import Scenario
+from workbench.scenario.model import Scenario
 
 __all__ = [
     "effect_matrix",

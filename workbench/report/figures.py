@@ -41,7 +41,7 @@ from bokeh.models import (
 from bokeh.palettes import Cividis256
 from bokeh.plotting import figure
 
-from workbench.scenario.parse import Scenario
+from workbench.scenario.model import Scenario
 
 __all__ = [
     "ROLE_STYLE",

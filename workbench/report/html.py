@@ -32,7 +32,8 @@ from bokeh.resources import Resources
 from workbench import __version__
 from workbench.report import figures, tables
 from workbench.report.explain import ASSUMPTION_NOTE, explain
-from workbench.scenario.parse import Scenario, dumps_scenario, write_text_atomically
+from workbench.scenario.model import Scenario
+from workbench.scenario.write import dumps_scenario, write_text_atomically
 
 __all__ = ["build_report", "write_report"]
 

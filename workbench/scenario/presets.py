@@ -17,7 +17,8 @@ from importlib import resources
 from pathlib import Path
 
 from workbench.errors import ScenarioError
-from workbench.scenario.parse import Scenario, load_scenario
+from workbench.scenario.model import Scenario
+from workbench.scenario.parse import load_scenario
 
 __all__ = ["DEFAULT_PRESET", "list_presets", "preset_text", "load_preset"]
 

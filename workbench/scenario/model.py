@@ -1,0 +1,230 @@
+"""The scenario's data model: frozen dataclasses for the variables, arrows, strategies, question and study.
+
+Build a :class:`Scenario` by reading a file (:mod:`workbench.scenario.parse`), never by hand: the readers
+validate every field. The graph is an assumption written down by the user; nothing here checks it against
+data.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import re
+from dataclasses import dataclass, field
+from typing import Any
+
+from workbench.errors import UnknownNameError
+
+__all__ = [
+    "Variable",
+    "Arrow",
+    "Strategy",
+    "Question",
+    "Study",
+    "Scenario",
+    "NAME_PATTERN",
+    "VARIABLE_TYPES",
+    "TARGETS",
+    "SCALES",
+    "MODELS",
+    "SELECTIONS",
+]
+
+NAME_PATTERN = re.compile(r"^[A-Za-z][A-Za-z0-9_]{0,31}$")
+VARIABLE_TYPES = ("continuous", "binary")
+TARGETS = ("total", "direct")
+SCALES = ("difference", "log_odds_ratio")
+MODELS = ("ols", "logit")
+SELECTIONS = ("p_value", "change_in_estimate")
+MAX_SELECTION_CANDIDATES = 10
+
+
+@dataclass(frozen=True)
+class Variable:
+    """One variable of the graph.
+
+    Parameters
+    ----------
+    name : str
+        A letter, then letters, digits or ``_``; at most 32 characters.
+    type : {"continuous", "binary"}
+    noise_sd : float
+        Continuous only: SD of the variable's own Gaussian disturbance.
+    baseline : float
+        Continuous only: the value when all causes are 0.
+    proportion : float or None
+        Binary only: the population share of 1s, in (0, 1).
+    observed : bool
+        False for a latent variable: simulated, never adjustable.
+    label : str or None
+        Text shown to users (with units).
+    position : tuple of two floats or None
+        Layout hint for drawing.
+    """
+
+    name: str
+    type: str = "continuous"
+    noise_sd: float = 1.0
+    baseline: float = 0.0
+    proportion: float | None = None
+    observed: bool = True
+    label: str | None = None
+    position: tuple[float, float] | None = None
+
+    @property
+    def is_binary(self) -> bool:
+        return self.type == "binary"
+
+    @property
+    def display(self) -> str:
+        """The label when there is one, else the name."""
+        return self.label or self.name
+
+
+@dataclass(frozen=True)
+class Arrow:
+    """A direct causal effect ``source -> target`` of size ``effect`` (mean scale for a continuous target,
+    log-odds scale for a binary one)."""
+
+    source: str
+    target: str
+    effect: float
+
+
+@dataclass(frozen=True)
+class Strategy:
+    """A model to compare: regress the outcome on the exposure and the variables in ``adjust``.
+
+    Parameters
+    ----------
+    name : str
+    adjust : tuple of str
+        Observed variables other than the exposure and the outcome.
+    model : {"ols", "logit"}
+    standardize : bool
+        ``logit`` only: report the marginal contrast by standardisation over the sample.
+    selection : {None, "p_value", "change_in_estimate"}
+        None: ``adjust`` is the fixed set. Otherwise ``adjust`` lists the *candidate* covariates and the rule
+        picks a subset from the data in each study (``docs/scenario-format.md``).
+    restrict : tuple of (str, value)
+        Design-stage restriction: the analysis keeps only the units whose variable takes ``value``, an int 0 or
+        1 for a binary variable, a ``(low, high)`` pair (closed interval) for a continuous one.
+    match : tuple of str
+        Design-stage exact matching (binary exposure, continuous outcome, ``ols``): within each stratum of
+        these observed binary variables, exposed and unexposed units are paired 1:1 and unpaired units are
+        dropped (``docs/scenario-format.md``).
+    """
+
+    name: str
+    adjust: tuple[str, ...] = ()
+    model: str = "ols"
+    standardize: bool = False
+    selection: str | None = None
+    restrict: tuple[tuple[str, int | tuple[float, float]], ...] = ()
+    match: tuple[str, ...] = ()
+
+    @property
+    def n_coefficients(self) -> int:
+        """Fitted coefficients: intercept, exposure and each adjusted variable (each candidate when the set
+        is selected from the data: the full model is fitted first)."""
+        return 2 + len(self.adjust)
+
+    @property
+    def restricted(self) -> tuple[str, ...]:
+        """Names of the variables the analysis restricts on."""
+        return tuple(name for name, _ in self.restrict)
+
+
+@dataclass(frozen=True)
+class Question:
+    """The effect of interest: ``exposure`` on ``outcome``, ``target`` total or direct, on ``scale``; ``also``
+    names further variables whose direct effects are reported beside it."""
+
+    exposure: str
+    outcome: str
+    target: str = "total"
+    scale: str = "difference"
+    also: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class Study:
+    """Settings of the simulated study and of the sample-size plan."""
+
+    n: int = 500
+    replicates: int = 2000
+    seed: int = 20261201
+    alpha: float = 0.05
+    sample_sizes: tuple[int, ...] = (100, 200, 400, 800, 1600)
+    target_power: float = 0.8
+    target_halfwidth: float | None = None
+
+
+@dataclass(frozen=True)
+class Scenario:
+    """A whole scenario. Build it with :func:`load_scenario` or :func:`scenario_from_dict`, which validate.
+
+    ``strategies`` is never empty: when the file gives none, the default set is filled in
+    (``strategies_given`` is then False).
+    """
+
+    title: str
+    question: Question
+    variables: tuple[Variable, ...]
+    arrows: tuple[Arrow, ...]
+    strategies: tuple[Strategy, ...]
+    study: Study = field(default_factory=Study)
+    summary: str | None = None
+    strategies_given: bool = field(default=True, compare=False)
+
+    # --- lookups ---------------------------------------------------------------------------------------
+    @property
+    def names(self) -> list[str]:
+        """Variable names in file order."""
+        return [v.name for v in self.variables]
+
+    def variable(self, name: str) -> Variable:
+        for v in self.variables:
+            if v.name == name:
+                return v
+        raise UnknownNameError("variable", name, self.names)
+
+    @property
+    def exposure(self) -> Variable:
+        return self.variable(self.question.exposure)
+
+    @property
+    def outcome(self) -> Variable:
+        return self.variable(self.question.outcome)
+
+    @property
+    def observed_names(self) -> list[str]:
+        return [v.name for v in self.variables if v.observed]
+
+    @property
+    def latent_names(self) -> list[str]:
+        return [v.name for v in self.variables if not v.observed]
+
+    @property
+    def is_linear_gaussian(self) -> bool:
+        """True when every variable is continuous: the graph is a linear structural model with Gaussian
+        disturbances, so its joint distribution is known in closed form."""
+        return all(v.type == "continuous" for v in self.variables)
+
+    def parents(self, name: str) -> list[tuple[str, float]]:
+        """Direct causes of ``name`` with their effects, in arrow order."""
+        return [(a.source, a.effect) for a in self.arrows if a.target == name]
+
+    def strategy(self, name: str) -> Strategy:
+        for s in self.strategies:
+            if s.name == name:
+                return s
+        raise UnknownNameError("strategy", name, [s.name for s in self.strategies])
+
+    def replace(self, **changes: Any) -> Scenario:
+        """A copy with fields changed, validated again (``strategies=None`` refills the defaults)."""
+        from workbench.scenario.parse import scenario_from_dict
+        from workbench.scenario.write import scenario_to_dict
+
+        merged = dataclasses.replace(self, **changes)
+        data = scenario_to_dict(merged, include_default_strategies=merged.strategies_given)
+        return scenario_from_dict(data)
