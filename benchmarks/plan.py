@@ -29,9 +29,9 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 import numpy as np  # noqa: E402
 import statsmodels.api as sm  # noqa: E402
 
+from workbench import load_preset  # noqa: E402
 from workbench.analysis.plan import plan  # noqa: E402
 from workbench.engine.generate import draw  # noqa: E402
-from workbench.scenario.presets import load_preset  # noqa: E402
 
 GRID = [25, 50, 75, 100, 150, 200, 300, 400, 600, 800, 1200, 1600]
 REPLICATES = 2000

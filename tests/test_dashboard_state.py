@@ -12,6 +12,7 @@ import time
 
 import pytest
 
+from workbench import load_preset
 from workbench.app.state import (
     MAX_UPLOAD_BYTES,
     SampleState,
@@ -19,7 +20,7 @@ from workbench.app.state import (
     SimulationJob,
     Workbench,
 )
-from workbench.scenario.presets import load_preset, preset_text
+from workbench.scenario.presets import preset_text
 from workbench.scenario.write import dumps_scenario
 
 

@@ -11,11 +11,11 @@ from __future__ import annotations
 
 import pytest
 
+from workbench import load_preset
 from workbench.analysis.check import check
 from workbench.analysis.simulate import simulate
 from workbench.report.explain import ASSUMPTION_NOTE, explain
 from workbench.report.tables import with_mcse
-from workbench.scenario.presets import load_preset
 
 
 @pytest.fixture(scope="module")

@@ -28,7 +28,7 @@ def build(variables, arrows, exposure, outcome, strategies=(("unadjusted", ()),)
     for name, adjust in strategies:
         items = ", ".join(f'"{v}"' for v in adjust)
         text += f'[[strategies]]\nname = "{name}"\nadjust = [{items}]\n'
-    return wb.load_scenario(text + study)
+    return wb.loads_scenario(text + study)
 
 
 BAKERY = build(

@@ -10,13 +10,12 @@ import pytest
 from scipy import stats
 
 import workbench as wb
+from workbench import load_preset, loads_scenario
 from workbench.analysis.check import check
 from workbench.analysis.simulate import simulate
 from workbench.engine.replicates import _matching_mask, choose_engine, run_replicates
 from workbench.errors import ScenarioError, SimulationError
 from workbench.report.tables import strategy_text
-from workbench.scenario.parse import load_scenario
-from workbench.scenario.presets import load_preset
 from workbench.scenario.write import dumps_scenario
 
 PRESET = load_preset("restriction")
@@ -72,13 +71,13 @@ n = 200
 
 
 def scenario(strategy, base=BASE):
-    return load_scenario(base.format(strategy=strategy))
+    return loads_scenario(base.format(strategy=strategy))
 
 
 def test_match_loads_and_round_trips():
     sc = scenario('adjust = ["c"]\nmatch = ["shift", "site"]')
     assert sc.strategy("matched").match == ("shift", "site")
-    again = load_scenario(dumps_scenario(sc))
+    again = loads_scenario(dumps_scenario(sc))
     assert again == sc
     assert "match = [" in dumps_scenario(sc)
     assert scenario("adjust = []").strategy("matched").match == ()

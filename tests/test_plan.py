@@ -14,6 +14,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from workbench import load_preset, loads_scenario
 from workbench.analysis.plan import (
     ABSOLUTE_RESOLUTION,
     ALSO_COLUMNS,
@@ -25,8 +26,6 @@ from workbench.analysis.plan import (
 )
 from workbench.analysis.power import find_smallest_n, large_sample, noncentral_t_power, regression_power
 from workbench.errors import Cancelled, SimulationError
-from workbench.scenario.parse import load_scenario
-from workbench.scenario.presets import load_preset
 
 REPLICATES = 400
 TWO_STRATEGIES = """
@@ -124,7 +123,7 @@ def test_bisection_brackets_within_resolution(common_cause_plan):
 
 
 def test_target_not_reached_is_said():
-    sc = load_scenario(chain(effect=0.02))
+    sc = loads_scenario(chain(effect=0.02))
     result = plan(sc, replicates=200, seed=1)
     row = result.smallest_n.set_index("strategy").loc["adjust_crew"]
     assert pd.isna(row["n_for_power"])
@@ -132,7 +131,7 @@ def test_target_not_reached_is_said():
 
 
 def test_target_reached_below_the_grid_is_said():
-    sc = load_scenario(chain(effect=1.0))
+    sc = loads_scenario(chain(effect=1.0))
     result = plan(sc, replicates=200, seed=1)
     row = result.smallest_n.set_index("strategy").loc["adjust_crew"]
     assert row["n_for_power"] < 40
@@ -140,7 +139,7 @@ def test_target_reached_below_the_grid_is_said():
 
 
 def test_zero_effect_says_power_stays_at_alpha():
-    sc = load_scenario(chain(effect=0.0))
+    sc = loads_scenario(chain(effect=0.0))
     result = plan(sc, sample_sizes=[40, 80], replicates=200, seed=1)
     note = result.smallest_n.set_index("strategy").loc["adjust_crew", "note"]
     assert "true effect is 0" in note
@@ -168,7 +167,7 @@ def test_json_follows_the_contract_and_has_no_nan(common_cause_plan, tmp_path):
 
 
 def test_json_writes_null_for_missing_values():
-    sc = load_scenario(chain(effect=0.02))
+    sc = loads_scenario(chain(effect=0.02))
     data = json.loads(plan(sc, sample_sizes=[40, 80], replicates=100, seed=1).to_json())
     assert data["smallest_n"][1]["n_for_power"] is None
     assert data["target_halfwidth"] is None
@@ -299,7 +298,7 @@ def test_find_smallest_n_respects_resolution():
 def test_power_rises_with_n_for_a_valid_strategy(effect, confounding, n):
     """Property (common practice, no source): with a nonzero effect, power of a valid strategy rises with n;
     with common random numbers, quadrupling n never lowers simulated power beyond Monte Carlo noise."""
-    sc = load_scenario(chain(effect=effect, confounding=confounding))
+    sc = loads_scenario(chain(effect=effect, confounding=confounding))
     result = plan(sc, sample_sizes=[n, 4 * n], replicates=300, seed=2, target_power=0.999)
     rows = result.table[result.table["strategy"] == "adjust_crew"].sort_values("n")
     low, high = rows["power"].to_numpy()
@@ -312,7 +311,7 @@ def test_power_rises_with_n_for_a_valid_strategy(effect, confounding, n):
 @given(effect=st.floats(-0.6, 0.6), n=st.integers(40, 400))
 def test_ci_halfwidth_falls_as_one_over_root_n(effect, n):
     """Property (common practice, no source): the CI half-width falls roughly as 1/sqrt(n)."""
-    sc = load_scenario(chain(effect=effect, confounding=0.3))
+    sc = loads_scenario(chain(effect=effect, confounding=0.3))
     result = plan(sc, sample_sizes=[n, 4 * n], replicates=300, seed=4, target_power=0.5)
     for _, rows in result.table.groupby("strategy"):
         small, large = rows.sort_values("n")["mean_ci_halfwidth"].to_numpy()

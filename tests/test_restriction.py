@@ -10,12 +10,11 @@ import pytest
 from scipy import stats
 
 import workbench as wb
+from workbench import load_preset, loads_scenario
 from workbench.analysis.check import check
 from workbench.analysis.simulate import simulate
 from workbench.engine.replicates import choose_engine, run_replicates
 from workbench.errors import ScenarioError, SimulationError
-from workbench.scenario.parse import load_scenario
-from workbench.scenario.presets import load_preset
 from workbench.scenario.write import dumps_scenario
 
 PRESET = load_preset("restriction")
@@ -64,7 +63,7 @@ n = 200
 
 
 def scenario(strategy):
-    return load_scenario(BASE.format(strategy=strategy))
+    return loads_scenario(BASE.format(strategy=strategy))
 
 
 def test_restrict_loads_and_round_trips():
@@ -73,7 +72,7 @@ def test_restrict_loads_and_round_trips():
     band = scenario("restrict = { c = [-0.5, 1] }")
     assert band.strategy("restricted").restrict == (("c", (-0.5, 1.0)),)
     for item in (sc, band, PRESET):
-        assert load_scenario(dumps_scenario(item)) == item
+        assert loads_scenario(dumps_scenario(item)) == item
     assert "restrict" in dumps_scenario(band)
 
 
@@ -103,13 +102,13 @@ def test_restrict_needs_ols_with_a_continuous_outcome():
         "[variables.y]", '[variables.y]\ntype = "binary"\nproportion = 0.4'
     )
     with pytest.raises(ScenarioError, match="restrict applies to model"):
-        load_scenario(text)
+        loads_scenario(text)
 
 
 def test_restriction_runs_on_the_raw_engine_only():
     sc = scenario("restrict = { c = [-1, 1] }")
     assert sc.is_linear_gaussian is False  # the binary shift
-    linear = load_scenario(
+    linear = loads_scenario(
         BASE.format(strategy="restrict = { c = [-1, 1] }").replace('type = "binary"\nproportion = 0.3', "")
     )
     assert linear.is_linear_gaussian

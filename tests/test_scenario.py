@@ -9,9 +9,9 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from workbench import load_scenario, loads_scenario, scenario_from_dict
 from workbench.errors import ScenarioError
 from workbench.scenario.constraints import MAX_ARROWS, MAX_VARIABLES
-from workbench.scenario.parse import load_scenario, scenario_from_dict
 from workbench.scenario.write import dumps_scenario
 
 BASE = """title = "Drip irrigation and harvest"
@@ -197,7 +197,7 @@ def test_broken_file_gives_one_line_naming_the_place(case):
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         with pytest.raises(ScenarioError) as info:
-            load_scenario(text)
+            loads_scenario(text)
     message = str(info.value)
     assert "\n" not in message
     assert message.startswith(place), message
@@ -207,7 +207,7 @@ def test_broken_file_gives_one_line_naming_the_place(case):
 
 def test_alpha_one_half_is_allowed():
     """The upper end of (0, 0.5] is included."""
-    assert load_scenario(BASE + "[study]\nalpha = 0.5\n").study.alpha == 0.5
+    assert loads_scenario(BASE + "[study]\nalpha = 0.5\n").study.alpha == 0.5
 
 
 def test_toml_syntax_error_names_file_line_and_column(tmp_path):
@@ -234,9 +234,9 @@ def test_errors_in_a_file_name_the_file(tmp_path):
 
 def test_limits_themselves_are_allowed():
     """Exactly 40 variables and exactly 200 arrows load."""
-    sc = load_scenario(_many_variables(MAX_VARIABLES - 3) + '[[strategies]]\nname = "u"\n')
+    sc = loads_scenario(_many_variables(MAX_VARIABLES - 3) + '[[strategies]]\nname = "u"\n')
     assert len(sc.variables) == MAX_VARIABLES
-    sc = load_scenario(_many_arrows(MAX_ARROWS) + '[[strategies]]\nname = "u"\n')
+    sc = loads_scenario(_many_arrows(MAX_ARROWS) + '[[strategies]]\nname = "u"\n')
     assert len(sc.arrows) == MAX_ARROWS
 
 
@@ -330,6 +330,6 @@ def test_round_trip_of_random_scenarios(doc):
     gives the same text (issue 2 section 2; property test, no outside source)."""
     scenario = scenario_from_dict(doc)
     text = dumps_scenario(scenario)
-    again = load_scenario(text)
+    again = loads_scenario(text)
     assert again == scenario
     assert dumps_scenario(again) == text

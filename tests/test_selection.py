@@ -9,12 +9,11 @@ import pandas as pd
 import pytest
 
 import workbench as wb
+from workbench import load_preset, loads_scenario
 from workbench.analysis.check import check
 from workbench.analysis.simulate import TABLE_COLUMNS, simulate
 from workbench.engine.replicates import run_replicates
 from workbench.errors import ScenarioError
-from workbench.scenario.parse import load_scenario
-from workbench.scenario.presets import load_preset
 from workbench.scenario.write import dumps_scenario
 
 PRESET = load_preset("selection_by_significance")
@@ -54,17 +53,17 @@ name = "chosen"
 
 
 def scenario(strategy, extra_variables=""):
-    return load_scenario(BASE.format(strategy=strategy, extra_variables=extra_variables))
+    return loads_scenario(BASE.format(strategy=strategy, extra_variables=extra_variables))
 
 
 def test_selection_key_loads_and_round_trips():
     sc = scenario('adjust = ["c", "w"]\nselection = "p_value"')
     assert sc.strategy("chosen").selection == "p_value"
     assert sc.strategy("unadjusted").selection is None
-    again = load_scenario(dumps_scenario(sc))
+    again = loads_scenario(dumps_scenario(sc))
     assert again == sc
     assert 'selection = "p_value"' in dumps_scenario(sc)
-    assert load_scenario(dumps_scenario(PRESET)) == PRESET
+    assert loads_scenario(dumps_scenario(PRESET)) == PRESET
 
 
 @pytest.mark.parametrize(
@@ -84,7 +83,7 @@ def test_selection_needs_ols_with_a_continuous_outcome():
     text = BASE.format(strategy='adjust = ["c"]\nselection = "p_value"\nmodel = "logit"', extra_variables="")
     text = text.replace("[variables.y]", '[variables.y]\ntype = "binary"\nproportion = 0.3')
     with pytest.raises(ScenarioError, match='selection applies to model = "ols"'):
-        load_scenario(text)
+        loads_scenario(text)
 
 
 def test_at_most_ten_candidates():
@@ -187,8 +186,8 @@ def test_planner_runs_and_has_no_closed_form_for_a_selection():
 def test_planner_flags_the_optimistic_power_of_p_value_selection():
     """Common practice, no source: a strategy whose intervals under-cover has SEs that are too small, so its
     power is optimistic; the planner says so beside its smallest n."""
+    from workbench import load_preset
     from workbench.analysis.plan import plan
-    from workbench.scenario.presets import load_preset
 
     result = plan(load_preset("selection_by_significance"), sample_sizes=[60, 120], replicates=400, seed=3)
     notes = result.smallest_n.set_index("strategy")["note"]

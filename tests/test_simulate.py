@@ -25,7 +25,7 @@ def build(variables, arrows, exposure, outcome, strategies, study="", question="
     for name, adjust, *extra in strategies:
         items = ", ".join(f'"{v}"' for v in adjust)
         text += f'[[strategies]]\nname = "{name}"\nadjust = [{items}]\n' + (extra[0] if extra else "") + "\n"
-    return wb.load_scenario(text + study)
+    return wb.loads_scenario(text + study)
 
 
 WORKSHOP = build(

@@ -23,9 +23,9 @@ from workbench.engine.generate import draw
 from workbench.engine.replicates import ReplicateArrays, run_replicates
 from workbench.engine.truth import Truth, true_effect
 from workbench.errors import Cancelled, ScenarioError, SimulationError, WorkbenchError
+from workbench.graph.defaults import load_preset, load_scenario, loads_scenario, scenario_from_dict
 from workbench.scenario.model import Arrow, Question, Scenario, Strategy, Study, Variable
-from workbench.scenario.parse import load_scenario, scenario_from_dict
-from workbench.scenario.presets import list_presets, load_preset
+from workbench.scenario.presets import list_presets
 from workbench.scenario.write import dumps_scenario, save_scenario, scenario_to_dict
 
 __all__ = [
@@ -41,6 +41,7 @@ __all__ = [
     "Question",
     "Study",
     "load_scenario",
+    "loads_scenario",
     "save_scenario",
     "dumps_scenario",
     "scenario_from_dict",

@@ -18,8 +18,9 @@ from pathlib import Path
 
 import pytest
 
+from workbench import load_preset
 from workbench.analysis.simulate import simulate
-from workbench.scenario.presets import list_presets, load_preset, preset_text
+from workbench.scenario.presets import list_presets, preset_text
 
 pytestmark = pytest.mark.browser
 

@@ -31,7 +31,7 @@ def build(arrows, exposure, outcome, strategies, variables=None, study=""):
     for name, adjust in strategies:
         items = ", ".join(f'"{v}"' for v in adjust)
         text += f'[[strategies]]\nname = "{name}"\nadjust = [{items}]\n'
-    return wb.load_scenario(text + study)
+    return wb.loads_scenario(text + study)
 
 
 # A farm: soil quality drives both fertiliser use and yield; rainfall only raises yield.

@@ -33,7 +33,7 @@ def make(arrows, exposure="x", outcome="y", latent=(), target="total", effects=N
         text += f'[[arrows]]\nfrom = "{a}"\nto = "{b}"\neffect = {effect!r}\n'
     for name, adjust in (strategies or {}).items():
         text += f'[[strategies]]\nname = "{name}"\nadjust = {list(adjust)!r}\n'.replace("'", '"')
-    return wb.load_scenario(text)
+    return wb.loads_scenario(text)
 
 
 # ---------------------------------------------------------------------------------------------------------

@@ -15,12 +15,11 @@ import pandas as pd
 import pytest
 import statsmodels.api as sm
 
+from workbench import load_preset, loads_scenario
 from workbench.analysis.estimate import estimate
 from workbench.analysis.simulate import simulate
 from workbench.engine.generate import block_seed, draw, draw_rows
 from workbench.engine.replicates import run_replicates
-from workbench.scenario.parse import load_scenario
-from workbench.scenario.presets import load_preset
 
 WAREHOUSE = load_preset("restriction")
 MATCHED = [s for s in WAREHOUSE.strategies if s.match]
@@ -134,7 +133,7 @@ def test_matching_on_a_binary_confounder_removes_its_bias():
     difference is biased. Its classical SE ignores the pairing: here the shift's effect on the outcome, balanced
     by design, inflates the residual variance, so the intervals cover at least at the nominal rate
     (conservative; with other data it need not be)."""
-    sc = load_scenario(BAKERY)
+    sc = loads_scenario(BAKERY)
     result = simulate(sc, replicates=2000, seed=11)
     t = result.table.set_index("name")
     matched = t.loc["matched"]

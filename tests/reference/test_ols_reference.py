@@ -17,7 +17,7 @@ from workbench.analysis.estimate import estimate
 from workbench.engine.generate import block_seed, draw, draw_rows
 from workbench.engine.replicates import run_replicates
 
-ORCHARD = wb.load_scenario(
+ORCHARD = wb.loads_scenario(
     """
 title = "Pruning and apple yield"
 [question]
@@ -61,7 +61,7 @@ alpha = 0.1
 """
 )
 
-DEPOT = wb.load_scenario(
+DEPOT = wb.loads_scenario(
     """
 title = "Forklift training and accidents in warehouses"
 [question]

@@ -11,10 +11,10 @@ import pytest
 from scipy import stats
 from statsmodels.stats.power import TTestIndPower
 
+from workbench import load_preset, loads_scenario
 from workbench.analysis.plan import ABSOLUTE_RESOLUTION, RELATIVE_RESOLUTION, plan
 from workbench.analysis.power import analytic_available, noncentral_t_power
-from workbench.scenario.parse import load_scenario
-from workbench.scenario.presets import list_presets, load_preset
+from workbench.scenario.presets import list_presets
 
 LINEAR_PRESETS = [
     name
@@ -101,7 +101,7 @@ def test_randomised_binary_exposure_matches_statsmodels_two_sample_power():
     over the binomial group sizes (it is 0.006 below the fixed n/2-per-group power at n = 64); the planner's
     analytic column equals the fixed-allocation power."""
     replicates = 4000
-    result = plan(load_scenario(two_groups(0.5)), replicates=replicates, seed=64)
+    result = plan(loads_scenario(two_groups(0.5)), replicates=replicates, seed=64)
     reference = TTestIndPower()
     for _, row in result.table.iterrows():
         n = int(row["n"])
@@ -121,7 +121,9 @@ def test_smallest_n_for_a_medium_effect_matches_statsmodels_and_cohen():
     replicates = 4000
     per_group = TTestIndPower().solve_power(effect_size=0.5, alpha=0.05, power=0.8, ratio=1.0)
     assert math.ceil(per_group) == 64
-    result = plan(load_scenario(two_groups(0.5, sizes=(50, 100, 200, 400))), replicates=replicates, seed=1988)
+    result = plan(
+        loads_scenario(two_groups(0.5, sizes=(50, 100, 200, 400))), replicates=replicates, seed=1988
+    )
     row = result.smallest_n.iloc[0]
     assert row["analytic_n_for_power"] == 128
     slope = (
@@ -138,6 +140,6 @@ def test_analytic_smallest_n_reproduces_cohens_table(d, per_group):
     """Source: Cohen J. (1988), Statistical Power Analysis for the Behavioral Sciences, 2nd ed., Table 2.4.1,
     from memory: at alpha 0.05 two-sided and power 0.8, n per group is 393 (d = 0.2), 64 (d = 0.5) and 26
     (d = 0.8). The planner's analytic smallest n (both groups together) within one per group."""
-    result = plan(load_scenario(two_groups(d, sizes=(40, 80))), replicates=20, seed=1)
+    result = plan(loads_scenario(two_groups(d, sizes=(40, 80))), replicates=20, seed=1)
     total = int(result.smallest_n.iloc[0]["analytic_n_for_power"])
     assert abs(total / 2 - per_group) <= 1

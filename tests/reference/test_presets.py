@@ -19,10 +19,10 @@ from scipy.optimize import brentq
 from scipy.special import expit
 from scipy.stats import norm
 
+from workbench import load_preset, loads_scenario
 from workbench.graph import linear
 from workbench.graph.adjustment import find_roles
-from workbench.scenario.parse import load_scenario
-from workbench.scenario.presets import DEFAULT_PRESET, list_presets, load_preset
+from workbench.scenario.presets import DEFAULT_PRESET, list_presets
 from workbench.scenario.write import dumps_scenario
 
 PRESETS = sorted(list_presets())
@@ -89,7 +89,7 @@ def test_preset_loads_with_the_house_conventions(name):
 def test_preset_round_trips(name):
     """dumps_scenario then load_scenario gives an equal scenario (issue 2 section 2; no outside source)."""
     sc = load_preset(name)
-    again = load_scenario(dumps_scenario(sc))
+    again = loads_scenario(dumps_scenario(sc))
     assert again == sc
     assert dumps_scenario(again) == dumps_scenario(sc)
 

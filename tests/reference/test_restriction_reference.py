@@ -15,11 +15,11 @@ import pytest
 import statsmodels.api as sm
 
 import workbench as wb
+from workbench import load_preset
 from workbench.analysis.estimate import estimate
 from workbench.analysis.simulate import simulate
 from workbench.engine.generate import block_seed, draw, draw_rows
 from workbench.engine.replicates import run_replicates
-from workbench.scenario.presets import load_preset
 
 WAREHOUSE = load_preset("restriction")
 
@@ -134,7 +134,7 @@ def test_band_restriction_leaves_residual_bias_that_shrinks_as_the_band_narrows(
     bands = ""
     for width in (2.0, 1.0, 0.5):
         bands += f'[[strategies]]\nname = "band_{int(width * 10)}"\nrestrict = {{ soil = [{-width / 2}, {width / 2}] }}\n'
-    sc = wb.load_scenario(FIELD.format(bands=bands))
+    sc = wb.loads_scenario(FIELD.format(bands=bands))
     result = simulate(sc, replicates=1000, seed=4)
     t = result.table.set_index("name")
     biases = [t.loc[name, "bias"] for name in ("unadjusted", "band_20", "band_10", "band_5")]

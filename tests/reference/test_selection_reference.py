@@ -15,15 +15,15 @@ import pytest
 import statsmodels.api as sm
 
 import workbench as wb
+from workbench import load_preset
 from workbench.analysis.estimate import estimate
 from workbench.analysis.simulate import simulate
 from workbench.engine.generate import draw
 from workbench.engine.ols import crossproducts, fit_selected, selected_names
-from workbench.scenario.presets import load_preset
 
 CANDIDATES = ["complexity", "team_experience", "tooling", "office_noise"]
 
-WORKSHOP = wb.load_scenario(
+WORKSHOP = wb.loads_scenario(
     """
 title = "Code review and defects with four candidates"
 [question]

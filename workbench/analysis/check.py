@@ -180,7 +180,7 @@ def large_sample_rows(scenario: Scenario) -> dict[str, dict[str, float]]:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> rows = large_sample_rows(load_preset("common_cause"))
     >>> round(rows["adjust_soil"]["estimate"], 6)
     0.25
@@ -218,7 +218,7 @@ def large_sample_selection(scenario: Scenario, strategy, sigma=None) -> tuple[st
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> from workbench.scenario.parse import Strategy
     >>> sc = load_preset("common_cause")
     >>> large_sample_selection(sc, Strategy("s", ("soil_quality",), selection="p_value"))
@@ -310,7 +310,7 @@ def check(scenario: Scenario) -> CheckReport:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> report = check(load_preset("common_cause"))
     >>> report.truth, [s["valid"] for s in report.strategies]
     (0.25, [False, True])

@@ -21,7 +21,7 @@ References
 
 Examples
 --------
->>> from workbench.scenario.presets import load_preset
+>>> from workbench import load_preset
 >>> from workbench.engine.generate import draw
 >>> sc = load_preset("common_cause")
 >>> table = estimate(sc, draw(sc, 400, seed=5))
@@ -121,7 +121,7 @@ def estimate(scenario: Scenario, data: pd.DataFrame, alpha: float | None = None)
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> estimate(load_preset("common_cause"), pd.DataFrame({"fertiliser": [1.0, 2.0]}))
     Traceback (most recent call last):
     ...

@@ -31,7 +31,7 @@ References
 
 Examples
 --------
->>> from workbench.scenario.presets import load_preset
+>>> from workbench import load_preset
 >>> result = plan(load_preset("common_cause"), sample_sizes=[50, 100, 200], replicates=400, seed=1)
 >>> list(result.smallest_n.columns)[:5]
 ['strategy', 'n_for_power', 'n_for_halfwidth', 'valid', 'note']
@@ -947,7 +947,7 @@ def plan(
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> result = plan(load_preset("common_cause"), sample_sizes=[50, 100, 200, 400], replicates=500, seed=3)
     >>> result.table[["n", "strategy"]].head(2).to_dict(orient="records")
     [{'n': 50, 'strategy': 'unadjusted'}, {'n': 50, 'strategy': 'adjust_soil'}]

@@ -32,7 +32,7 @@ References
 
 Examples
 --------
->>> from workbench.scenario.presets import load_preset
+>>> from workbench import load_preset
 >>> sc = load_preset("common_cause")
 >>> fit = large_sample(sc, ("soil_quality",))
 >>> round(fit.estimand, 3), round(fit.se(400), 4)
@@ -232,7 +232,7 @@ def analytic_available(scenario: Scenario) -> bool:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> analytic_available(load_preset("common_cause"))
     True
     """
@@ -248,7 +248,7 @@ def analytic_covariance(scenario: Scenario) -> np.ndarray | None:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> analytic_covariance(load_preset("common_cause")).shape
     (3, 3)
     """
@@ -290,7 +290,7 @@ def large_sample(
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> sc = load_preset("common_cause")
     >>> round(large_sample(sc, ()).estimand, 4)  # 0.25 + 0.5 x 0.6 / 1.36
     0.4706

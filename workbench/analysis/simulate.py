@@ -5,7 +5,7 @@ module scores them (:mod:`workbench.engine.metrics`) into a :class:`SimulationRe
 
 Examples
 --------
->>> from workbench.scenario.presets import load_preset
+>>> from workbench import load_preset
 >>> result = simulate(load_preset("common_cause"), replicates=500, seed=1)
 >>> result.engine, list(result.table["name"])
 ('exact', ['unadjusted', 'adjust_soil'])
@@ -497,7 +497,7 @@ def simulate(
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> result = simulate(load_preset("common_cause"), n=100, replicates=300, seed=2)
     >>> result.n, result.replicates, result.truth
     (100, 300, 0.25)

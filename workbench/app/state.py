@@ -40,8 +40,8 @@ from typing import Any
 import param
 
 from workbench.errors import Cancelled, ScenarioError, WorkbenchError
+from workbench.graph.defaults import loads_scenario, scenario_from_dict
 from workbench.scenario.model import Scenario
-from workbench.scenario.parse import load_scenario, scenario_from_dict
 from workbench.scenario.presets import DEFAULT_PRESET, list_presets, preset_text
 from workbench.scenario.write import dumps_scenario, scenario_to_dict
 
@@ -130,7 +130,7 @@ def _parse_restrict_text(value, *, where: str) -> dict:
 
 def _parse_text(text: str) -> Scenario:
     """Parse TOML text typed or uploaded by a user. The text is always read as text, never as a path."""
-    return load_scenario(text if "\n" in text else text + "\n")
+    return loads_scenario(text if "\n" in text else text + "\n")
 
 
 class ScenarioState(param.Parameterized):
@@ -921,7 +921,7 @@ class SampleState(param.Parameterized):
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> sample = SampleState()
     >>> sample.update(load_preset("common_cause"))
     >>> sample.covariate

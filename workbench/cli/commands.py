@@ -24,8 +24,8 @@ EXIT_CANCELLED = 130
 
 
 def _scenario(args):
-    from workbench.scenario.parse import load_scenario
-    from workbench.scenario.presets import DEFAULT_PRESET, load_preset
+    from workbench.graph.defaults import load_preset, load_scenario
+    from workbench.scenario.presets import DEFAULT_PRESET
 
     if args.file and args.preset:
         raise ScenarioError("give a scenario FILE or --preset NAME, not both", where="command line")

@@ -16,8 +16,8 @@ random stream.
 
 Examples
 --------
->>> from workbench.scenario.parse import load_scenario
->>> sc = load_scenario('''
+>>> from workbench import load_scenario, loads_scenario
+>>> sc = loads_scenario('''
 ... title = "Workshop training and defects"
 ... [question]
 ... exposure = "training"
@@ -187,7 +187,7 @@ def structure(scenario: Scenario) -> Structure:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> st = structure(load_preset("common_cause"))
     >>> st.names, [st.names[j] for j in st.order]
     (('soil_quality', 'fertiliser', 'wheat_yield'), ['soil_quality', 'fertiliser', 'wheat_yield'])
@@ -219,8 +219,8 @@ def calibrate_intercepts(scenario: Scenario) -> dict[str, float]:
 
     Examples
     --------
-    >>> from workbench.scenario.parse import load_scenario
-    >>> sc = load_scenario('title = "t"\\n[question]\\nexposure = "upgrade"\\noutcome = "uptime"\\n'
+    >>> from workbench import load_scenario, loads_scenario
+    >>> sc = loads_scenario('title = "t"\\n[question]\\nexposure = "upgrade"\\noutcome = "uptime"\\n'
     ...     '[variables.upgrade]\\ntype = "binary"\\nproportion = 0.25\\n[variables.uptime]\\n'
     ...     '[[arrows]]\\nfrom = "upgrade"\\nto = "uptime"\\neffect = 1.0\\n'
     ...     '[[strategies]]\\nname = "unadjusted"\\n')
@@ -268,7 +268,7 @@ def evaluate(
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> sc = load_preset("common_cause")
     >>> z = np.zeros((1, 3))
     >>> evaluate(sc, z)  # soil 0, fertiliser baseline 2, yield 5 + 0.25 x 2
@@ -395,7 +395,7 @@ def draw_rows(scenario: Scenario, n: int, replicates: int, rng: np.random.Genera
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> rows = draw_rows(load_preset("common_cause"), 50, 4, np.random.default_rng(0))
     >>> rows.shape
     (4, 50, 3)
@@ -424,7 +424,7 @@ def draw(scenario: Scenario, n: int, seed=None) -> pd.DataFrame:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> df = draw(load_preset("common_cause"), 5, seed=3)
     >>> df.shape
     (5, 3)

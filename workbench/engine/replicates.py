@@ -44,7 +44,7 @@ References
 
 Examples
 --------
->>> from workbench.scenario.presets import load_preset
+>>> from workbench import load_preset
 >>> arrays = run_replicates(load_preset("common_cause"), 200, 500, seed=1)
 >>> arrays.engine, arrays.strategies, arrays.estimate.shape
 ('exact', ['unadjusted', 'adjust_soil'], (500, 2))
@@ -258,7 +258,7 @@ def choose_engine(scenario: Scenario, n: int, engine: str = "auto") -> str:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> choose_engine(load_preset("common_cause"), 200)
     'exact'
     """
@@ -723,7 +723,7 @@ def run_replicates(
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> arrays = run_replicates(load_preset("common_cause"), 200, 1000, seed=7)
     >>> arrays.estimate.shape, arrays.engine, arrays.df.tolist()
     ((1000, 2), 'exact', [198.0, 197.0])

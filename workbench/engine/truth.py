@@ -85,7 +85,7 @@ def direct_effect(scenario: Scenario) -> float:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> direct_effect(load_preset("common_cause"))
     0.25
     """
@@ -103,7 +103,7 @@ def conditional_log_odds_ratio(scenario: Scenario) -> float:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> conditional_log_odds_ratio(load_preset("common_cause"))
     0.25
     """
@@ -203,7 +203,7 @@ def true_effect(scenario: Scenario, scale: str | None = None) -> Truth:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> t = true_effect(load_preset("common_cause"))
     >>> t.value, t.method
     (0.25, 'closed form')
@@ -259,7 +259,7 @@ def estimand(kind: str, scenario: Scenario, adjust: tuple[str, ...] = ()) -> tup
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> estimand("ols", load_preset("common_cause"))
     ('total effect (difference in means per unit)', 'difference', '')
     """

@@ -58,7 +58,6 @@ __all__ = [
     "SELECTION_REASON",
     "minimal_sets",
     "optimal_set",
-    "default_strategies",
     "MAX_PATHS",
     "MAX_ENUMERATED_CANDIDATES",
 ]
@@ -156,7 +155,7 @@ def build_graph(scenario: Scenario) -> nx.DiGraph:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> sorted(build_graph(load_preset("common_cause")).edges)
     [('fertiliser', 'wheat_yield'), ('soil_quality', 'fertiliser'), ('soil_quality', 'wheat_yield')]
     """
@@ -182,7 +181,7 @@ def list_paths(scenario: Scenario, exposure: str | None = None, outcome: str | N
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> [p.text for p in list_paths(load_preset("common_cause"))]
     ['fertiliser -> wheat_yield', 'fertiliser <- soil_quality -> wheat_yield']
     """
@@ -197,7 +196,7 @@ def is_path_open(G: nx.DiGraph, path: PathInfo, adjust) -> bool:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> sc = load_preset("common_cause")
     >>> backdoor = list_paths(sc)[1]
     >>> is_path_open(build_graph(sc), backdoor, []), is_path_open(build_graph(sc), backdoor, ["soil_quality"])
@@ -228,7 +227,7 @@ def forbidden_set(G: nx.DiGraph, x: str, y: str) -> set[str]:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> sorted(forbidden_set(build_graph(load_preset("mediator")), "training", "output"))
     ['output', 'skill']
     """
@@ -271,7 +270,7 @@ def find_roles(scenario: Scenario) -> dict[str, list[tuple[str, str]]]:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> find_roles(load_preset("common_cause"))["soil_quality"][0][0]
     'confounder'
     """
@@ -431,7 +430,7 @@ def judge(
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> sc = load_preset("common_cause")
     >>> judge(sc, []).valid, judge(sc, ["soil_quality"]).valid
     (False, True)
@@ -542,7 +541,7 @@ def judge_strategy(scenario: Scenario, strategy: Strategy) -> Verdict:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> sc = load_preset("common_cause")
     >>> v = judge_strategy(sc, Strategy("band", (), restrict=(("soil_quality", (-0.5, 0.5)),)))
     >>> v.valid, v.reasons[0][:43]
@@ -714,7 +713,7 @@ def minimal_sets(scenario: Scenario) -> list[tuple[str, ...]]:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> minimal_sets(load_preset("common_cause"))
     [('soil_quality',)]
     """
@@ -740,7 +739,7 @@ def optimal_set(scenario: Scenario) -> tuple[tuple[str, ...] | None, list[str], 
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> optimal_set(load_preset("common_cause"))[0]
     ('soil_quality',)
     """
@@ -777,37 +776,3 @@ def judge_any(scenario: Scenario, adjust) -> bool:
     target = scenario.question.target
     G, H, x, y, forb = _search_setup(scenario, target)
     return _is_valid(G, x, y, set(adjust), target, forb, H)
-
-
-def default_strategies(scenario: Scenario) -> list[Strategy]:
-    """The strategies used when a scenario lists none: unadjusted, each minimal valid set, the optimal set
-    (when observable and different), and all observed covariates.
-
-    Examples
-    --------
-    >>> from workbench.scenario.presets import load_preset
-    >>> [s.name for s in default_strategies(load_preset("common_cause"))]
-    ['unadjusted', 'adjust_soil_quality']
-    """
-    x, y = scenario.question.exposure, scenario.question.outcome
-    sets: list[tuple[str, tuple[str, ...]]] = [("unadjusted", ())]
-    for m in minimal_sets(scenario):
-        sets.append(("adjust_" + "_".join(m) if m else "unadjusted", m))
-    opt = optimal_set(scenario)[0]
-    if opt is not None:
-        sets.append(("optimal", opt))
-    everything = tuple(n for n in scenario.observed_names if n not in (x, y))
-    sets.append(("all_observed", everything))
-    out: list[Strategy] = []
-    seen: set[frozenset] = set()
-    names: set[str] = set()
-    for name, adjust in sets:
-        key = frozenset(adjust)
-        if key in seen:
-            continue
-        seen.add(key)
-        if len(name) > 60 or name in names:
-            name = f"set_{len(out) + 1}"
-        names.add(name)
-        out.append(Strategy(name, adjust))
-    return out

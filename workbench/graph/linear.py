@@ -41,7 +41,7 @@ def effect_matrix(scenario: Scenario) -> np.ndarray:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> effect_matrix(load_preset("common_cause"))  # soil_quality, fertiliser, wheat_yield
     array([[0.  , 0.6 , 0.5 ],
            [0.  , 0.  , 0.25],
@@ -60,8 +60,8 @@ def total_effects(scenario: Scenario) -> np.ndarray:
 
     Examples
     --------
-    >>> from workbench.scenario.parse import load_scenario
-    >>> sc = load_scenario('title = "t"\\n[question]\\nexposure = "a"\\noutcome = "c"\\n'
+    >>> from workbench import load_scenario, loads_scenario
+    >>> sc = loads_scenario('title = "t"\\n[question]\\nexposure = "a"\\noutcome = "c"\\n'
     ...     '[variables.a]\\n[variables.b]\\n[variables.c]\\n'
     ...     '[[arrows]]\\nfrom = "a"\\nto = "b"\\neffect = 2.0\\n'
     ...     '[[arrows]]\\nfrom = "b"\\nto = "c"\\neffect = 3.0\\n'
@@ -82,7 +82,7 @@ def implied_covariance(scenario: Scenario) -> np.ndarray:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> round(float(implied_covariance(load_preset("common_cause"))[1, 1]), 6)  # Var(fertiliser) = 0.6**2 + 1
     1.36
     """
@@ -98,7 +98,7 @@ def implied_means(scenario: Scenario) -> np.ndarray:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> implied_means(load_preset("common_cause"))  # wheat_yield: 5 + 0.25 * 2
     array([0. , 2. , 5.5])
     """

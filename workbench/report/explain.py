@@ -14,7 +14,7 @@ Sociological Methods & Research.
 Examples
 --------
 >>> from workbench.analysis.check import check
->>> from workbench.scenario.presets import load_preset
+>>> from workbench import load_preset
 >>> stories = explain(check(load_preset("common_cause")))
 >>> [s.name for s in stories], [s.valid for s in stories]
 (['unadjusted', 'adjust_soil'], [False, True])
@@ -149,7 +149,7 @@ def explain(report: CheckReport, result=None) -> list[Story]:
     Examples
     --------
     >>> from workbench.analysis.check import check
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> story = explain(check(load_preset("common_cause")))[1]
     >>> story.title
     'adjust_soil: adjusts for soil_quality (valid)'

@@ -10,7 +10,7 @@ roles in the graph use fixed colours (:data:`ROLE_STYLE`); strategies take colou
 
 Examples
 --------
->>> from workbench.scenario.presets import load_preset
+>>> from workbench import load_preset
 >>> fig = graph_figure(load_preset("common_cause"))
 >>> type(fig).__name__
 'figure'
@@ -142,7 +142,7 @@ def primary_role(scenario: Scenario, name: str, roles: dict | None) -> str:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> sc = load_preset("common_cause")
     >>> primary_role(sc, "fertiliser", {}), primary_role(sc, "soil_quality", {"soil_quality": [("confounder", "")]})
     ('exposure', 'confounder')
@@ -170,7 +170,7 @@ def graph_layout(scenario: Scenario) -> dict[str, tuple[float, float]]:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> graph_layout(load_preset("common_cause"))
     {'soil_quality': (0.0, 1.0), 'fertiliser': (1.0, 0.0), 'wheat_yield': (2.0, 0.0)}
     """
@@ -351,7 +351,7 @@ def graph_figure(
     Examples
     --------
     >>> from workbench.graph.adjustment import find_roles, judge
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> sc = load_preset("common_cause")
     >>> fig = graph_figure(sc, find_roles(sc), judge(sc, []))
     >>> [item.label.value for item in fig.legend[0].items][-2:]
@@ -687,7 +687,7 @@ def truth_groups(result) -> list[tuple[str, float, list[str]]]:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> from workbench.analysis.simulate import simulate
     >>> result = simulate(load_preset("common_cause"), replicates=200, seed=1)
     >>> truth_groups(result)
@@ -719,7 +719,7 @@ def estimates_figure(result, *, width: int = 540) -> list:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> from workbench.analysis.simulate import simulate
     >>> result = simulate(load_preset("common_cause"), replicates=200, seed=1)
     >>> [f.title.text for f in estimates_figure(result)]
@@ -758,7 +758,7 @@ def se_figure(result, *, width: int = 540) -> list:
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> from workbench.analysis.simulate import simulate
     >>> result = simulate(load_preset("common_cause"), replicates=200, seed=1)
     >>> len(se_figure(result))
@@ -797,7 +797,7 @@ def interval_figure(result, *, first: int = 100, columns: int = 4, width: int = 
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> from workbench.analysis.simulate import simulate
     >>> result = simulate(load_preset("common_cause"), replicates=200, seed=1)
     >>> [f.title.text.split(":")[0] for f in interval_figure(result, grid=False)]
@@ -875,7 +875,7 @@ def power_figure(plan_result, *, target_power: float, width: int = 700):
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> from workbench.analysis.plan import plan
     >>> planned = plan(load_preset("common_cause"), sample_sizes=[50, 100], replicates=200, seed=1)
     >>> power_figure(planned, target_power=0.8).title.text
@@ -976,7 +976,7 @@ def by_n_figure(
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> from workbench.analysis.plan import plan
     >>> planned = plan(load_preset("common_cause"), sample_sizes=[50, 100], replicates=200, seed=1)
     >>> by_n_figure(planned, "emp_se", title="Empirical SE", y_label="SE").title.text
@@ -1038,7 +1038,7 @@ def separation_figure(
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> from workbench.analysis.plan import plan
     >>> planned = plan(load_preset("two_exposures"), sample_sizes=[100, 200], replicates=200, seed=1)
     >>> type(separation_figure(planned.also_table, planned.table)).__name__
@@ -1127,7 +1127,7 @@ def dataset_scatter(
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> from workbench.engine.generate import draw
     >>> data = draw(load_preset("common_cause"), 100, seed=1)
     >>> dataset_scatter(data, "fertiliser", "wheat_yield", "soil_quality").title.text
@@ -1192,7 +1192,7 @@ def dataset_groups(data: pd.DataFrame, exposure: str, covariate: str, *, width: 
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> from workbench.engine.generate import draw
     >>> data = draw(load_preset("common_cause"), 100, seed=1)
     >>> list(dataset_groups(data, "fertiliser", "soil_quality").x_range.factors)

@@ -12,7 +12,7 @@ The figures and tables are the dashboard's own (:mod:`workbench.report.figures`,
 
 Examples
 --------
->>> from workbench.scenario.presets import load_preset
+>>> from workbench import load_preset
 >>> page = build_report(load_preset("common_cause"))
 >>> page.startswith("<!DOCTYPE html>"), "https://" in page.split("<body>")[0]
 (True, False)
@@ -118,7 +118,7 @@ def build_report(
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> from workbench.analysis.simulate import simulate
     >>> sc = load_preset("common_cause")
     >>> html = build_report(sc, result=simulate(sc, replicates=200, seed=1))
@@ -241,7 +241,7 @@ def write_report(path: str | os.PathLike, scenario: Scenario, **kwargs) -> None:
     Examples
     --------
     >>> import tempfile, pathlib
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> target = pathlib.Path(tempfile.mkdtemp()) / "report.html"
     >>> write_report(target, load_preset("common_cause"))
     >>> target.stat().st_size > 100_000

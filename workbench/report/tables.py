@@ -162,7 +162,7 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> from workbench.analysis.simulate import simulate
     >>> result = simulate(load_preset("common_cause"), replicates=300, seed=1)
     >>> html = performance_table(result.table, alpha=0.05)

@@ -1,7 +1,8 @@
-"""The scenario layer: the data model of an assumed graph, reading and writing its TOML file, presets."""
+"""The scenario layer: the data model of an assumed graph, reading and validating its TOML file, writing it,
+the study-setting constraints and the built-in presets. Nothing here knows the graph algorithms; the default
+strategies of a file that lists none are filled in above, by :mod:`workbench.graph.defaults`."""
 
 from workbench.scenario.model import Arrow, Question, Scenario, Strategy, Study, Variable
-from workbench.scenario.parse import load_scenario, scenario_from_dict
 from workbench.scenario.write import dumps_scenario, save_scenario, scenario_to_dict
 
 __all__ = [
@@ -12,8 +13,6 @@ __all__ = [
     "Study",
     "Variable",
     "dumps_scenario",
-    "load_scenario",
     "save_scenario",
-    "scenario_from_dict",
     "scenario_to_dict",
 ]

@@ -221,10 +221,17 @@ class Scenario:
         raise UnknownNameError("strategy", name, [s.name for s in self.strategies])
 
     def replace(self, **changes: Any) -> Scenario:
-        """A copy with fields changed, validated again (``strategies=None`` refills the defaults)."""
-        from workbench.scenario.parse import scenario_from_dict
+        """A copy with fields changed, validated again.
+
+        Default strategies (``strategies_given`` False) are kept when only the title, summary or study
+        change; when the graph or the question changes they are dropped, and the loaders and verbs derive
+        them again from the new graph (:func:`workbench.graph.defaults.with_default_strategies`).
+        """
+        from workbench.scenario.parse import parse_scenario
         from workbench.scenario.write import scenario_to_dict
 
         merged = dataclasses.replace(self, **changes)
-        data = scenario_to_dict(merged, include_default_strategies=merged.strategies_given)
-        return scenario_from_dict(data)
+        given = merged.strategies_given or "strategies" in changes
+        keep = given or not changes.keys() & {"variables", "arrows", "question"}
+        out = parse_scenario(scenario_to_dict(merged, include_default_strategies=keep))
+        return out if given else dataclasses.replace(out, strategies_given=False)

@@ -10,7 +10,7 @@ The graph is an assumption written down by the user; nothing here checks it agai
 
 Examples
 --------
->>> sc = load_scenario('''
+>>> sc = parse_scenario_text('''
 ... title = "Shade cloth and seedling growth"
 ... [question]
 ... exposure = "shade"
@@ -33,13 +33,12 @@ Examples
 ... ''')
 >>> sc.question.exposure, [v.name for v in sc.variables]
 ('shade', ['sun', 'shade', 'growth'])
->>> [s.name for s in sc.strategies]
-['unadjusted', 'adjust_sun']
+>>> sc.strategies, sc.strategies_given  # none listed: workbench.graph.defaults fills in the defaults
+((), False)
 """
 
 from __future__ import annotations
 
-import dataclasses
 import difflib
 import math
 import os
@@ -66,7 +65,7 @@ from workbench.scenario.model import (
     Variable,
 )
 
-__all__ = ["load_scenario", "scenario_from_dict"]
+__all__ = ["parse_scenario", "parse_scenario_text", "read_scenario", "check_sizes"]
 
 
 # --------------------------------------------------------------------------------------------------------
@@ -229,15 +228,13 @@ def _find_cycle(names: list[str], arrows: list[Arrow]) -> list[str] | None:
     return None
 
 
-def scenario_from_dict(data: dict, *, fill_default_strategies: bool = True) -> Scenario:
+def parse_scenario(data: dict) -> Scenario:
     """Build and validate a scenario from the parsed TOML tables.
 
     Parameters
     ----------
     data : dict
         The TOML document as nested dicts and lists (keys as in the file: ``from``/``to`` for arrows).
-    fill_default_strategies : bool, default True
-        When the document has no ``[[strategies]]``, fill in the default set.
 
     Returns
     -------
@@ -252,10 +249,10 @@ def scenario_from_dict(data: dict, *, fill_default_strategies: bool = True) -> S
     --------
     >>> data = {"title": "t", "question": {"exposure": "a", "outcome": "b"},
     ...         "variables": {"a": {}, "b": {}}, "arrows": [{"from": "a", "to": "b", "effect": 0.5}]}
-    >>> [s.name for s in scenario_from_dict(data).strategies]
-    ['unadjusted']
+    >>> parse_scenario(data).strategies  # none given: the graph layer fills the defaults
+    ()
     >>> data["arrows"][0]["to"] = "c"
-    >>> scenario_from_dict(data)
+    >>> parse_scenario(data)
     Traceback (most recent call last):
     ...
     workbench.errors.ScenarioError: arrows[1].to: unknown variable 'c'
@@ -460,11 +457,7 @@ def scenario_from_dict(data: dict, *, fill_default_strategies: bool = True) -> S
         summary,
         strategies_given=strategy_list is not None,
     )
-    if strategy_list is None and fill_default_strategies:
-        from workbench.graph.adjustment import default_strategies
-
-        scenario = dataclasses.replace(scenario, strategies=tuple(default_strategies(scenario)))
-    _check_sizes(scenario)
+    check_sizes(scenario)
     return scenario
 
 
@@ -541,7 +534,7 @@ def _parse_match(table: dict, where: str, by_name: dict, exposure: str, outcome:
     return tuple(out)
 
 
-def _check_sizes(scenario: Scenario) -> None:
+def check_sizes(scenario: Scenario) -> None:
     """n (and every planned size) must exceed the largest strategy's fitted coefficients + 1."""
     if not scenario.strategies:
         return
@@ -579,17 +572,39 @@ def _parse_text(text: str, source: str | None) -> dict:
         raise ScenarioError(f"TOML syntax error: {problem}", where=where) from None
 
 
-def load_scenario(path_or_text: str | os.PathLike) -> Scenario:
-    """Read and validate a scenario from a TOML file or from TOML text.
+def parse_scenario_text(text: str, source: str | None = None) -> Scenario:
+    """Read and validate a scenario from TOML text (no default strategies filled in).
 
     Parameters
     ----------
-    path_or_text : str or path-like
-        A path to a ``.toml`` file, or the TOML text itself (any string with a newline or an ``=``).
+    text : str
+        The TOML document.
+    source : str, optional
+        Where the text came from (a file name), put in front of every error's place.
 
-    Returns
-    -------
-    Scenario
+    Raises
+    ------
+    ScenarioError
+        One line naming the source, the place and the problem.
+
+    Examples
+    --------
+    >>> parse_scenario_text('title = "x"')
+    Traceback (most recent call last):
+    ...
+    workbench.errors.ScenarioError: variables: missing (required)
+    """
+    data = _parse_text(text, source)
+    if source is None:
+        return parse_scenario(data)
+    try:
+        return parse_scenario(data)
+    except ScenarioError as exc:
+        raise ScenarioError(exc.problem, where=f"{source}: {exc.where}" if exc.where else source) from None
+
+
+def read_scenario(path: str | os.PathLike) -> Scenario:
+    """Read and validate a scenario file (no default strategies filled in).
 
     Raises
     ------
@@ -598,31 +613,21 @@ def load_scenario(path_or_text: str | os.PathLike) -> Scenario:
 
     Examples
     --------
-    >>> load_scenario('title = "x"')
+    >>> read_scenario("no/such/file.toml")
     Traceback (most recent call last):
     ...
-    workbench.errors.ScenarioError: variables: missing (required)
+    workbench.errors.ScenarioError: no/such/file.toml: no such file
     """
-    source = None
-    if isinstance(path_or_text, os.PathLike) or ("\n" not in path_or_text and "=" not in path_or_text):
-        path = Path(path_or_text)
-        source = str(path)
-        try:
-            text = path.read_text(encoding="utf-8")
-        except FileNotFoundError:
-            raise ScenarioError("no such file", where=source) from None
-        except UnicodeDecodeError:
-            raise ScenarioError("is not UTF-8 text; a scenario is a TOML text file", where=source) from None
-        except IsADirectoryError:
-            raise ScenarioError("is a folder, not a scenario file", where=source) from None
-        except OSError as exc:
-            raise ScenarioError(f"cannot read: {exc.strerror or exc}", where=source) from None
-    else:
-        text = path_or_text
-    data = _parse_text(text, source)
-    if source is None:
-        return scenario_from_dict(data)
+    path = Path(path)
+    source = str(path)
     try:
-        return scenario_from_dict(data)
-    except ScenarioError as exc:
-        raise ScenarioError(exc.problem, where=f"{source}: {exc.where}" if exc.where else source) from None
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise ScenarioError("no such file", where=source) from None
+    except UnicodeDecodeError:
+        raise ScenarioError("is not UTF-8 text; a scenario is a TOML text file", where=source) from None
+    except IsADirectoryError:
+        raise ScenarioError("is a folder, not a scenario file", where=source) from None
+    except OSError as exc:
+        raise ScenarioError(f"cannot read: {exc.strerror or exc}", where=source) from None
+    return parse_scenario_text(text, source)

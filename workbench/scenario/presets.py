@@ -18,9 +18,9 @@ from pathlib import Path
 
 from workbench.errors import ScenarioError
 from workbench.scenario.model import Scenario
-from workbench.scenario.parse import load_scenario
+from workbench.scenario.parse import parse_scenario_text
 
-__all__ = ["DEFAULT_PRESET", "list_presets", "preset_text", "load_preset"]
+__all__ = ["DEFAULT_PRESET", "list_presets", "preset_text", "read_preset"]
 
 DEFAULT_PRESET = "common_cause"
 _NAME = re.compile(r"^[a-z][a-z0-9_]{0,63}$")
@@ -75,8 +75,8 @@ def preset_text(name: str) -> str:
     return entry.read_text(encoding="utf-8")
 
 
-def load_preset(name: str) -> Scenario:
-    """Load a built-in preset by name.
+def read_preset(name: str) -> Scenario:
+    """Read a built-in preset by name (every preset lists its strategies).
 
     Raises
     ------
@@ -85,12 +85,12 @@ def load_preset(name: str) -> Scenario:
 
     Examples
     --------
-    >>> load_preset("mediator").question.outcome
+    >>> read_preset("mediator").question.outcome
     'output'
     """
     text = preset_text(name)
     try:
-        return load_scenario(text)
+        return parse_scenario_text(text)
     except ScenarioError as exc:
         raise ScenarioError(
             exc.problem, where=f"preset {name}: {exc.where}" if exc.where else f"preset {name}"

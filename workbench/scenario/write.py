@@ -2,10 +2,10 @@
 
 Examples
 --------
->>> from workbench.scenario.presets import load_preset
->>> from workbench.scenario.parse import load_scenario
+>>> from workbench import load_preset
+>>> from workbench import load_scenario, loads_scenario
 >>> sc = load_preset("common_cause")
->>> load_scenario(dumps_scenario(sc)) == sc
+>>> loads_scenario(dumps_scenario(sc)) == sc
 True
 """
 
@@ -32,7 +32,7 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
+    >>> from workbench import load_preset
     >>> scenario_to_dict(load_preset("common_cause"))["arrows"][0]
     {'from': 'soil_quality', 'to': 'fertiliser', 'effect': 0.6}
     """
@@ -101,10 +101,10 @@ def dumps_scenario(scenario: Scenario, *, include_default_strategies: bool = Tru
 
     Examples
     --------
-    >>> from workbench.scenario.presets import load_preset
-    >>> from workbench.scenario.parse import load_scenario
+    >>> from workbench import load_preset
+    >>> from workbench import load_scenario, loads_scenario
     >>> sc = load_preset("common_cause")
-    >>> load_scenario(dumps_scenario(sc)) == sc
+    >>> loads_scenario(dumps_scenario(sc)) == sc
     True
     """
     return tomli_w.dumps(scenario_to_dict(scenario, include_default_strategies=include_default_strategies))
@@ -140,8 +140,8 @@ def save_scenario(scenario: Scenario, path: str | os.PathLike) -> None:
     Examples
     --------
     >>> import tempfile, pathlib
-    >>> from workbench.scenario.parse import load_scenario
-    >>> sc = load_scenario('title = "t"\\n[question]\\nexposure = "a"\\noutcome = "b"\\n'
+    >>> from workbench import load_scenario, loads_scenario
+    >>> sc = loads_scenario('title = "t"\\n[question]\\nexposure = "a"\\noutcome = "b"\\n'
     ...                    '[variables.a]\\n[variables.b]\\n[[arrows]]\\nfrom = "a"\\nto = "b"\\neffect = 1.0\\n')
     >>> target = pathlib.Path(tempfile.mkdtemp()) / "copy.toml"
     >>> save_scenario(sc, target)
