@@ -33,8 +33,11 @@ import numpy as np
 import statsmodels.api as sm
 
 import workbench as wb
-from workbench.engine.generate import block_seed, draw_rows, structure
-from workbench.engine.replicates import MEMORY_BUDGET, _chunk_size, _Stream, fit_plan, run_replicates
+from workbench.engine.chunks import MEMORY_BUDGET, BlockStream, replicates_per_chunk
+from workbench.engine.fitplan import fit_plan
+from workbench.engine.generate import draw_rows, structure
+from workbench.engine.replicates import run_replicates
+from workbench.engine.streams import block_seed
 
 DEPOT_TEXT = """
 title = "Night shifts and packing errors in a warehouse"
@@ -114,7 +117,7 @@ def peak_rss_child(replicates: int, n: int) -> tuple[float, float, float]:
         import resource, time
         import workbench as wb
         from workbench.engine.replicates import run_replicates
-        sc = wb.load_scenario({DEPOT_TEXT!r})
+        sc = wb.loads_scenario({DEPOT_TEXT!r})
         run_replicates(sc, 50, 10, seed=1)  # imports and caches
         base = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
         start = time.perf_counter()
@@ -179,7 +182,7 @@ def main(argv=None) -> int:
     )
 
     # 3. raw engine vs statsmodels loop ----------------------------------------------------------------
-    depot = wb.load_scenario(DEPOT_TEXT)
+    depot = wb.loads_scenario(DEPOT_TEXT)
     run_replicates(depot, n, 100, seed=seed)
     raw_time = best_of(repeats, lambda: run_replicates(depot, n, R, seed=seed)) / R
     sm_time, sm_est = statsmodels_loop(depot, n, 300, seed)
@@ -204,10 +207,10 @@ def main(argv=None) -> int:
 
     # 4. raw engine vs only drawing the same random numbers ---------------------------------------------
     k = structure(depot).k
-    chunk = _chunk_size("raw", n, k, fit_plan(depot), R, None)
+    chunk = replicates_per_chunk("raw", n, k, fit_plan(depot), R, None)
 
     def draw_only():
-        stream = _Stream(np.random.SeedSequence(seed))
+        stream = BlockStream(np.random.SeedSequence(seed))
         buffer = np.empty((chunk, k, n))
         done = 0
         while done < R:

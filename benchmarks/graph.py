@@ -1,7 +1,7 @@
 """Benchmark: finding every minimal valid adjustment set with 15 candidate covariates (issue 2, target < 2 s).
 
 Random DAGs over 15 observed covariates, an exposure and an outcome, each possible forward arrow present with
-probability p (and exposure -> outcome always), are analysed by ``workbench.graph.adjustment.minimal_sets`` in a
+probability p (and exposure -> outcome always), are analysed by ``workbench.graph.minimal_sets`` in a
 fresh cache; the search is also run against a brute-force reference that tests every subset with networkx's
 ``is_d_separator``, and the two must agree. Prints the slowest time per density and its ratio to the target.
 
@@ -16,8 +16,8 @@ import time
 import networkx as nx
 import numpy as np
 
-from workbench import load_scenario
-from workbench.graph import adjustment
+from workbench import loads_scenario
+from workbench.graph import build, criteria, search
 
 TARGET_SECONDS = 2.0
 
@@ -32,13 +32,13 @@ def random_scenario(p: float, seed: int):
             if rng.random() < p or (a, b) == ("x", "y"):
                 lines += ["[[arrows]]", f'from = "{a}"', f'to = "{b}"', "effect = 0.2"]
     lines += ["[[strategies]]", 'name = "u"', "adjust = []"]
-    return load_scenario("\n".join(lines))
+    return loads_scenario("\n".join(lines))
 
 
 def brute_force(sc) -> list[tuple[str, ...]]:
-    G = adjustment.build_graph(sc)
-    H = adjustment._backdoor_graph(G, "x", "y")
-    forb = adjustment.forbidden_set(G, "x", "y")
+    G = build.build_graph(sc)
+    H = criteria.backdoor_graph(G, "x", "y")
+    forb = criteria.forbidden_set(G, "x", "y")
     others = [n for n in sc.names if n not in ("x", "y") and n not in forb]
     found: list[set[str]] = []
     for k in range(len(others) + 1):
@@ -56,9 +56,9 @@ def main() -> None:
         worst, sets = 0.0, 0
         for seed in range(5):
             sc = random_scenario(p, seed)
-            adjustment._minimal_sets_cached.cache_clear()
+            search.clear_search_cache()
             start = time.perf_counter()
-            found = adjustment.minimal_sets(sc)
+            found = search.minimal_sets(sc)
             worst = max(worst, time.perf_counter() - start)
             sets = max(sets, len(found))
             if seed == 0 and p <= 0.5:

@@ -32,7 +32,8 @@ from scipy.special import expit
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from workbench.engine.logistic import design_matrix, fit_logit_batch, standardized_contrast  # noqa: E402
+from workbench.engine.logistic import design_matrix, fit_logit_batch  # noqa: E402
+from workbench.engine.standardize import standardized_contrast  # noqa: E402
 
 
 def cpu_model() -> str:

@@ -209,12 +209,49 @@ def test_run_rejects_bad_settings_in_one_line(scenario_file, capsys):
     path = scenario_file(GOOD)
     for args, expected in (
         (["--engine", "fast"], "engine"),
-        (["--replicates", "0"], "replicates"),
+        (["--replicates", "0"], "--replicates: must be an integer from 1 to 1,000,000, got 0"),
+        (["--replicates", str(10**8)], "--replicates: must be an integer from 1 to 1,000,000"),
+        (["--replicates", str(2**63)], "--replicates: must be an integer from 1 to 1,000,000"),
+        (["--replicates", "many"], "must be a whole number, got 'many'"),
+        (["--alpha", "0.7"], "--alpha: must be a number in (0, 0.5], got 0.7"),
+        (["--seed", "-1"], "--seed: must be an integer of at least 0, got -1"),
         (["--n", "3"], "n"),
     ):
         assert main(["run", path, *args]) == 2
         err = capsys.readouterr().err.strip()
         assert "\n" not in err and expected in err
+
+
+def test_plan_options_share_the_file_constraints(scenario_file, capsys):
+    """The plan's options are checked by the same study constraints as the file (one rule, one message)."""
+    path = scenario_file(GOOD)
+    for args, expected in (
+        (["--target-power", "1.5"], "--target-power: must be a number in (0, 1), got 1.5"),
+        (["--target-halfwidth", "-1"], "--target-halfwidth: must be a number greater than 0, got -1.0"),
+        (["--sizes", "100,0"], "--sizes: must be an integer of at least 1, got 0"),
+        (["--sizes", "100,x"], "--sizes: must be whole numbers separated by commas, got '100,x'"),
+        (["--replicates", "2000000"], "--replicates: must be an integer from 1 to 1,000,000"),
+    ):
+        assert main(["plan", path, *args]) == 2
+        err = capsys.readouterr().err.strip()
+        assert "\n" not in err and expected in err, err
+
+
+def test_without_seed_the_file_seed_is_used(scenario_file, tmp_path):
+    """A run without --seed uses the scenario's seed: the same file gives the same JSON
+    (common practice, no source)."""
+    path = scenario_file(GOOD)
+    first, second = tmp_path / "a.json", tmp_path / "b.json"
+    assert main(["run", path, "--replicates", "50", "--json", str(first)]) == 0
+    assert main(["run", path, "--replicates", "50", "--seed", "20261201", "--json", str(second)]) == 0
+    assert first.read_bytes() == second.read_bytes()
+
+
+def test_version_and_bad_port(capsys):
+    assert main(["--version"]) == 0
+    assert capsys.readouterr().out.startswith("workbench ")
+    assert main(["serve", "--port", "0", "--no-show"]) == 2
+    assert "--port: must be a port number from 1 to 65535, got 0" in capsys.readouterr().err
 
 
 @pytest.mark.skipif(shutil.which("workbench") is None, reason="the package is not installed")
@@ -235,4 +272,27 @@ def test_ctrl_c_ends_a_long_run_cleanly():
     out, err = process.communicate(timeout=120)
     assert process.returncode == 130
     assert "cancelled" in err and "Traceback" not in err
+    assert out == ""
+
+
+@pytest.mark.skipif(shutil.which("workbench") is None, reason="the package is not installed")
+@pytest.mark.parametrize("delay", [0.15, 0.3, 0.5, 0.8, 1.2])
+def test_ctrl_c_during_start_up_exits_130_with_one_line(delay):
+    """Ctrl-C while the command is still importing the library also ends with exit 130 and one line
+    (common practice, no source: 128 + SIGINT is the shell's convention for an interrupted command)."""
+    import signal
+    import time
+
+    process = subprocess.Popen(
+        ["workbench", "run", "--preset", "binary_outcome", "--replicates", "500000"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL),
+    )
+    time.sleep(delay)
+    process.send_signal(signal.SIGINT)
+    out, err = process.communicate(timeout=120)
+    assert process.returncode == 130, err
+    assert "Traceback" not in err and len(err.strip().splitlines()) == 1
     assert out == ""

@@ -13,13 +13,9 @@ import time
 import pytest
 
 from workbench import load_preset
-from workbench.app.state import (
-    MAX_UPLOAD_BYTES,
-    SampleState,
-    ScenarioState,
-    SimulationJob,
-    Workbench,
-)
+from workbench.app.dataset import SampleState
+from workbench.app.runs import SimulationJob
+from workbench.app.state import MAX_UPLOAD_BYTES, ScenarioState, Workbench
 from workbench.scenario.presets import preset_text
 from workbench.scenario.write import dumps_scenario
 
@@ -161,6 +157,8 @@ def test_strategies_edit_and_verdicts(state):
     rows = {r["name"]: r for r in state.strategy_rows()}
     assert rows["both"]["valid"] is False and rows["adjust_soil"]["valid"] is True
     assert rows["both"]["reasons"]
+    checked = {c.name: c for c in state.report.checks}
+    assert rows["both"]["reasons"] == list(checked["both"].reasons)  # the check report's own words
     assert state.remove_strategy("both")
     assert state.remove_strategy("unadjusted")
     assert not state.remove_strategy("adjust_soil")
@@ -310,7 +308,31 @@ def test_a_hidden_result_tab_catches_up_when_shown():
     app.tabs.active = 1
     app.tabs.active = 4
     wb.scenario_state.preset = "larger_graph"
-    assert "_refresh" in estimates._waiting
+    assert "refresh" in estimates.waiting
     app.tabs.active = 1
     shown = " ".join(str(getattr(o, "object", "")) for o in estimates.body.objects)
     assert "wb-sim-truth'>0.5<" in shown and "adjust_confounders" in shown
+
+
+def test_study_inputs_follow_the_scenario_and_are_checked_by_the_one_rule(state):
+    """Common practice, no source: the inputs' settings objects send a change to the state, which checks it
+    with ``check_setting`` (the message is the file's own); a refused value leaves the scenario as it was,
+    and typing the valid value again clears the error."""
+    from workbench.app.settings import PlanSettings, StudySettings
+    from workbench.scenario.constraints import STUDY_SETTINGS
+
+    study = StudySettings(state=state)
+    plan = PlanSettings(state=state)
+    assert StudySettings.param.replicates.softbounds == (1, STUDY_SETTINGS["replicates"].high)
+    assert (study.n, study.seed) == (state.scenario.study.n, state.scenario.study.seed)
+    study.replicates = 0
+    assert state.error == "study.replicates: must be an integer from 1 to 1,000,000, got 0"
+    assert state.error_section == "study" and state.scenario.study.replicates == 2000
+    study.replicates = 2000
+    assert state.error == ""
+    plan.target_power = 1.0
+    assert state.error == "study.target_power: must be a number in (0, 1), got 1.0"
+    assert state.error_section == "plan"
+    state.preset = "mediator"
+    assert plan.target_power == state.scenario.study.target_power
+    assert study.seed == load_preset("mediator").study.seed

@@ -14,8 +14,8 @@ import pytest
 from workbench import load_preset
 from workbench.analysis.check import check
 from workbench.analysis.simulate import simulate
+from workbench.formatting.numbers import with_mcse
 from workbench.report.explain import ASSUMPTION_NOTE, explain
-from workbench.report.tables import with_mcse
 
 
 @pytest.fixture(scope="module")

@@ -8,7 +8,6 @@ from scipy import special
 
 import workbench as wb
 from workbench.engine.generate import (
-    block_seed,
     calibrate_intercepts,
     draw,
     draw_rows,
@@ -16,6 +15,7 @@ from workbench.engine.generate import (
     structure,
 )
 from workbench.engine.replicates import run_replicates
+from workbench.engine.streams import block_seed
 
 
 def build(variables, arrows, exposure, outcome, strategies=(("unadjusted", ()),), study=""):
@@ -132,5 +132,5 @@ def test_block_seed_is_the_spawned_child():
 
 
 def test_draw_rejects_bad_n():
-    with pytest.raises(wb.SimulationError, match="n must be a positive integer"):
+    with pytest.raises(wb.SimulationError, match="n: must be an integer of at least 1, got 0"):
         draw(BAKERY, 0)

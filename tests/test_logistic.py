@@ -9,8 +9,9 @@ from hypothesis import strategies as st
 from scipy.special import expit
 
 from workbench.engine import logistic
-from workbench.engine.logistic import LogitFit, design_matrix, fit_logit_batch, standardized_contrast
+from workbench.engine.logistic import LogitFit, design_matrix, fit_logit_batch
 from workbench.engine.robust import ols_hc3_batch
+from workbench.engine.standardize import standardized_contrast
 from workbench.errors import SimulationError
 
 
@@ -45,7 +46,7 @@ def test_each_replicate_is_fitted_independently_of_the_others(monkeypatch):
     X, y = _draw(2, R=30)
     y[3] = 0.0  # a failing replicate in the first block
     together = fit_logit_batch(X, y)
-    monkeypatch.setattr(logistic, "_CACHE_BYTES", 1)  # blocks of 8 replicates: 4 blocks
+    monkeypatch.setattr(logistic, "CACHE_BYTES", 1)  # blocks of 8 replicates: 4 blocks
     blocked = fit_logit_batch(X, y)
     threaded = fit_logit_batch(X, y, workers=3)
     alone = [fit_logit_batch(X[r : r + 1], y[r : r + 1]) for r in (0, 3, 17, 29)]

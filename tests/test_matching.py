@@ -13,9 +13,10 @@ import workbench as wb
 from workbench import load_preset, loads_scenario
 from workbench.analysis.check import check
 from workbench.analysis.simulate import simulate
-from workbench.engine.replicates import _matching_mask, choose_engine, run_replicates
+from workbench.engine.design import matching_mask
+from workbench.engine.replicates import choose_engine, run_replicates
 from workbench.errors import ScenarioError, SimulationError
-from workbench.report.tables import strategy_text
+from workbench.formatting.phrases import strategy_text
 from workbench.scenario.write import dumps_scenario
 
 PRESET = load_preset("restriction")
@@ -123,7 +124,7 @@ def test_matching_mask_keeps_the_first_pairs_in_row_order():
     x = [1, 1, 0, 1, 0, 0, 1, 0]
     shift = [0, 0, 0, 1, 1, 1, 0, 1]
     data = np.array([[x, shift]], dtype=float)
-    keep = _matching_mask(data, 0, (1,), np.ones((1, 8), dtype=bool))[0]
+    keep = matching_mask(data, 0, (1,), np.ones((1, 8), dtype=bool))[0]
     # shift 0: exposed rows 0, 1, 6; unexposed row 2 -> one pair (rows 0, 2)
     # shift 1: exposed row 3; unexposed rows 4, 5, 7 -> one pair (rows 3, 4)
     assert keep.tolist() == [True, False, True, True, True, False, False, False]
@@ -163,7 +164,7 @@ def test_table_and_outputs_show_the_matching(tmp_path):
     data = json.loads(result.to_json())
     row = next(s for s in data["strategies"] if s["name"] == "match_shift")
     assert row["match"] == ["night_shift"]
-    assert "matched 1:1 on night_shift; mean units kept" in result.to_text()
+    assert "matched 1:1 on night_shift; mean units kept" in result.as_text()
     result.to_csv(tmp_path / "out.csv")
     csv = pd.read_csv(tmp_path / "out.csv").set_index("name")
     assert csv.loc["match_shift", "match"] == "night_shift"
@@ -181,7 +182,7 @@ def test_check_counts_matched_variables_as_conditioned_on():
     # beside another covariate the balance is marginal only: the matched variable must be adjusted for too
     assert rows["match_shift"]["valid"] is False
     assert any("balances it only marginally" in r for r in rows["match_shift"]["reasons"])
-    assert "matched on night_shift" in check(PRESET).to_text()
+    assert "matched on night_shift" in check(PRESET).as_text()
 
 
 def test_estimate_reports_the_matched_rows():

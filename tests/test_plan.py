@@ -15,15 +15,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from workbench import load_preset, loads_scenario
-from workbench.analysis.plan import (
-    ABSOLUTE_RESOLUTION,
-    ALSO_COLUMNS,
-    RELATIVE_RESOLUTION,
-    SMALLEST_COLUMNS,
-    TABLE_COLUMNS,
-    PlanResult,
-    plan,
-)
+from workbench.analysis.plan import plan
+from workbench.analysis.plan_result import ALSO_COLUMNS, SMALLEST_COLUMNS, TABLE_COLUMNS, PlanResult
+from workbench.analysis.plan_search import ABSOLUTE_RESOLUTION, RELATIVE_RESOLUTION
 from workbench.analysis.power import find_smallest_n, large_sample, noncentral_t_power, regression_power
 from workbench.errors import Cancelled, SimulationError
 
@@ -183,7 +177,7 @@ def test_csv_is_written_and_reads_back(common_cause_plan, tmp_path):
 
 
 def test_text_names_every_strategy_and_the_flags(common_cause_plan):
-    text = common_cause_plan.to_text()
+    text = common_cause_plan.as_text()
     assert "adjust_soil" in text and "unadjusted (invalid!)" in text
     assert "Smallest n" in text and "misleading" in text
 
@@ -203,7 +197,7 @@ def test_defaults_come_from_the_study():
     sc = sc.replace(
         study=sc.study.__class__(replicates=150, seed=9, sample_sizes=(60, 120), target_power=0.7)
     )
-    result = plan(sc)
+    result = plan(sc, seed=sc.study.seed)
     assert result.replicates == 150 and result.seed == 9 and result.sample_sizes == [60, 120]
     assert result.target_power == 0.7
 
@@ -223,7 +217,7 @@ def test_also_table_reports_the_second_effect(two_exposures_plan):
     assert len(small) == 1 and small["n_for_power"].iloc[0] > 100
     data = json.loads(two_exposures_plan.to_json())
     assert {"n", "strategy", "variable", "power", "correlation"} <= set(data["also"][0])
-    assert "Separating the effects" in two_exposures_plan.to_text()
+    assert "Separating the effects" in two_exposures_plan.as_text()
 
 
 # ---- progress, cancelling and bad input ---------------------------------------------------------------
@@ -254,14 +248,15 @@ def test_progress_can_cancel():
 @pytest.mark.parametrize(
     "changes, words",
     [
-        ({"sample_sizes": [2, 100]}, "sample_sizes[1] = 2 is too small"),
-        ({"sample_sizes": []}, "at least one size"),
-        ({"sample_sizes": [50.5]}, "must be an integer"),
-        ({"replicates": 0}, "replicates must be an integer >= 2"),
-        ({"target_power": 1.5}, "target_power must lie strictly between 0 and 1"),
-        ({"target_halfwidth": -1.0}, "target_halfwidth must be a number > 0"),
-        ({"seed": -4}, "seed must be"),
-        ({"progress": 3}, "progress must be callable"),
+        ({"sample_sizes": [2, 100]}, "sample_sizes[1]: must be at least 5 for strategy 'adjust_soil'"),
+        ({"sample_sizes": []}, "sample_sizes: must be a list of at least one integer, got []"),
+        ({"sample_sizes": [50.5]}, "sample_sizes[1]: must be an integer of at least 1, got 50.5"),
+        ({"replicates": 0}, "replicates: must be an integer from 1 to 1,000,000, got 0"),
+        ({"replicates": 1}, "replicates: must be an integer from 2 to 1,000,000 in a plan"),
+        ({"target_power": 1.5}, "target_power: must be a number in (0, 1), got 1.5"),
+        ({"target_halfwidth": -1.0}, "target_halfwidth: must be a number greater than 0, got -1.0"),
+        ({"seed": -4}, "seed: must be None, a non-negative integer"),
+        ({"progress": 3}, "progress: must be callable"),
     ],
 )
 def test_bad_settings_raise_one_line_errors(changes, words):

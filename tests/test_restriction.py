@@ -151,7 +151,7 @@ def test_table_and_outputs_show_the_restriction(tmp_path):
     data = json.loads(result.to_json())
     row = next(s for s in data["strategies"] if s["name"] == "day_shift_experience_band")
     assert row["restrict"] == {"night_shift": 0, "experience": [-1.0, 1.0]}
-    assert "mean units kept" in result.to_text()
+    assert "mean units kept" in result.as_text()
     result.to_csv(tmp_path / "out.csv")
     csv = pd.read_csv(tmp_path / "out.csv").set_index("name")
     assert csv.loc["day_shift_experience_band", "restrict"] == "night_shift = 0; experience = [-1.0, 1.0]"

@@ -11,7 +11,7 @@ from hypothesis import strategies as st
 
 from workbench import load_scenario, loads_scenario, scenario_from_dict
 from workbench.errors import ScenarioError
-from workbench.scenario.constraints import MAX_ARROWS, MAX_VARIABLES
+from workbench.scenario.constraints import MAX_ARROWS, MAX_VARIABLES, check_setting
 from workbench.scenario.write import dumps_scenario
 
 BASE = """title = "Drip irrigation and harvest"
@@ -173,14 +173,44 @@ BROKEN = {
         "study.sample_sizes",
         "too small",
     ),
-    "replicates 0": (BASE + "[study]\nreplicates = 0\n", "study.replicates", "between 1 and 1,000,000"),
+    "replicates 0": (
+        BASE + "[study]\nreplicates = 0\n",
+        "study.replicates",
+        "must be an integer from 1 to 1,000,000, got 0",
+    ),
     "replicates above a million": (
         BASE + "[study]\nreplicates = 1000001\n",
         "study.replicates",
-        "between 1 and 1,000,000",
+        "must be an integer from 1 to 1,000,000, got 1000001",
     ),
     "alpha 0": (BASE + "[study]\nalpha = 0.0\n", "study.alpha", "(0, 0.5]"),
     "alpha above 0.5": (BASE + "[study]\nalpha = 0.7\n", "study.alpha", "(0, 0.5]"),
+    "n 0": (BASE + "[study]\nn = 0\n", "study.n", "must be an integer of at least 1, got 0"),
+    "negative seed": (
+        BASE + "[study]\nseed = -1\n",
+        "study.seed",
+        "must be an integer of at least 0, got -1",
+    ),
+    "planned size 0": (
+        BASE + "[study]\nsample_sizes = [100, 0]\n",
+        "study.sample_sizes[2]",
+        "must be an integer of at least 1, got 0",
+    ),
+    "planned size not an integer": (
+        BASE + '[study]\nsample_sizes = [100, "many"]\n',
+        "study.sample_sizes[2]",
+        "must be an integer of at least 1, got 'many'",
+    ),
+    "target power 1": (
+        BASE + "[study]\ntarget_power = 1.0\n",
+        "study.target_power",
+        "must be a number in (0, 1), got 1.0",
+    ),
+    "target half-width 0": (
+        BASE + "[study]\ntarget_halfwidth = 0.0\n",
+        "study.target_halfwidth",
+        "must be a number greater than 0, got 0.0",
+    ),
     "bad variable name": (
         _edit("[variables.harvest]", '[variables.harvest]\n[variables."2x"]'),
         "variables.2x",
@@ -203,6 +233,27 @@ def test_broken_file_gives_one_line_naming_the_place(case):
     assert message.startswith(place), message
     assert info.value.where.startswith(place)
     assert words in message, message
+
+
+@pytest.mark.parametrize(
+    "key, value",
+    [
+        ("n", 0),
+        ("replicates", 0),
+        ("seed", -3),
+        ("alpha", 0.9),
+        ("target_power", 0.0),
+        ("target_halfwidth", -1.0),
+    ],
+)
+def test_study_settings_share_the_one_rule_and_message(key, value):
+    """A bad ``[study]`` setting gives exactly the message of ``check_setting`` for ``study.<key>``, the one
+    rule the library, the command line and the dashboard use too (common practice, no source)."""
+    with pytest.raises(ScenarioError) as expected:
+        check_setting(key, value, where=f"study.{key}")
+    with pytest.raises(ScenarioError) as info:
+        loads_scenario(BASE + f"[study]\n{key} = {value!r}\n")
+    assert str(info.value) == str(expected.value)
 
 
 def test_alpha_one_half_is_allowed():

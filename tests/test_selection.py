@@ -128,7 +128,7 @@ def test_table_has_the_selection_columns():
     assert row["selected_sets"][0]["adjust"] and row["mean_retained_n"] is None
     fixed_row = next(s for s in data["strategies"] if s["name"] == "adjust_complexity")
     assert fixed_row["selected_valid_share"] is None and fixed_row["selection"] is None
-    assert "chosen set valid in" in result.to_text()
+    assert "chosen set valid in" in result.as_text()
 
 
 def test_results_do_not_depend_on_the_chunk_size():
@@ -161,7 +161,10 @@ def test_check_keeps_valid_a_bool_and_says_the_set_is_chosen_from_the_data():
     assert rows["select_by_change"]["large_sample_selected"] == ["complexity"]
     assert chosen["large_sample_bias"] == pytest.approx(0.0, abs=1e-12)
     assert rows["adjust_complexity"]["large_sample_selected"] is None
-    assert "chooses by p value among" in report.to_text()
+    assert "chosen by p-value from complexity, team_experience" in report.as_text()
+    typed = {c.name: c for c in report.checks}
+    assert typed["select_by_p_value"].large_sample_selected == ("complexity", "team_experience")
+    assert typed["select_by_p_value"].as_dict() == chosen
     assert json.dumps(report.to_dict())
 
 

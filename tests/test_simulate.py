@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import importlib
 import json
+import re
 
 import numpy as np
 import pandas as pd
@@ -13,6 +14,7 @@ import workbench as wb
 from workbench.analysis.simulate import REQUIRED_KEYS, simulate
 from workbench.engine.replicates import run_replicates
 from workbench.errors import Cancelled, SimulationError
+from workbench.graph.defaults import default_strategies
 
 
 def build(variables, arrows, exposure, outcome, strategies, study="", question=""):
@@ -71,10 +73,10 @@ SOFTWARE = build(
     ("kwargs", "message"),
     [
         ({"engine": "fast"}, "engine: must be one of"),
-        ({"replicates": 0}, "replicates: must be a whole number of at least 1, got 0"),
+        ({"replicates": 0}, "replicates: must be an integer from 1 to 1,000,000, got 0"),
         ({"n": 4}, "n = 4 is too small for strategy 'adjust_both' .4 coefficients.; n must be at least 6"),
-        ({"alpha": 0.9}, "alpha: must lie in"),
-        ({"seed": -1}, "seed: must be a non-negative"),
+        ({"alpha": 0.9}, r"alpha: must be a number in \(0, 0.5\], got 0.9"),
+        ({"seed": -1}, "seed: must be None, a non-negative integer"),
     ],
 )
 def test_bad_arguments_fail_before_work(kwargs, message):
@@ -90,9 +92,9 @@ def test_exact_forced_on_binary_graph_is_refused():
 
 
 def test_auto_picks_exact_for_linear_gaussian_and_raw_otherwise():
-    assert simulate(WORKSHOP, replicates=50).engine == "exact"
-    assert simulate(SOFTWARE, replicates=20).engine == "raw"
-    assert simulate(WORKSHOP, replicates=50, engine="raw").engine == "raw"
+    assert simulate(WORKSHOP, replicates=50, seed=1).engine == "exact"
+    assert simulate(SOFTWARE, replicates=20, seed=1).engine == "raw"
+    assert simulate(WORKSHOP, replicates=50, seed=1, engine="raw").engine == "raw"
 
 
 # ---- reproducibility ------------------------------------------------------------------------------------
@@ -129,7 +131,7 @@ def test_rank_deficient_replicates_are_counted_not_fatal():
         [("unadjusted", ()), ("adjust_fault", ("rare_fault",))],
         study="[study]\nn = 20\nreplicates = 400\nseed = 3\n",
     )
-    result = simulate(sc)
+    result = simulate(sc, seed=sc.study.seed)
     row = result.table.set_index("name").loc["adjust_fault"]
     # P(no fault among 20) = 0.97^20 = 0.54: about half the replicates have a constant column
     assert 150 < row["failures"] < 290
@@ -159,7 +161,7 @@ def test_progress_reaches_the_total_and_cancel_propagates():
 
 # ---- result objects -------------------------------------------------------------------------------------
 def test_json_follows_the_contract():
-    result = simulate(WORKSHOP)
+    result = simulate(WORKSHOP, seed=WORKSHOP.study.seed)
     data = json.loads(result.to_json())
     for key in ("title", "n", "replicates", "seed", "alpha", "engine", "truth", "truth_mcse", "strategies"):
         assert key in data
@@ -184,7 +186,7 @@ def test_zero_truth_gives_null_relative_bias_in_json():
 
 
 def test_table_estimates_text_and_csv(tmp_path):
-    result = simulate(WORKSHOP, replicates=300)
+    result = simulate(WORKSHOP, replicates=300, seed=WORKSHOP.study.seed)
     assert list(result.table["name"]) == ["unadjusted", "adjust_skill", "adjust_both"]
     assert result.estimates.shape == (900, 8)
     assert list(result.estimates.columns) == [
@@ -199,7 +201,7 @@ def test_table_estimates_text_and_csv(tmp_path):
     ]
     also = result.also_estimates
     assert set(also["strategy"]) == {"adjust_both"} and len(also) == 300
-    text = result.to_text()
+    text = result.as_text()
     assert "adjust_skill" in text and "assumption" in text
     path = tmp_path / "table.csv"
     result.to_csv(path)
@@ -210,7 +212,7 @@ def test_table_estimates_text_and_csv(tmp_path):
 
 def test_change_in_estimate_and_se_ratio_against_an_internal_reference():
     sc = WORKSHOP.replace(strategies=WORKSHOP.strategies[1:])  # no unadjusted strategy
-    table = simulate(sc, replicates=400).table.set_index("name")
+    table = simulate(sc, replicates=400, seed=sc.study.seed).table.set_index("name")
     # skill confounds: adjusting moves the estimate from about 0.55 down to 0.3
     assert table.loc["adjust_skill", "change_in_estimate_median"] < -0.3
     assert table.loc["adjust_skill", "share_change_over_10pct"] > 0.9
@@ -218,7 +220,7 @@ def test_change_in_estimate_and_se_ratio_against_an_internal_reference():
 
 
 def test_binary_outcome_strategies_name_their_estimand_and_truth():
-    result = simulate(SOFTWARE)
+    result = simulate(SOFTWARE, seed=SOFTWARE.study.seed)
     table = result.table.set_index("name")
     assert table.loc["lpm", "estimand"] == "marginal risk difference"
     assert table.loc["logit_team", "estimand"] == "conditional log odds ratio"
@@ -229,26 +231,53 @@ def test_binary_outcome_strategies_name_their_estimand_and_truth():
     assert np.isinf(table.loc["lpm", "df"])
     data = json.loads(result.to_json())
     assert data["conditional_log_odds_ratio"] == -0.7
-    assert "conditional log odds ratio" in result.to_text()
+    assert "conditional log odds ratio" in result.as_text()
 
 
 def test_simulation_defaults_come_from_the_study():
-    result = simulate(WORKSHOP)
+    result = simulate(WORKSHOP, seed=WORKSHOP.study.seed)
     assert (result.n, result.replicates, result.seed, result.alpha) == (120, 600, 5, 0.05)
+
+
+def test_no_seed_means_fresh_entropy_and_the_result_repeats_the_run():
+    """As numpy: seed=None draws fresh entropy (common practice, no source); passing the recorded seed back
+    repeats the run number for number."""
+    a = simulate(WORKSHOP, replicates=50)
+    b = simulate(WORKSHOP, replicates=50)
+    assert a.seed != b.seed and a.seed != WORKSHOP.study.seed
+    again = simulate(WORKSHOP, replicates=50, seed=a.seed)
+    pd.testing.assert_frame_equal(a.table, again.table)
+
+
+def test_a_scenario_edited_without_strategies_gets_the_defaults_of_its_new_graph():
+    sc = build(
+        {"skill": "", "training": "", "output": ""},
+        [("skill", "training", 0.7), ("skill", "output", 0.6), ("training", "output", 0.3)],
+        "training",
+        "output",
+        [],
+    )
+    edited = sc.replace(arrows=sc.arrows[1:])  # skill no longer causes training: no confounder
+    assert edited.strategies == ()
+    result = simulate(edited, replicates=50, seed=1)
+    names = list(result.table["name"])
+    assert names == [s.name for s in default_strategies(edited)]
+    assert names != [s.name for s in sc.strategies]  # the old graph's defaults are not reused
 
 
 def test_huge_n_is_drawn_in_row_groups_with_the_same_numbers(monkeypatch):
     """A replicate larger than the memory budget is drawn and accumulated in row groups; the stream order
     (pieces of PIECE rows) makes the result equal to the whole-replicate path up to rounding."""
+    from workbench.engine.fitplan import fit_plan
     from workbench.engine.generate import PIECE
 
-    engine = importlib.import_module("workbench.engine.replicates")
+    chunks = importlib.import_module("workbench.engine.chunks")
 
     n = 2 * PIECE + 123
     whole = run_replicates(WORKSHOP, n, 2, seed=6, engine="raw")
-    assert not engine._piecewise(n, 4, engine.fit_plan(WORKSHOP))
-    monkeypatch.setattr(engine, "MEMORY_BUDGET", 2**20)
-    assert engine._piecewise(n, 4, engine.fit_plan(WORKSHOP))
+    assert not chunks.draws_piecewise(n, 4, fit_plan(WORKSHOP))
+    monkeypatch.setattr(chunks, "MEMORY_BUDGET", 2**20)
+    assert chunks.draws_piecewise(n, 4, fit_plan(WORKSHOP))
     pieces = run_replicates(WORKSHOP, n, 2, seed=6, engine="raw")
     np.testing.assert_allclose(pieces.estimate, whole.estimate, rtol=1e-9)
     np.testing.assert_allclose(pieces.se, whole.se, rtol=1e-9)
@@ -258,11 +287,13 @@ def test_direct_target_is_the_arrow_and_also_variables_are_reported():
     sc = WORKSHOP.replace(
         question=WORKSHOP.question.__class__("training", "output", "direct", also=("tooling",))
     )
-    result = simulate(sc, replicates=400)
+    result = simulate(sc, replicates=400, seed=sc.study.seed)
     assert result.truth == 0.3 and result.truth_method == "closed form"
     table = result.table.set_index("name")
     assert table.loc["adjust_both", "estimand"].startswith("direct effect")
     also = result.also_table()
     assert list(also["strategy"]) == ["adjust_both"] and also.loc[0, "truth"] == 0.5
     assert abs(also.loc[0, "bias"]) < 4 * also.loc[0, "bias_mcse"]
-    assert "tooling in adjust_both: truth 0.5" in result.to_text()
+    text = result.as_text()
+    assert "Also estimated: direct effects of further variables" in text
+    assert re.search(r"tooling\s+adjust_both\s+0\.5", text)  # variable, strategy, truth

@@ -150,7 +150,7 @@ def test_simulated_truth_agrees_with_path_tracing():
     assert closed.value == pytest.approx(
         linear.total_effects(sc)[names.index("staff"), names.index("shipped")]
     )
-    value, mcse = truth._simulated(sc.variables, sc.arrows, "staff", "shipped", "difference")
+    value, mcse = truth.simulated_effect(sc.variables, sc.arrows, "staff", "shipped", "difference")
     assert value == pytest.approx(0.3 + 0.8 * 1.2, abs=1e-9)
     assert abs(value - closed.value) <= 4 * mcse + 1e-9
 

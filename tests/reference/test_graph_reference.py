@@ -11,8 +11,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import workbench as wb
+from workbench import graph
 from workbench.analysis.check import check
-from workbench.graph import adjustment, linear
+from workbench.graph import linear
 
 
 def make(arrows, exposure="x", outcome="y", latent=(), target="total", effects=None, strategies=None):
@@ -65,7 +66,7 @@ def test_path_tracing_matches_sum_over_enumerated_directed_paths():
     arrows = [("a", "b"), ("a", "c"), ("b", "c"), ("b", "d"), ("c", "d"), ("a", "d")]
     effects = list(rng.normal(size=len(arrows)).round(3))
     sc = make(arrows, exposure="a", outcome="d", effects=effects)
-    G = adjustment.build_graph(sc)
+    G = graph.build_graph(sc)
     by_path = sum(
         np.prod([G.edges[u, v]["effect"] for u, v in itertools.pairwise(p)])
         for p in nx.all_simple_paths(G, "a", "d")
@@ -131,8 +132,8 @@ def test_good_and_bad_controls(case):
     not (bad), and the unadjusted model is valid exactly when no back-door path is open."""
     arrows, latent, z_valid, unadjusted_valid = CONTROLS[case]
     sc = make(arrows, latent=latent)
-    assert adjustment.judge(sc, ["z"]).valid is z_valid
-    assert adjustment.judge(sc, []).valid is unadjusted_valid
+    assert graph.judge(sc, ["z"]).valid is z_valid
+    assert graph.judge(sc, []).valid is unadjusted_valid
 
 
 def test_precision_notes_instrument_and_outcome_cause():
@@ -140,10 +141,10 @@ def test_precision_notes_instrument_and_outcome_cause():
     an instrument harms it."""
     instrument = make([("z", "x"), ("x", "y")])
     outcome_cause = make([("z", "y"), ("x", "y")])
-    assert "widen the SE" in adjustment.judge(instrument, ["z"]).notes[0]
-    assert "narrow the SE" in adjustment.judge(outcome_cause, ["z"]).notes[0]
-    assert [r for r, _ in adjustment.find_roles(instrument)["z"]] == ["instrument"]
-    assert [r for r, _ in adjustment.find_roles(outcome_cause)["z"]] == ["outcome_cause"]
+    assert "widen the SE" in graph.judge(instrument, ["z"]).notes[0]
+    assert "narrow the SE" in graph.judge(outcome_cause, ["z"]).notes[0]
+    assert [r for r, _ in graph.find_roles(instrument)["z"]] == ["instrument"]
+    assert [r for r, _ in graph.find_roles(outcome_cause)["z"]] == ["outcome_cause"]
 
 
 def test_bias_amplification_verdicts():
@@ -167,9 +168,9 @@ def test_bias_amplification_verdicts():
 def test_reason_texts_name_the_paths():
     """Common practice, no source: the reasons name the path a stakeholder can follow."""
     sc = make([("r", "x"), ("r", "y"), ("x", "m"), ("m", "y"), ("x", "c"), ("y", "c")])
-    assert "leaves the non-causal path x <- r -> y open" in adjustment.judge(sc, []).reasons
-    assert "blocks part of the effect (x -> m -> y)" in adjustment.judge(sc, ["r", "m"]).reasons[0]
-    assert any("opens x -> c <- y" in r for r in adjustment.judge(sc, ["r", "c"]).reasons)
+    assert "leaves the non-causal path x <- r -> y open" in graph.judge(sc, []).reasons
+    assert "blocks part of the effect (x -> m -> y)" in graph.judge(sc, ["r", "m"]).reasons[0]
+    assert any("opens x -> c <- y" in r for r in graph.judge(sc, ["r", "c"]).reasons)
 
 
 # ---------------------------------------------------------------------------------------------------------
@@ -194,9 +195,9 @@ def test_open_paths_agree_with_networkx_d_separation(case):
     every path between them is blocked (Pearl 2009, Def. 1.2.3)."""
     arrows, x, y, z = case
     sc = make(arrows, exposure=x, outcome=y)
-    G = adjustment.build_graph(sc)
-    paths = adjustment.list_paths(sc)
-    any_open = any(adjustment.is_path_open(G, p, z) for p in paths)
+    G = graph.build_graph(sc)
+    paths = graph.list_paths(sc)
+    any_open = any(graph.is_path_open(G, p, z) for p in paths)
     assert any_open is not nx.is_d_separator(G, {x}, {y}, set(z))
 
 
@@ -217,7 +218,7 @@ def test_valid_sets_recover_the_truth_in_linear_models(case, seed):
         for z in itertools.combinations(others, size):
             fit = linear.population_regression(sigma, sc.names, y, [x, *z])
             unbiased = bool(abs(fit.coefficients[x] - truth) < 1e-9)
-            assert adjustment.judge(sc, z).valid is unbiased, (z, fit.coefficients[x], truth)
+            assert graph.judge(sc, z).valid is unbiased, (z, fit.coefficients[x], truth)
 
 
 @settings(max_examples=40, deadline=None)
@@ -229,7 +230,7 @@ def test_optimal_set_has_the_smallest_large_sample_variance(case, seed):
     rng = np.random.default_rng(seed)
     effects = list(rng.uniform(0.3, 1.0, size=len(arrows)) * rng.choice([-1, 1], size=len(arrows)))
     sc = make(arrows, exposure=x, outcome=y, effects=effects)
-    optimal, _, _ = adjustment.optimal_set(sc)
+    optimal, _, _ = graph.optimal_set(sc)
     if optimal is None:
         return
     sigma = linear.implied_covariance(sc)
@@ -237,7 +238,7 @@ def test_optimal_set_has_the_smallest_large_sample_variance(case, seed):
     others = [n for n in sc.names if n not in (x, y)]
     for size in range(len(others) + 1):
         for z in itertools.combinations(others, size):
-            if adjustment.judge(sc, z).valid:
+            if graph.judge(sc, z).valid:
                 se = linear.population_regression(sigma, sc.names, y, [x, *z]).se_factor
                 assert best <= se + 1e-9
 
@@ -256,7 +257,7 @@ def test_single_door_sets_recover_the_direct_effect(case, seed):
     others = [n for n in sc.names if n not in (x, y)]
     for size in range(len(others) + 1):
         for z in itertools.combinations(others, size):
-            if adjustment.judge(sc, z).valid:
+            if graph.judge(sc, z).valid:
                 fit = linear.population_regression(sigma, sc.names, y, [x, *z])
                 assert fit.coefficients[x] == pytest.approx(direct, abs=1e-9)
 
@@ -265,13 +266,13 @@ def test_minimal_sets_are_valid_minimal_and_complete():
     """Perkovic et al. (2018): every listed set is valid, no proper subset of it is valid, and every valid
     set contains one of them (checked by brute force on a graph with two back-door routes)."""
     sc = make([("a", "x"), ("a", "b"), ("b", "y"), ("c", "x"), ("c", "y"), ("x", "y"), ("d", "y")])
-    sets = adjustment.minimal_sets(sc)
+    sets = graph.minimal_sets(sc)
     others = [n for n in sc.names if n not in ("x", "y")]
     valid = [
         set(z)
         for k in range(len(others) + 1)
         for z in itertools.combinations(others, k)
-        if adjustment.judge(sc, z).valid
+        if graph.judge(sc, z).valid
     ]
     for m in sets:
         assert set(m) in valid
@@ -288,13 +289,13 @@ def test_minimal_set_search_agrees_with_networkx_on_random_graphs(case, target):
     total effect; Pearl 2009, Thm 5.3.1, for the direct effect)."""
     arrows, x, y, _ = case
     sc = make(arrows, exposure=x, outcome=y, target=target)
-    sets = adjustment.minimal_sets(sc)
+    sets = graph.minimal_sets(sc)
     others = [n for n in sc.names if n not in (x, y)]
     valid = [
         set(z)
         for k in range(len(others) + 1)
         for z in itertools.combinations(others, k)
-        if adjustment.judge(sc, z).valid
+        if graph.judge(sc, z).valid
     ]
     for m in sets:
         assert set(m) in valid

@@ -16,8 +16,9 @@ from scipy.optimize import linprog
 from scipy.special import expit, logit
 from statsmodels.tools.numdiff import approx_fprime
 
-from workbench.engine.logistic import design_matrix, fit_logit_batch, standardized_contrast
+from workbench.engine.logistic import design_matrix, fit_logit_batch
 from workbench.engine.robust import ols_hc3_batch
+from workbench.engine.standardize import standardized_contrast
 
 
 def _draw(seed, R, n, *, exposure_kind="binary", strength=1.5, intercept=-1.0):

@@ -18,8 +18,9 @@ import statsmodels.api as sm
 from workbench import load_preset, loads_scenario
 from workbench.analysis.estimate import estimate
 from workbench.analysis.simulate import simulate
-from workbench.engine.generate import block_seed, draw, draw_rows
+from workbench.engine.generate import draw, draw_rows
 from workbench.engine.replicates import run_replicates
+from workbench.engine.streams import block_seed
 
 WAREHOUSE = load_preset("restriction")
 MATCHED = [s for s in WAREHOUSE.strategies if s.match]
@@ -116,14 +117,14 @@ def test_matched_batched_fits_match_statsmodels_per_replicate():
 
 def test_pandas_rule_with_two_matched_variables_agrees():
     """Source: independent pandas implementation of the stated rule, two matched variables (exact)."""
-    from workbench.engine.replicates import _matching_mask
+    from workbench.engine.design import matching_mask
 
     rng = np.random.default_rng(5)
     df = pd.DataFrame(
         {"x": rng.integers(0, 2, 400), "a": rng.integers(0, 2, 400), "b": rng.integers(0, 2, 400)}
     )
     data = df[["x", "a", "b"]].to_numpy(dtype=float).T[None]
-    got = _matching_mask(data, 0, (1, 2), np.ones((1, 400), dtype=bool))[0]
+    got = matching_mask(data, 0, (1, 2), np.ones((1, 400), dtype=bool))[0]
     np.testing.assert_array_equal(got, matched_rows_pandas(df, "x", ["a", "b"]))
 
 

@@ -7,6 +7,8 @@ freedom), ``.fit(cov_type="HC3")`` (MacKinnon & White 1985 HC3, normal interval)
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -14,8 +16,10 @@ import statsmodels.api as sm
 
 import workbench as wb
 from workbench.analysis.estimate import estimate
-from workbench.engine.generate import block_seed, draw, draw_rows
+from workbench.engine.generate import draw, draw_rows
 from workbench.engine.replicates import run_replicates
+from workbench.engine.streams import block_seed
+from workbench.graph.defaults import with_default_strategies
 
 ORCHARD = wb.loads_scenario(
     """
@@ -176,14 +180,37 @@ def test_logit_strategy_matches_statsmodels_logit():
 
 def test_estimate_names_the_bad_column():
     """Common practice, no source: a data set without a scenario variable gets a one-line error naming the
-    missing column."""
+    missing column; a bad column is named as ``data['name']``."""
     df = draw(ORCHARD, 30, seed=1)
-    with pytest.raises(wb.ScenarioError, match="no column 'slope'"):
+    with pytest.raises(wb.DataError, match="^data: no column 'slope'"):
         estimate(ORCHARD, df.drop(columns="slope"))
     df["slope"] = df["slope"].astype(str)
-    with pytest.raises(wb.ScenarioError, match="column 'slope' must be numeric"):
+    with pytest.raises(wb.DataError, match=r"^data\['slope'\]: must be numeric"):
         estimate(ORCHARD, df)
     df = draw(ORCHARD, 30, seed=1)
     df.loc[3, "irrigation"] = np.nan
-    with pytest.raises(wb.ScenarioError, match="column 'irrigation' has 1 missing value"):
+    with pytest.raises(wb.DataError, match=r"^data\['irrigation'\]: has 1 missing value"):
         estimate(ORCHARD, df)
+
+
+def test_estimate_refuses_a_non_binary_binary_column_and_too_few_rows():
+    """Common practice, no source: a binary variable of the scenario must hold 0 and 1 only, and a
+    regression needs more rows than coefficients."""
+    df = draw(DEPOT, 30, seed=1)
+    binary = next(v.name for v in DEPOT.variables if v.is_binary and v.name in df)
+    df.loc[0, binary] = 2.0
+    with pytest.raises(wb.DataError, match=rf"^data\['{binary}'\]: is binary in the scenario"):
+        estimate(DEPOT, df)
+    widest = max(s.n_coefficients for s in ORCHARD.strategies)
+    small = draw(ORCHARD, widest, seed=1)
+    with pytest.raises(wb.DataError, match=rf"^data: {widest} rows are too few for strategy"):
+        estimate(ORCHARD, small)
+    assert len(estimate(ORCHARD, draw(ORCHARD, widest + 1, seed=1))) == len(ORCHARD.strategies)
+
+
+def test_estimate_fills_in_the_default_strategies():
+    """Common practice, no source: a scenario without strategies is estimated with the defaults the graph
+    layer gives it, as a simulation would be."""
+    bare = dataclasses.replace(ORCHARD, strategies=())
+    table = estimate(bare, draw(ORCHARD, 50, seed=2))
+    assert list(table["strategy"]) == [s.name for s in with_default_strategies(bare).strategies]

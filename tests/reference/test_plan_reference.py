@@ -12,7 +12,8 @@ from scipy import stats
 from statsmodels.stats.power import TTestIndPower
 
 from workbench import load_preset, loads_scenario
-from workbench.analysis.plan import ABSOLUTE_RESOLUTION, RELATIVE_RESOLUTION, plan
+from workbench.analysis.plan import plan
+from workbench.analysis.plan_search import ABSOLUTE_RESOLUTION, RELATIVE_RESOLUTION
 from workbench.analysis.power import analytic_available, noncentral_t_power
 from workbench.scenario.presets import list_presets
 

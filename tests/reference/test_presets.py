@@ -20,8 +20,7 @@ from scipy.special import expit
 from scipy.stats import norm
 
 from workbench import load_preset, loads_scenario
-from workbench.graph import linear
-from workbench.graph.adjustment import find_roles
+from workbench.graph import find_roles, linear
 from workbench.scenario.presets import DEFAULT_PRESET, list_presets
 from workbench.scenario.write import dumps_scenario
 

@@ -18,8 +18,9 @@ import workbench as wb
 from workbench import load_preset
 from workbench.analysis.estimate import estimate
 from workbench.analysis.simulate import simulate
-from workbench.engine.generate import block_seed, draw, draw_rows
+from workbench.engine.generate import draw, draw_rows
 from workbench.engine.replicates import run_replicates
+from workbench.engine.streams import block_seed
 
 WAREHOUSE = load_preset("restriction")
 

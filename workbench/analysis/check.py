@@ -1,21 +1,224 @@
 """What the graph alone says, before any simulation: roles, paths, verdicts, valid sets and the truth.
 
-:func:`check` gathers the graph analysis of :mod:`workbench.graph.adjustment` and, for linear-Gaussian graphs, the
+:func:`check` gathers the graph analysis of :mod:`workbench.graph` and, for linear-Gaussian graphs, the
 closed-form algebra of :mod:`workbench.graph.linear` (true effect; each strategy's large-sample estimate, bias and
-SE factor), so users see the answer the simulation should reproduce.
+SE factor), so users see the answer the simulation should reproduce. Graphs with binary variables have no
+closed form: their large-sample figures come from one simulated data set of :data:`LARGE_SAMPLE_N` units.
+
+Each strategy's findings are a :class:`StrategyCheck`; the :class:`CheckReport` holds them and renders them as
+text (:meth:`CheckReport.as_text`), HTML (:meth:`CheckReport.as_html`, shown by notebooks) and JSON
+(:meth:`CheckReport.to_dict`).
+
+Examples
+--------
+>>> from workbench import load_preset
+>>> report = check(load_preset("common_cause"))
+>>> [(c.name, c.valid) for c in report.checks]
+[('unadjusted', False), ('adjust_soil', True)]
+>>> "INVALID unadjusted" in report.as_text()
+True
 """
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 from functools import lru_cache
 from typing import Any
 
-from workbench.graph import adjustment, linear
-from workbench.scenario.model import Scenario
+from workbench.engine.truth import estimand, model_kind, true_effect
+from workbench.formatting.jsonable import to_jsonable
+from workbench.formatting.phrases import strategy_text
+from workbench.formatting.tables import (
+    Bullets,
+    Column,
+    Heading,
+    Paragraph,
+    Table,
+    TableSpec,
+    render_html,
+    render_text,
+    significant,
+)
+from workbench.graph import (
+    MAX_PATHS,
+    PathInfo,
+    find_roles,
+    judge_strategy,
+    linear,
+    list_paths,
+    minimal_sets,
+    minimal_sets_note,
+    optimal_set,
+    with_default_strategies,
+)
+from workbench.scenario.model import CHANGE_THRESHOLD, Scenario, Strategy
 
-__all__ = ["CheckReport", "check", "large_sample_rows", "large_sample_selection"]
+__all__ = [
+    "CheckReport",
+    "StrategyCheck",
+    "check",
+    "large_sample_rows",
+    "large_sample_selection",
+    "ASSUMPTION",
+    "LARGE_SAMPLE_N",
+    "LARGE_SAMPLE_SEED",
+]
+
+ASSUMPTION = (
+    "The graph and its effect sizes are assumptions. Everything here shows the consequences of those "
+    "assumptions, not facts about the world."
+)
+LARGE_SAMPLE_N = 200_000
+"""Units in the one simulated data set behind the large-sample figures of a graph with binary variables."""
+LARGE_SAMPLE_SEED = 20261202
+"""Its seed (fixed, so that :func:`check` is deterministic)."""
+
+
+@dataclass(frozen=True)
+class StrategyCheck:
+    """What the graph says about one strategy, and its large-sample figures.
+
+    Attributes
+    ----------
+    name, model : str
+    adjust : tuple of str
+        The covariates (the candidates of a selection rule).
+    standardize : bool
+    selection : str or None
+    restrict : tuple of (str, value)
+        As in :class:`~workbench.scenario.model.Strategy`.
+    match : tuple of str
+    valid : bool
+        The graph's verdict (:func:`workbench.graph.verdicts.judge_strategy`).
+    reasons, notes : tuple of str
+        Why, and precision notes.
+    open_paths, blocked_paths : tuple of PathInfo
+    estimand, estimand_note : str
+        What the strategy's estimate targets, in words, and a note when that differs from the question.
+    large_sample_estimate, large_sample_bias, large_sample_se_factor, vif : float or None
+        The large-sample estimate, its bias, SE x sqrt(n) and the exposure's variance inflation factor
+        (None where not available).
+    large_sample_method : str or None
+        ``"closed form"`` or the simulated data set it comes from.
+    large_sample_selected : tuple of str or None
+        For a selection rule, the set it keeps in large samples.
+    large_sample_mcse, strategy_truth : float or None
+        For a simulated large-sample figure: its Monte Carlo SE, and the truth on the strategy's own scale.
+    """
+
+    name: str
+    adjust: tuple[str, ...]
+    model: str
+    standardize: bool
+    selection: str | None
+    restrict: tuple
+    match: tuple[str, ...]
+    valid: bool
+    reasons: tuple[str, ...]
+    notes: tuple[str, ...]
+    open_paths: tuple[PathInfo, ...]
+    blocked_paths: tuple[PathInfo, ...]
+    estimand: str
+    estimand_note: str
+    large_sample_estimate: float | None = None
+    large_sample_bias: float | None = None
+    large_sample_se_factor: float | None = None
+    vif: float | None = None
+    large_sample_method: str | None = None
+    large_sample_selected: tuple[str, ...] | None = None
+    large_sample_mcse: float | None = None
+    strategy_truth: float | None = None
+
+    @property
+    def simulated(self) -> bool:
+        """True when the large-sample figures come from a simulated data set (they then have an MCSE)."""
+        return self.large_sample_mcse is not None
+
+    def as_dict(self) -> dict[str, Any]:
+        """The record as a dict (paths as :class:`~workbench.graph.PathInfo`): the rows of
+        :attr:`CheckReport.strategies`."""
+        out = {
+            "name": self.name,
+            "adjust": list(self.adjust),
+            "model": self.model,
+            "standardize": self.standardize,
+            "selection": self.selection,
+            "restrict": {name: list(v) if isinstance(v, tuple) else v for name, v in self.restrict},
+            "match": list(self.match),
+            "large_sample_selected": (
+                list(self.large_sample_selected) if self.large_sample_selected is not None else None
+            ),
+            "valid": self.valid,
+            "reasons": list(self.reasons),
+            "notes": list(self.notes),
+            "open_paths": list(self.open_paths),
+            "blocked_paths": list(self.blocked_paths),
+            "large_sample_estimate": self.large_sample_estimate,
+            "large_sample_bias": self.large_sample_bias,
+            "large_sample_se_factor": self.large_sample_se_factor,
+            "vif": self.vif,
+            "estimand": self.estimand,
+            "estimand_note": self.estimand_note,
+            "large_sample_method": self.large_sample_method,
+        }
+        if self.simulated:
+            out["large_sample_mcse"] = self.large_sample_mcse
+            out["strategy_truth"] = self.strategy_truth
+        return out
+
+    def to_dict(self) -> dict[str, Any]:
+        """The JSON shape of one strategy in ``workbench check --json`` (paths as text)."""
+        out = {k: v for k, v in self.as_dict().items() if k not in ("open_paths", "blocked_paths")}
+        out["open_paths"] = [p.text for p in self.open_paths]
+        out["blocked_paths"] = [p.text for p in self.blocked_paths]
+        return out
+
+    def details(self) -> list[str]:
+        """The strategy's findings, one line each: reasons, precision notes, estimand, open paths and the
+        large-sample figures in words."""
+        lines = list(self.reasons)
+        lines += [f"precision: {note}" for note in self.notes]
+        lines.append(f"estimates: {self.estimand}")
+        if self.estimand_note:
+            lines.append(f"note: {self.estimand_note}")
+        lines.append("open paths: " + ("; ".join(p.text for p in self.open_paths) or "none"))
+        if self.large_sample_selected is not None:
+            chosen = ", ".join(self.large_sample_selected) or "nothing"
+            lines.append(f"large sample: the rule keeps {chosen}")
+        return lines
+
+
+# ---- the report's tables, each specified once ------------------------------------------------------------
+ROLES_TABLE = TableSpec((Column("variable", "variable"), Column("role", "role"), Column("reason", "reason")))
+PATHS_TABLE = TableSpec((Column("kind", "path kind"), Column("path", "path")))
+STRATEGIES_TABLE = TableSpec(
+    (
+        Column("verdict", "verdict"),
+        Column("name", "strategy"),
+        Column("model", "model"),
+        Column("how", "adjusts for"),
+        Column("large_sample_estimate", "large-sample estimate", significant(4), "right"),
+        Column("large_sample_bias", "bias (MCSE)", align="right", mcse="large_sample_mcse", digits=4),
+        Column("large_sample_se_factor", "SE x sqrt(n)", significant(4), "right"),
+        Column("vif", "VIF", significant(3), "right"),
+        Column("large_sample_method", "large-sample method"),
+    )
+)
+
+
+def _strategy_record(c: StrategyCheck) -> dict[str, Any]:
+    return {
+        "verdict": "VALID" if c.valid else "INVALID",
+        "name": c.name,
+        "model": c.model + (" (standardised)" if c.standardize else ""),
+        "how": strategy_text(c.adjust, c.selection, c.restrict, c.match),
+        "large_sample_estimate": c.large_sample_estimate,
+        "large_sample_bias": c.large_sample_bias,
+        "large_sample_mcse": c.large_sample_mcse,
+        "large_sample_se_factor": c.large_sample_se_factor,
+        "vif": c.vif,
+        "large_sample_method": c.large_sample_method,
+    }
 
 
 @dataclass
@@ -28,22 +231,24 @@ class CheckReport:
     roles : dict of str to list of (role, reason)
     paths : list of PathInfo
         Every path between exposure and outcome.
-    strategies : list of dict
-        Per strategy: name, adjust, model, valid, reasons, notes, open_paths, blocked_paths,
-        large_sample_estimate, large_sample_bias, large_sample_se_factor, vif (None where not available).
+    checks : tuple of StrategyCheck
+        One per strategy, in the scenario's order.
     minimal_sets : list of tuple of str
     optimal_set : tuple of str or None
     optimal_note : str
     truth : float or None
         The true effect when known in closed form (linear-Gaussian graphs), or its simulated value.
     truth_method : str
+    direct_effect : float or None
+    intercepts : dict of str to float
+        The calibrated intercepts of binary variables.
     notes : list of str
     """
 
     scenario: Scenario
     roles: dict[str, list[tuple[str, str]]]
-    paths: list[adjustment.PathInfo]
-    strategies: list[dict[str, Any]]
+    paths: list[PathInfo]
+    checks: tuple[StrategyCheck, ...]
     minimal_sets: list[tuple[str, ...]]
     optimal_set: tuple[str, ...] | None
     optimal_note: str
@@ -53,10 +258,17 @@ class CheckReport:
     intercepts: dict[str, float] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
 
+    @property
+    def strategies(self) -> list[dict[str, Any]]:
+        """The :attr:`checks` as dicts (:meth:`StrategyCheck.as_dict`): name, adjust, model, valid, reasons,
+        notes, open_paths, blocked_paths, large_sample_estimate, large_sample_bias, large_sample_se_factor,
+        vif, ... (None where not available)."""
+        return [c.as_dict() for c in self.checks]
+
     def to_dict(self) -> dict[str, Any]:
         """The JSON shape of ``workbench check --json`` (NaN written as None)."""
         q = self.scenario.question
-        return _clean(
+        return to_jsonable(
             {
                 "title": self.scenario.title,
                 "exposure": q.exposure,
@@ -66,15 +278,7 @@ class CheckReport:
                 "roles": {v: [r for r, _ in roles] for v, roles in self.roles.items()},
                 "role_reasons": {v: [reason for _, reason in roles] for v, roles in self.roles.items()},
                 "paths": [{"path": p.text, "causal": p.causal} for p in self.paths],
-                "strategies": [
-                    {
-                        **{k: v for k, v in s.items() if k not in ("open_paths", "blocked_paths")},
-                        "adjust": list(s["adjust"]),
-                        "open_paths": [p.text for p in s["open_paths"]],
-                        "blocked_paths": [p.text for p in s["blocked_paths"]],
-                    }
-                    for s in self.strategies
-                ],
+                "strategies": [c.to_dict() for c in self.checks],
                 "minimal_sets": [list(m) for m in self.minimal_sets],
                 "optimal_set": list(self.optimal_set) if self.optimal_set is not None else None,
                 "optimal_note": self.optimal_note,
@@ -87,91 +291,56 @@ class CheckReport:
             }
         )
 
-    def to_text(self) -> str:
-        """A readable report: roles, paths open or blocked per strategy, verdicts with reasons, valid sets,
-        truth and large-sample estimates."""
+    def parts(self) -> list:
+        """The report as parts (:mod:`workbench.formatting.tables`), the one source of :meth:`as_text` and
+        :meth:`as_html`."""
         sc, q = self.scenario, self.scenario.question
-        lines = [sc.title, "=" * min(len(sc.title), 100)]
-        if sc.summary:
-            lines += [sc.summary, ""]
-        lines.append(f"Question: the {q.target} effect of {q.exposure} on {q.outcome} ({q.scale})")
+        intro = [sc.summary] if sc.summary else []
+        intro.append(f"Question: the {q.target} effect of {q.exposure} on {q.outcome} ({q.scale})")
         if self.truth is not None:
-            lines.append(f"True effect: {self.truth:.4g}  [{self.truth_method}]")
-        lines += ["", "Roles"]
-        width = max((len(v) for v in self.roles), default=4)
-        for v, roles in self.roles.items():
-            for i, (role, reason) in enumerate(roles):
-                lines.append(f"  {(v if i == 0 else ''):<{width}}  {role:<22} {reason}")
-        lines += ["", "Paths between exposure and outcome"]
-        for p in self.paths:
-            lines.append(f"  {'causal    ' if p.causal else 'non-causal'}  {p.text}")
-        lines += ["", "Strategies"]
-        for s in self.strategies:
-            verdict = "VALID  " if s["valid"] else "INVALID"
-            adjust = ", ".join(s["adjust"]) or "nothing"
-            if s.get("selection"):
-                how = f"chooses by {s['selection'].replace('_', ' ')} among {adjust}"
-            else:
-                how = f"adjusts for {adjust}"
-            for name, value in s.get("restrict", {}).items():
-                how += (
-                    f"; restricted to {name} in [{value[0]:g}, {value[1]:g}]"
-                    if isinstance(value, list)
-                    else f"; restricted to {name} = {value}"
-                )
-            if s.get("match"):
-                how += f"; matched on {', '.join(s['match'])}"
-            lines.append(f"  {verdict} {s['name']} (model {s['model']}; {how})")
-            for reason in s["reasons"]:
-                lines.append(f"            - {reason}")
-            for note in s["notes"]:
-                lines.append(f"            * {note}")
-            lines.append(f"            estimates: {s['estimand']}")
-            if s["estimand_note"]:
-                lines.append(f"            ! {s['estimand_note']}")
-            open_text = "; ".join(p.text for p in s["open_paths"]) or "none"
-            lines.append(f"            open paths: {open_text}")
-            if s["large_sample_estimate"] is not None:
-                vif = f", VIF {s['vif']:.3g}" if s["vif"] is not None else ""
-                mcse = f" (MCSE {s['large_sample_mcse']:.2g})" if s.get("large_sample_mcse") else ""
-                if s.get("large_sample_selected") is not None:
-                    chosen = ", ".join(s["large_sample_selected"]) or "nothing"
-                    lines.append(f"            large sample: the rule keeps {chosen}")
-                lines.append(
-                    f"            large sample: estimate {s['large_sample_estimate']:.4g}, bias "
-                    f"{s['large_sample_bias']:+.4g}{mcse}, SE x sqrt(n) {s['large_sample_se_factor']:.4g}"
-                    f"{vif}  [{s['large_sample_method']}]"
-                )
-        lines += ["", "Minimal valid adjustment sets (observed variables)"]
-        if self.minimal_sets:
-            lines += ["  {" + ", ".join(m) + "}" for m in self.minimal_sets]
-        else:
-            lines.append("  none")
+            intro.append(f"True effect: {self.truth:.4g}  [{self.truth_method}]")
+        roles = [
+            {"variable": v if i == 0 else "", "role": role, "reason": reason}
+            for v, items in self.roles.items()
+            for i, (role, reason) in enumerate(items)
+        ]
+        paths = [{"kind": "causal" if p.causal else "non-causal", "path": p.text} for p in self.paths]
+        parts: list = [
+            Heading(sc.title),
+            Paragraph(tuple(intro)),
+            Table(ROLES_TABLE, tuple(roles), "Roles"),
+            Table(PATHS_TABLE, tuple(paths), "Paths between exposure and outcome"),
+            Table(STRATEGIES_TABLE, tuple(_strategy_record(c) for c in self.checks), "Strategies"),
+        ]
+        for c in self.checks:
+            title = f"{'VALID' if c.valid else 'INVALID'} {c.name}: " + strategy_text(
+                c.adjust, c.selection, c.restrict, c.match
+            )
+            parts.append(Bullets(tuple(c.details()), title))
+        minimal = tuple("{" + ", ".join(m) + "}" for m in self.minimal_sets) or ("none",)
+        parts.append(Bullets(minimal, "Minimal valid adjustment sets (observed variables)"))
         optimal = "{" + ", ".join(self.optimal_set) + "}" if self.optimal_set is not None else "none"
-        lines.append(f"Optimal valid set: {optimal}  [{self.optimal_note}]")
-        for name, value in self.intercepts.items():
-            lines.append(f"Calibrated intercept of {name}: {value:.4f}")
-        lines += [f"Note: {n}" for n in self.notes]
-        lines += ["", ASSUMPTION]
-        return "\n".join(lines)
+        settled = [f"Optimal valid set: {optimal}  [{self.optimal_note}]"]
+        settled += [f"Calibrated intercept of {name}: {value:.4f}" for name, value in self.intercepts.items()]
+        parts.append(Paragraph(tuple(settled)))
+        parts.append(Bullets(tuple(self.notes), "Notes"))
+        parts.append(Paragraph((ASSUMPTION,)))
+        return parts
+
+    def as_text(self) -> str:
+        """A readable report: roles, paths, a table of the strategies with their verdicts and large-sample
+        figures, each strategy's reasons and open paths, valid sets, truth and notes."""
+        return render_text(self.parts())
+
+    def as_html(self) -> str:
+        """The report of :meth:`as_text` as an HTML fragment (every name escaped)."""
+        return render_html(self.parts())
+
+    def _repr_html_(self) -> str:
+        return self.as_html()
 
 
-ASSUMPTION = (
-    "The graph and its effect sizes are assumptions. Everything here shows the consequences of those "
-    "assumptions, not facts about the world."
-)
-
-
-def _clean(value: Any) -> Any:
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    if isinstance(value, dict):
-        return {k: _clean(v) for k, v in value.items()}
-    if isinstance(value, list | tuple):
-        return [_clean(v) for v in value]
-    return value
-
-
+# ---- large-sample figures ----------------------------------------------------------------------------------
 def large_sample_rows(scenario: Scenario) -> dict[str, dict[str, float]]:
     """Large-sample (population) OLS results for each strategy of a linear-Gaussian scenario: the exposure's
     coefficient, its SE factor (SE x sqrt(n)) and the exposure's variance inflation factor.
@@ -205,7 +374,7 @@ def large_sample_rows(scenario: Scenario) -> dict[str, dict[str, float]]:
     return out
 
 
-def large_sample_selection(scenario: Scenario, strategy, sigma=None) -> tuple[str, ...]:
+def large_sample_selection(scenario: Scenario, strategy: Strategy, sigma=None) -> tuple[str, ...]:
     """The set a selection rule converges to as n grows, on a linear-Gaussian graph.
 
     ``"p_value"`` keeps, in the limit, every candidate whose population coefficient in the full model is not
@@ -219,13 +388,11 @@ def large_sample_selection(scenario: Scenario, strategy, sigma=None) -> tuple[st
     Examples
     --------
     >>> from workbench import load_preset
-    >>> from workbench.scenario.parse import Strategy
+    >>> from workbench.scenario.model import Strategy
     >>> sc = load_preset("common_cause")
     >>> large_sample_selection(sc, Strategy("s", ("soil_quality",), selection="p_value"))
     ('soil_quality',)
     """
-    from workbench.engine.ols import CHANGE_THRESHOLD
-
     sigma = linear.implied_covariance(scenario) if sigma is None else sigma
     q = scenario.question
     candidates = list(strategy.adjust)
@@ -244,8 +411,12 @@ def large_sample_selection(scenario: Scenario, strategy, sigma=None) -> tuple[st
     return tuple(kept)
 
 
-LARGE_SAMPLE_N = 200_000
-LARGE_SAMPLE_SEED = 20261202
+def _intercepts(scenario: Scenario) -> dict[str, float]:
+    """The calibrated intercepts of the binary variables (the data-generating engine is loaded only for
+    graphs that have them, so ``workbench check`` on a linear-Gaussian graph starts without it)."""
+    from workbench.engine.generate import calibrate_intercepts
+
+    return dict(calibrate_intercepts(scenario))
 
 
 @lru_cache(maxsize=64)
@@ -253,9 +424,10 @@ def _simulated_large_sample(scenario: Scenario) -> dict[str, dict[str, Any]]:
     """Per strategy, the fit on one simulated data set of :data:`LARGE_SAMPLE_N` units (graphs with binary
     variables, which have no closed form): estimate, its SE (the Monte Carlo error of this large-sample
     figure), SE x sqrt(n), and the truth on the strategy's own scale."""
+    # the simulation engine is loaded only for graphs with binary variables (``workbench check`` on a
+    # linear-Gaussian graph starts without it)
     from workbench.analysis.estimate import estimate
     from workbench.engine.generate import draw
-    from workbench.engine.truth import estimand, model_kind, true_effect
 
     data = draw(scenario, LARGE_SAMPLE_N, seed=LARGE_SAMPLE_SEED)
     fits = estimate(scenario, data).set_index("strategy")
@@ -282,10 +454,6 @@ def _truth(scenario: Scenario) -> tuple[float | None, str, float | None]:
         names = scenario.names
         total = linear.total_effects(scenario)[names.index(q.exposure), names.index(q.outcome)]
         return float(total), "closed form (sum over causal paths of products of effects)", direct
-    try:
-        from workbench.engine.truth import true_effect
-    except ImportError:  # pragma: no cover - the engine ships truth.py
-        return None, "not available", None
     truth = true_effect(scenario)
     return float(truth.value), str(truth.method), direct if q.target == "direct" else None
 
@@ -297,12 +465,79 @@ def _bias(estimate: float | None, truth: float | None) -> float | None:
     return 0.0 if abs(bias) < 1e-12 * max(1.0, abs(truth)) else bias
 
 
+def _large_sample_figures(s: Strategy, truth, closed: dict | None, simulated: dict | None) -> dict[str, Any]:
+    """The large-sample fields of one :class:`StrategyCheck`: from the closed form, a simulated data set,
+    or none."""
+    if simulated is not None:
+        return {
+            "large_sample_estimate": simulated["estimate"],
+            "large_sample_bias": _bias(simulated["estimate"], simulated["truth"]),
+            "large_sample_se_factor": simulated["se_factor"],
+            "large_sample_method": f"one simulated data set of {LARGE_SAMPLE_N:,} units",
+            "large_sample_mcse": simulated["mcse"],
+            "strategy_truth": simulated["truth"],
+        }
+    if closed is None:
+        return {}
+    selected = closed.get("selected")
+    return {
+        "large_sample_estimate": closed["estimate"],
+        "large_sample_bias": _bias(closed["estimate"], truth),
+        "large_sample_se_factor": closed["se_factor"],
+        "vif": closed["vif"],
+        "large_sample_method": "closed form",
+        "large_sample_selected": tuple(selected) if selected is not None else None,
+    }
+
+
+def _strategy_check(scenario: Scenario, s: Strategy, truth, closed, simulated) -> StrategyCheck:
+    verdict = judge_strategy(scenario, s)
+    words, _, estimand_note = estimand(model_kind(s, scenario.outcome.is_binary), scenario, s.adjust)
+    return StrategyCheck(
+        name=s.name,
+        adjust=tuple(s.adjust),
+        model=s.model,
+        standardize=s.standardize,
+        selection=s.selection,
+        restrict=tuple(s.restrict),
+        match=tuple(s.match),
+        valid=verdict.valid,
+        reasons=tuple(verdict.reasons),
+        notes=tuple(verdict.notes),
+        open_paths=tuple(verdict.open_paths),
+        blocked_paths=tuple(verdict.blocked_paths),
+        estimand=words,
+        estimand_note=estimand_note,
+        **_large_sample_figures(s, truth, closed, simulated),
+    )
+
+
+def _report_notes(scenario: Scenario, paths, minimal) -> list[str]:
+    notes = []
+    sets_note = minimal_sets_note(scenario)
+    if sets_note:
+        notes.append(sets_note)
+    if len(paths) >= MAX_PATHS:
+        notes.append(
+            f"only the first {MAX_PATHS} paths between exposure and outcome are listed; "
+            "verdicts use d-separation on the whole graph and do not depend on the list"
+        )
+    if not minimal:
+        notes.append(
+            "no valid adjustment set exists among the observed variables: no regression on these "
+            "data can recover the effect under this graph (consider design-stage remedies)"
+        )
+    return notes
+
+
 def check(scenario: Scenario) -> CheckReport:
     """Analyse the scenario's graph for its question.
 
     Parameters
     ----------
     scenario : Scenario
+        Without strategies, the default strategies of its graph are checked
+        (:func:`workbench.graph.defaults.with_default_strategies`).
 
     Returns
     -------
@@ -312,85 +547,34 @@ def check(scenario: Scenario) -> CheckReport:
     --------
     >>> from workbench import load_preset
     >>> report = check(load_preset("common_cause"))
-    >>> report.truth, [s["valid"] for s in report.strategies]
+    >>> report.truth, [c.valid for c in report.checks]
     (0.25, [False, True])
-    >>> round(report.strategies[0]["large_sample_bias"], 4)
+    >>> round(report.checks[0].large_sample_bias, 4)
     0.2206
     """
-    roles = adjustment.find_roles(scenario)
-    paths = adjustment.list_paths(scenario)
+    scenario = with_default_strategies(scenario)
+    paths = list_paths(scenario)
     truth, method, direct = _truth(scenario)
-    large = large_sample_rows(scenario)
-    simulated = {} if large or truth is None else _simulated_large_sample(scenario)
-    rows = []
-    from workbench.engine.truth import estimand, model_kind
-
-    for s in scenario.strategies:
-        verdict = adjustment.judge_strategy(scenario, s)
-        words, _, estimand_note = estimand(model_kind(s, scenario.outcome.is_binary), scenario, s.adjust)
-        ls = large.get(s.name)
-        estimate = ls["estimate"] if ls else None
-        strategy_truth = truth
-        extra: dict[str, Any] = {"large_sample_method": "closed form" if ls else None}
-        if s.name in simulated:
-            sim = simulated[s.name]
-            estimate, strategy_truth = sim["estimate"], sim["truth"]
-            ls = {"se_factor": sim["se_factor"], "vif": None}
-            extra = {
-                "large_sample_method": f"one simulated data set of {LARGE_SAMPLE_N:,} units",
-                "large_sample_mcse": sim["mcse"],
-                "strategy_truth": strategy_truth,
-            }
-        rows.append(
-            {
-                "name": s.name,
-                "adjust": list(s.adjust),
-                "model": s.model,
-                "standardize": s.standardize,
-                "selection": s.selection,
-                "restrict": {name: list(v) if isinstance(v, tuple) else v for name, v in s.restrict},
-                "match": list(s.match),
-                "large_sample_selected": (
-                    list(ls["selected"]) if ls and ls.get("selected") is not None else None
-                ),
-                "valid": verdict.valid,
-                "reasons": verdict.reasons,
-                "notes": verdict.notes,
-                "open_paths": verdict.open_paths,
-                "blocked_paths": verdict.blocked_paths,
-                "large_sample_estimate": estimate,
-                "large_sample_bias": _bias(estimate, strategy_truth),
-                "large_sample_se_factor": ls["se_factor"] if ls else None,
-                "vif": ls["vif"] if ls else None,
-                "estimand": words,
-                "estimand_note": estimand_note,
-                **extra,
-            }
-        )
-    optimal, latent, note = adjustment.optimal_set(scenario)
-    notes = []
-    sets_note = adjustment.minimal_sets_note(scenario)
-    if sets_note:
-        notes.append(sets_note)
-    if len(paths) >= adjustment.MAX_PATHS:
-        notes.append(
-            f"only the first {adjustment.MAX_PATHS} paths between exposure and outcome are listed; "
-            "verdicts use d-separation on the whole graph and do not depend on the list"
-        )
-    minimal = adjustment.minimal_sets(scenario)
-    if not minimal:
-        notes.append(
-            "no valid adjustment set exists among the observed variables: no regression on these "
-            "data can recover the effect under this graph (consider design-stage remedies)"
-        )
-    intercepts: dict[str, float] = {}
-    if not scenario.is_linear_gaussian:
-        try:
-            from workbench.engine.generate import calibrate_intercepts
-
-            intercepts = dict(calibrate_intercepts(scenario))
-        except ImportError:  # pragma: no cover
-            intercepts = {}
+    closed = large_sample_rows(scenario)
+    simulated = {} if closed or truth is None else _simulated_large_sample(scenario)
+    checks = tuple(
+        _strategy_check(scenario, s, truth, closed.get(s.name), simulated.get(s.name))
+        for s in scenario.strategies
+    )
+    optimal, _, note = optimal_set(scenario)
+    minimal = minimal_sets(scenario)
+    intercepts = {} if scenario.is_linear_gaussian else _intercepts(scenario)
     return CheckReport(
-        scenario, roles, paths, rows, minimal, optimal, note, truth, method, direct, intercepts, notes
+        scenario=scenario,
+        roles=find_roles(scenario),
+        paths=paths,
+        checks=checks,
+        minimal_sets=minimal,
+        optimal_set=optimal,
+        optimal_note=note,
+        truth=truth,
+        truth_method=method,
+        direct_effect=direct,
+        intercepts=intercepts,
+        notes=_report_notes(scenario, paths, minimal),
     )

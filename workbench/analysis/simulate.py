@@ -1,7 +1,11 @@
 """``simulate()``: many simulated studies from a scenario, every strategy scored with Monte Carlo SEs.
 
 The replicates are drawn and fitted by the engine (:func:`workbench.engine.replicates.run_replicates`); this
-module scores them (:mod:`workbench.engine.metrics`) into a :class:`SimulationResult`.
+module scores them (:mod:`workbench.engine.metrics`) into a :class:`SimulationResult`, which renders as text
+(:meth:`SimulationResult.as_text`), HTML (:meth:`SimulationResult.as_html`, shown by notebooks), JSON and CSV.
+
+A run with ``seed=None`` draws fresh entropy; the result records it, so ``simulate(sc, seed=result.seed)``
+repeats the run number for number.
 
 Examples
 --------
@@ -17,32 +21,39 @@ from __future__ import annotations
 
 import functools
 import json
-import math
 from dataclasses import dataclass, field
-from typing import Any
 
 import numpy as np
 import pandas as pd
 
-from workbench.engine.ols import (
-    selected_names,
+from workbench.engine.fitplan import fit_plan, is_valid_set, strategy_is_valid
+from workbench.engine.ols import selected_names
+from workbench.engine.replicates import ReplicateArrays, check_arguments, run_replicates
+from workbench.engine.streams import seed_entropy, seed_sequence
+from workbench.engine.truth import Truth, conditional_log_odds_ratio
+from workbench.formatting.jsonable import to_jsonable
+from workbench.formatting.numbers import effect_digits, estimate_decimals, fmt, fmt_mcse
+from workbench.formatting.phrases import (
+    kept_units_text,
+    selected_sets_text,
+    strategy_text,
 )
-from workbench.engine.replicates import (
-    ReplicateArrays,
-    fit_plan,
-    is_valid_set,
-    run_replicates,
-    strategy_is_valid,
+from workbench.formatting.tables import (
+    Bullets,
+    Column,
+    Heading,
+    Paragraph,
+    Table,
+    TableSpec,
+    integer,
+    render_html,
+    render_text,
 )
-from workbench.engine.truth import (
-    Truth,
-    conditional_log_odds_ratio,
-)
-from workbench.formatting.phrases import selected_sets_text
-from workbench.scenario.model import Scenario
+from workbench.graph.defaults import with_default_strategies
+from workbench.scenario.model import Scenario, Strategy
 from workbench.scenario.write import write_text_atomically
 
-__all__ = ["SimulationResult", "simulate", "TABLE_COLUMNS", "REQUIRED_KEYS"]
+__all__ = ["SimulationResult", "simulate", "score_table", "verdict_word", "TABLE_COLUMNS", "REQUIRED_KEYS"]
 
 TABLE_COLUMNS = [
     "name",
@@ -90,28 +101,6 @@ TABLE_COLUMNS = [
     "mean_retained_n",
 ]
 
-
-# --------------------------------------------------------------------------------------------------------
-# The scored result
-# --------------------------------------------------------------------------------------------------------
-def _plain(value: Any) -> Any:
-    """JSON-ready: NaN and infinities become None, numpy scalars Python ones."""
-    if isinstance(value, dict):
-        return {str(k): _plain(v) for k, v in value.items()}
-    if isinstance(value, list | tuple):
-        return [_plain(v) for v in value]
-    if isinstance(value, np.ndarray):
-        return [_plain(v) for v in value.tolist()]
-    if isinstance(value, bool | np.bool_):
-        return bool(value)
-    if isinstance(value, int | np.integer):
-        return int(value)
-    if isinstance(value, float | np.floating):
-        value = float(value)
-        return value if math.isfinite(value) else None
-    return value
-
-
 REQUIRED_KEYS = [
     "name",
     "adjust",
@@ -135,14 +124,93 @@ REQUIRED_KEYS = [
     "se_ratio",
     "vif",
 ]
+"""Keys every strategy of the JSON output has (the contract); the others of :data:`TABLE_COLUMNS` follow."""
 
 
-def _verdict_word(row) -> str:
-    """The verdict column of the text table: a selection rule's verdict depends on the data."""
+def verdict_word(row) -> str:
+    """The verdict cell of a strategy's row: ``yes`` / ``NO`` from the graph, or for a selection rule the
+    share of studies whose chosen set was valid (the verdict then depends on the data).
+
+    Examples
+    --------
+    >>> verdict_word({"valid": True}), verdict_word({"valid": True, "selection": "p_value",
+    ...                                              "selected_valid_share": 0.57})
+    ('yes', '57%')
+    """
     share = row.get("selected_valid_share")
     if row.get("selection") and share is not None and np.isfinite(share):
         return f"{share:.0%}"
     return "yes" if row["valid"] else "NO"
+
+
+def _digits(record) -> int:
+    return effect_digits(record.get("emp_se"))
+
+
+# ---- the result's tables, each specified once ------------------------------------------------------------
+PERFORMANCE_COLUMNS = (
+    Column("name", "strategy"),
+    Column("verdict", "valid"),
+    Column("estimand", "estimand"),
+    Column("truth", "truth", align="right", digits=_digits),
+    Column("mean", "mean", align="right", digits=_digits),
+    Column("bias", "bias (MCSE)", align="right", mcse="bias_mcse", digits=_digits),
+    Column("emp_se", "emp SE (MCSE)", align="right", mcse="emp_se_mcse", digits=_digits),
+    Column("model_se", "model SE (MCSE)", align="right", mcse="model_se_mcse", digits=_digits),
+    Column("coverage", "coverage (MCSE)", align="right", mcse="coverage_mcse"),
+    Column("power", "power (MCSE)", align="right", mcse="power_mcse"),
+    Column("failures", "fail", integer, "right"),
+)
+PERFORMANCE_TABLE = TableSpec(PERFORMANCE_COLUMNS)
+"""The performance table: one row per strategy."""
+PERFORMANCE_TABLE_SAME_TARGET = TableSpec(
+    tuple(c for c in PERFORMANCE_COLUMNS if c.key not in ("estimand", "truth"))
+)
+"""The performance table when every strategy targets the question's truth (a continuous outcome)."""
+ALSO_TABLE = TableSpec(
+    (
+        Column("variable", "variable"),
+        Column("strategy", "strategy"),
+        Column("truth", "truth", align="right", digits=_digits),
+        Column("mean", "mean", align="right", digits=_digits),
+        Column("bias", "bias (MCSE)", align="right", mcse="bias_mcse", digits=_digits),
+        Column("coverage", "coverage (MCSE)", align="right", mcse="coverage_mcse"),
+        Column("power", "power (MCSE)", align="right", mcse="power_mcse"),
+    )
+)
+"""The ``also`` variables' table: one row per strategy and variable it adjusts for."""
+REMINDER = (
+    "Reminder: these figures hold only if the scenario's graph and effect sizes are right; the graph is an "
+    "assumption, not a finding."
+)
+
+
+def _strategy_notes(r, n: int) -> list[str]:
+    """The notes of one strategy's row: the model's note, its selection rule, restriction, matching and
+    failed replicates."""
+    notes = [f"{r['name']}: {r['note']}"] if r["note"] else []
+    if isinstance(r["selection"], str):
+        sets = selected_sets_text(r["selected_sets"], limit=None)
+        share = r["selected_valid_share"]
+        valid = f"{100 * share:.0f}%" if np.isfinite(share) else "-"
+        notes.append(
+            f"{r['name']}: covariates {strategy_text(r['adjust'], r['selection'])}; chosen set valid in "
+            f"{valid} of studies; most chosen: {sets}"
+        )
+    if r["restrict"]:
+        notes.append(
+            f"{r['name']}: analysis of {kept_units_text(r['restrict'])}; mean units kept "
+            f"{r['mean_retained_n']:.1f} of {n}"
+        )
+    if r["match"]:
+        notes.append(
+            f"{r['name']}: exposed and unexposed units matched 1:1 on {', '.join(r['match'])}; "
+            f"mean units kept {r['mean_retained_n']:.1f} of {n}"
+        )
+    if r["failure_reasons"]:
+        text = "; ".join(f"{k} ({v})" for k, v in r["failure_reasons"].items())
+        notes.append(f"{r['name']}: failed replicates: {text}")
+    return notes
 
 
 @dataclass
@@ -152,7 +220,9 @@ class SimulationResult:
     Attributes
     ----------
     scenario : Scenario
-    n, replicates, seed : int
+    n, replicates : int
+    seed : int or list of int
+        The entropy of the run's seed sequence; passing it back as ``seed`` repeats the run.
     alpha : float
     engine : {"exact", "raw"}
     truth, truth_mcse : float
@@ -169,7 +239,7 @@ class SimulationResult:
     scenario: Scenario
     n: int
     replicates: int
-    seed: int
+    seed: int | list[int]
     alpha: float
     engine: str
     truth: float
@@ -293,7 +363,7 @@ class SimulationResult:
             out["conditional_log_odds_ratio"] = self.conditional_log_odds_ratio
         if self.arrays.also_names:
             out["also"] = self.also_table().to_dict(orient="records")
-        return _plain(out)
+        return to_jsonable(out)
 
     def to_json(self, indent: int | None = 2) -> str:
         """:meth:`to_dict` as JSON text (NaN as null)."""
@@ -313,17 +383,16 @@ class SimulationResult:
         table["match"] = [" ".join(m) for m in table["match"]]
         write_text_atomically(path, table.to_csv(index=False))
 
-    def to_text(self) -> str:
-        """A readable table: estimates with their Monte Carlo SEs in brackets."""
+    # ---- rendering ---------------------------------------------------------------------------------------
+    def _settings_lines(self) -> tuple[str, ...]:
         q = self.scenario.question
+        if self.truth_mcse:
+            value = fmt(self.truth, estimate_decimals(self.truth_mcse, 4))
+            truth = f"{value} (MCSE {fmt_mcse(self.truth_mcse)}, {self.truth_method})"
+        else:
+            truth = f"{self.truth:.4g} ({self.truth_method})"
         lines = [
-            f"{self.scenario.title}",
-            f"effect of {q.exposure} on {q.outcome} ({q.target}, {q.scale}): truth {self.truth:.4g}"
-            + (
-                f" (MCSE {self.truth_mcse:.2g}, {self.truth_method})"
-                if self.truth_mcse
-                else f" ({self.truth_method})"
-            ),
+            f"effect of {q.exposure} on {q.outcome} ({q.target}, {q.scale}): truth {truth}",
             f"{self.replicates:,} simulated studies of n = {self.n:,}, engine {self.engine}, seed {self.seed}, "
             f"alpha {self.alpha:g}",
         ]
@@ -331,104 +400,48 @@ class SimulationResult:
             lines.append(
                 f"structural conditional log odds ratio (the arrow): {self.conditional_log_odds_ratio:.4g}"
             )
-        lines.append("")
+        return tuple(lines)
 
-        def pm(value, mcse, digits=4):
-            if value is None or not np.isfinite(value):
-                return "-"
-            if not np.isfinite(mcse) or mcse <= 0:
-                return f"{value:.{digits}g}"
-            decimals = int(max(0, min(8, 1 - math.floor(math.log10(mcse)))))
-            return f"{value:.{decimals}f} ({mcse:.{decimals}f})"
+    def _also_parts(self) -> list:
+        if not self.arrays.also_names:
+            return []
+        title = "Also estimated: direct effects of further variables on the outcome (truth = the arrow)"
+        also = self.also_table()
+        if also.empty:
+            return [Paragraph((title, "  no strategy adjusts for them"))]
+        return [Table(ALSO_TABLE, tuple(also.to_dict(orient="records")), title)]
 
-        header = [
-            "strategy",
-            "valid",
-            "mean",
-            "bias (MCSE)",
-            "emp SE",
-            "model SE",
-            "coverage",
-            "power",
-            "fail",
+    def parts(self) -> list:
+        """The result as parts (:mod:`workbench.formatting.tables`), the one source of :meth:`as_text` and
+        :meth:`as_html`: settings, the performance table, notes, the ``also`` table, the reminder."""
+        records = tuple({**r, "verdict": verdict_word(r)} for r in self.table.to_dict(orient="records"))
+        spec = PERFORMANCE_TABLE if self.scenario.outcome.is_binary else PERFORMANCE_TABLE_SAME_TARGET
+        notes = [note for r in records for note in _strategy_notes(r, self.n)]
+        return [
+            Heading(self.scenario.title),
+            Paragraph(self._settings_lines()),
+            Table(spec, records, "Estimates with their Monte Carlo SEs in brackets"),
+            Bullets(tuple(notes), "Notes"),
+            *self._also_parts(),
+            Paragraph((REMINDER,)),
         ]
-        binary = self.scenario.outcome.is_binary
-        if binary:
-            header[2:2] = ["estimand", "truth"]
-        body = []
-        for _, r in self.table.iterrows():
-            row = [
-                r["name"],
-                _verdict_word(r),
-                f"{r['mean']:.4g}" if np.isfinite(r["mean"]) else "-",
-                pm(r["bias"], r["bias_mcse"]),
-                pm(r["emp_se"], r["emp_se_mcse"]),
-                pm(r["model_se"], r["model_se_mcse"]),
-                pm(r["coverage"], r["coverage_mcse"], 3),
-                pm(r["power"], r["power_mcse"], 3),
-                str(int(r["failures"])),
-            ]
-            if binary:
-                row[2:2] = [r["estimand"], f"{r['truth']:.4g}"]
-            body.append(row)
-        widths = [max(len(str(x)) for x in col) for col in zip(header, *body, strict=True)]
-        lines.append("  ".join(h.ljust(w) for h, w in zip(header, widths, strict=True)))
-        for row in body:
-            lines.append("  ".join(str(x).ljust(w) for x, w in zip(row, widths, strict=True)))
-        notes = [f"{r['name']}: {r['note']}" for _, r in self.table.iterrows() if r["note"]]
-        for _, r in self.table.iterrows():
-            if isinstance(r["selection"], str):
-                sets = selected_sets_text(r["selected_sets"], limit=None)
-                valid_share = r["selected_valid_share"]
-                share = f"{100 * valid_share:.0f}%" if np.isfinite(valid_share) else "-"
-                notes.append(
-                    f"{r['name']}: covariates chosen by {r['selection'].replace('_', ' ')} among "
-                    f"{', '.join(r['adjust'])}; chosen set valid in {share} of studies; most chosen: {sets}"
-                )
-            if r["restrict"]:
-                where = ", ".join(
-                    f"{k} in [{v[0]:g}, {v[1]:g}]" if isinstance(v, list) else f"{k} = {v}"
-                    for k, v in r["restrict"].items()
-                )
-                notes.append(
-                    f"{r['name']}: analysis restricted to {where}; mean units kept "
-                    f"{r['mean_retained_n']:.1f} of {self.n}"
-                )
-            if r["match"]:
-                notes.append(
-                    f"{r['name']}: exposed and unexposed units matched 1:1 on {', '.join(r['match'])}; "
-                    f"mean units kept {r['mean_retained_n']:.1f} of {self.n}"
-                )
-        for _, r in self.table.iterrows():
-            if r["failure_reasons"]:
-                text = "; ".join(f"{k} ({v})" for k, v in r["failure_reasons"].items())
-                notes.append(f"{r['name']}: failed replicates: {text}")
-        if notes:
-            lines.append("")
-            lines.extend(notes)
-        if self.arrays.also_names:
-            also = self.also_table()
-            lines.append("")
-            lines.append(
-                "Also estimated: direct effects of further variables on the outcome (truth = the arrow)"
-            )
-            if also.empty:
-                lines.append("  no strategy adjusts for them")
-            for _, r in also.iterrows():
-                lines.append(
-                    f"  {r['variable']} in {r['strategy']}: truth {r['truth']:.4g}, mean {r['mean']:.4g}, "
-                    f"bias {pm(r['bias'], r['bias_mcse'])}, coverage {pm(r['coverage'], r['coverage_mcse'], 3)}, "
-                    f"power {pm(r['power'], r['power_mcse'], 3)}"
-                )
-        lines.append("")
-        lines.append(
-            "Reminder: these figures hold only if the scenario's graph and effect sizes are right; the graph "
-            "is an assumption, not a finding."
-        )
-        return "\n".join(lines)
+
+    def as_text(self) -> str:
+        """A readable report: the settings, a table of estimates with their Monte Carlo SEs in brackets, the
+        notes (selection rules, restrictions, matching, failed replicates) and the ``also`` figures."""
+        return render_text(self.parts())
+
+    def as_html(self) -> str:
+        """The report of :meth:`as_text` as an HTML fragment (every name escaped)."""
+        return render_html(self.parts())
+
+    def _repr_html_(self) -> str:
+        return self.as_html()
 
 
+# ---- scoring ------------------------------------------------------------------------------------------------
 def _relative_change(estimate: np.ndarray, reference: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Per strategy (column), the median relative change against the reference and the share over 10%."""
     with np.errstate(divide="ignore", invalid="ignore"):
         change = (estimate - reference) / np.abs(reference)
     finite = np.isfinite(change)
@@ -441,6 +454,115 @@ def _relative_change(estimate: np.ndarray, reference: np.ndarray) -> tuple[np.nd
             median[s] = np.median(values)
             share[s] = np.mean(np.abs(values) > 0.10)
     return median, share
+
+
+def _se_ratio_and_vif(arrays: ReplicateArrays, model_se: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Model SE over the reference's model SE (1 for a strategy that is its own reference), and the median
+    variance inflation factor of the exposure."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        # the reference's model SE by the arithmetic of metrics.performance
+        ok = ~np.isnan(arrays.reference_estimate)
+        ref_var = np.where(ok, arrays.reference_se**2, np.nan)
+        ref_model_se = np.sqrt(np.nansum(ref_var, axis=0) / ok.sum(axis=0))
+        se_ratio = model_se / ref_model_se
+        vif = np.array([np.nanmedian(col) if np.isfinite(col).any() else np.nan for col in arrays.vif.T])
+    itself = np.array([ref == name for ref, name in zip(arrays.reference, arrays.strategies, strict=True)])
+    se_ratio[itself & np.isfinite(se_ratio)] = 1.0
+    return se_ratio, vif
+
+
+def _selected_valid_share(scenario: Scenario, strategy: Strategy, arrays: ReplicateArrays, s: int, adjust):
+    """For a selection rule, the share of fitted replicates whose chosen set is valid (restricted and matched
+    variables counting as conditioned on); NaN for a fixed set."""
+    if strategy.selection is None:
+        return float("nan")
+    # validity once per selected pattern
+    codes, counts = np.unique(arrays.selected[:, s], return_counts=True)
+    fitted = codes >= 0
+    if not fitted.any():
+        return float("nan")
+    restricted = strategy.restricted + strategy.match
+    valid = np.array(
+        [is_valid_set(scenario, selected_names(int(c), adjust) + restricted) for c in codes[fitted]]
+    )
+    return float((counts[fitted] * valid).sum() / counts[fitted].sum())
+
+
+def _strategy_row(scenario, f, s, arrays, measures, signals) -> dict:
+    """The table row of reported fit ``f`` (column ``s`` of the arrays)."""
+    strategy = scenario.strategy(f.name)
+    median, share, se_ratio, vif = signals
+    retained = arrays.retained_n[:, s]
+    row = {
+        "name": f.name,
+        "adjust": list(f.adjust),
+        "model": strategy.model,
+        "standardize": strategy.standardize,
+        "selection": strategy.selection,
+        "restrict": {name: list(v) if isinstance(v, tuple) else v for name, v in strategy.restrict},
+        "match": list(strategy.match),
+        "selected_valid_share": _selected_valid_share(scenario, strategy, arrays, s, f.adjust),
+        "selected_sets": [{"adjust": list(chosen), "share": p} for chosen, p in arrays.selected_sets(s)[:3]],
+        "mean_retained_n": float(np.mean(retained)) if strategy.restrict or strategy.match else float("nan"),
+        "valid": strategy_is_valid(scenario, strategy),
+        "estimand": f.estimand,
+        "target": scenario.question.target,
+        "truth": float(arrays.truth[s]),
+        "truth_mcse": float(arrays.truth_mcse[s]),
+    }
+    for key in TABLE_COLUMNS:
+        if key in measures:
+            row[key] = measures[key][s].item()
+    row.update(
+        {
+            "failures": int(measures["failures"][s]),
+            "failure_reasons": dict(arrays.reasons[f.name]),
+            "change_in_estimate_median": float(median[s]),
+            "share_change_over_10pct": float(share[s]),
+            "se_ratio": float(se_ratio[s]),
+            "reference": arrays.reference[s],
+            "vif": float(vif[s]),
+            "df": float(arrays.df[s]),
+            "note": f.note,
+            "n_ok": int(measures["n_ok"][s]),
+        }
+    )
+    return row
+
+
+def score_table(scenario: Scenario, arrays: ReplicateArrays) -> pd.DataFrame:
+    """The per-strategy table of a run (:data:`TABLE_COLUMNS` and ``n_ok``) from its replicate arrays.
+
+    Examples
+    --------
+    >>> from workbench import load_preset
+    >>> sc = load_preset("common_cause")
+    >>> list(score_table(sc, run_replicates(sc, 100, 200, seed=1))["name"])
+    ['unadjusted', 'adjust_soil']
+    """
+    measures = arrays.score()
+    median, share = _relative_change(arrays.estimate, arrays.reference_estimate)
+    se_ratio, vif = _se_ratio_and_vif(arrays, measures["model_se"])
+    signals = (median, share, se_ratio, vif)
+    rows = [
+        _strategy_row(scenario, f, s, arrays, measures, signals)
+        for s, f in enumerate(fit_plan(scenario).reported)
+    ]
+    return pd.DataFrame(rows, columns=TABLE_COLUMNS + ["n_ok"])
+
+
+def _settings(scenario: Scenario, n, replicates, alpha, engine) -> tuple[int, int, float, str]:
+    """The run's n, replicates, alpha and engine: the arguments, or the study's where left at None, checked
+    against :data:`workbench.scenario.constraints.STUDY_SETTINGS` and the widest strategy
+    (:func:`workbench.engine.replicates.check_arguments`)."""
+    study = scenario.study
+    return check_arguments(
+        scenario,
+        study.n if n is None else n,
+        study.replicates if replicates is None else replicates,
+        study.alpha if alpha is None else alpha,
+        engine,
+    )
 
 
 def simulate(
@@ -458,8 +580,13 @@ def simulate(
     Parameters
     ----------
     scenario : Scenario
-    n, replicates, seed, alpha : optional
+        Without strategies, the default strategies of its graph are simulated.
+    n, replicates, alpha : optional
         Left at None, taken from the scenario's ``[study]``.
+    seed : None, int, numpy.random.SeedSequence or numpy.random.Generator, optional
+        The root of the random streams (:func:`workbench.engine.streams.seed_sequence`). None draws fresh
+        entropy, as numpy does; ``result.seed`` records it, and ``simulate(scenario, seed=result.seed)``
+        repeats the run. Pass ``scenario.study.seed`` for the file's seed.
     engine : {"auto", "exact", "raw"}
     progress : callable, optional
         ``progress(done_replicates, total_replicates)``; may raise :class:`~workbench.errors.Cancelled`.
@@ -467,6 +594,11 @@ def simulate(
     Returns
     -------
     SimulationResult
+
+    Raises
+    ------
+    SimulationError
+        Before any work, for a bad ``n``, ``replicates``, ``alpha``, ``seed`` or ``engine``.
 
     Notes
     -----
@@ -499,100 +631,33 @@ def simulate(
     --------
     >>> from workbench import load_preset
     >>> result = simulate(load_preset("common_cause"), n=100, replicates=300, seed=2)
-    >>> result.n, result.replicates, result.truth
-    (100, 300, 0.25)
+    >>> result.n, result.replicates, result.truth, result.seed
+    (100, 300, 0.25, 2)
     >>> '"strategies"' in result.to_json()
     True
+    >>> fresh = simulate(load_preset("common_cause"), n=100, replicates=50)
+    >>> again = simulate(load_preset("common_cause"), n=100, replicates=50, seed=fresh.seed)
+    >>> fresh.table["bias"].equals(again.table["bias"])
+    True
     """
-    study = scenario.study
-    n = study.n if n is None else n
-    replicates = study.replicates if replicates is None else replicates
-    seed = study.seed if seed is None else seed
-    alpha = study.alpha if alpha is None else alpha
-    arrays = run_replicates(scenario, n, replicates, seed, engine=engine, alpha=alpha, progress=progress)
+    scenario = with_default_strategies(scenario)
+    n, replicates, alpha, engine = _settings(scenario, n, replicates, alpha, engine)
+    root = seed_sequence(seed)
+    arrays = run_replicates(scenario, n, replicates, root, engine=engine, alpha=alpha, progress=progress)
     plan = fit_plan(scenario)
-    measures = arrays.score()
-    median, share = _relative_change(arrays.estimate, arrays.reference_estimate)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        # the reference's model SE by the arithmetic of metrics.performance
-        ok = ~np.isnan(arrays.reference_estimate)
-        ref_var = np.where(ok, arrays.reference_se**2, np.nan)
-        ref_model_se = np.sqrt(np.nansum(ref_var, axis=0) / ok.sum(axis=0))
-        se_ratio = measures["model_se"] / ref_model_se
-        vif = np.array([np.nanmedian(col) if np.isfinite(col).any() else np.nan for col in arrays.vif.T])
-    itself = np.array([ref == name for ref, name in zip(arrays.reference, arrays.strategies, strict=True)])
-    se_ratio[itself & np.isfinite(se_ratio)] = 1.0
-    reported = plan.reported
-    rows = []
-    for s, f in enumerate(reported):
-        strategy = scenario.strategy(f.name)
-        sets = arrays.selected_sets(s)
-        valid_share = float("nan")
-        if strategy.selection is not None:
-            # validity once per selected pattern (restricted variables count as conditioned on)
-            codes, counts = np.unique(arrays.selected[:, s], return_counts=True)
-            fitted = codes >= 0
-            if fitted.any():
-                restricted = strategy.restricted + strategy.match
-                valid = np.array(
-                    [
-                        is_valid_set(scenario, selected_names(int(c), f.adjust) + restricted)
-                        for c in codes[fitted]
-                    ]
-                )
-                valid_share = float((counts[fitted] * valid).sum() / counts[fitted].sum())
-        retained = arrays.retained_n[:, s]
-        row = {
-            "name": f.name,
-            "adjust": list(f.adjust),
-            "model": strategy.model,
-            "standardize": strategy.standardize,
-            "selection": strategy.selection,
-            "restrict": {name: list(v) if isinstance(v, tuple) else v for name, v in strategy.restrict},
-            "match": list(strategy.match),
-            "selected_valid_share": valid_share,
-            "selected_sets": [{"adjust": list(chosen), "share": share} for chosen, share in sets[:3]],
-            "mean_retained_n": (
-                float(np.mean(retained)) if strategy.restrict or strategy.match else float("nan")
-            ),
-            "valid": strategy_is_valid(scenario, strategy),
-            "estimand": f.estimand,
-            "target": scenario.question.target,
-            "truth": float(arrays.truth[s]),
-            "truth_mcse": float(arrays.truth_mcse[s]),
-        }
-        for key in TABLE_COLUMNS:
-            if key in measures:
-                row[key] = measures[key][s].item()
-        row.update(
-            {
-                "failures": int(measures["failures"][s]),
-                "failure_reasons": dict(arrays.reasons[f.name]),
-                "change_in_estimate_median": float(median[s]),
-                "share_change_over_10pct": float(share[s]),
-                "se_ratio": float(se_ratio[s]),
-                "reference": arrays.reference[s],
-                "vif": float(vif[s]),
-                "df": float(arrays.df[s]),
-                "note": f.note,
-                "n_ok": int(measures["n_ok"][s]),
-            }
-        )
-        rows.append(row)
-    table = pd.DataFrame(rows, columns=TABLE_COLUMNS + ["n_ok"])
     truth: Truth = plan.truths[scenario.question.scale]
     return SimulationResult(
         scenario=scenario,
-        n=int(n),
-        replicates=int(replicates),
-        seed=arrays.seed,
-        alpha=float(alpha),
+        n=n,
+        replicates=replicates,
+        seed=seed_entropy(root),
+        alpha=alpha,
         engine=arrays.engine,
         truth=float(truth.value),
         truth_mcse=float(truth.mcse),
         truth_method=truth.method,
         truth_description=truth.description,
-        table=table,
+        table=score_table(scenario, arrays),
         arrays=arrays,
         conditional_log_odds_ratio=conditional_log_odds_ratio(scenario) if plan.binary_outcome else None,
     )

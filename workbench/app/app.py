@@ -1,6 +1,7 @@
-"""The dashboard page: the sidebar and the tabs, composed from the views of
-:mod:`workbench.app.views` over one :class:`~workbench.app.state.Workbench` state per browser
-session.
+"""The dashboard page: the sidebar (:mod:`workbench.app.sidebar`) and the tabs (:mod:`~workbench.app.graph_tab`,
+:mod:`~workbench.app.estimates_tab`, :mod:`~workbench.app.plan_tab`, :mod:`~workbench.app.explain_tab`,
+:mod:`~workbench.app.export_tab`), composed over one :class:`~workbench.app.state.Workbench` state per
+browser session.
 
 The page uses no template that fetches anything from another host: Panel and Bokeh serve their scripts and
 styles themselves, and the text uses the system's fonts.
@@ -14,20 +15,13 @@ import panel as pn
 import param
 
 from workbench import __version__
+from workbench.app.estimates_tab import EstimatesView
+from workbench.app.explain_tab import ExplainView
+from workbench.app.export_tab import ExportView
+from workbench.app.graph_tab import graph_tab
+from workbench.app.plan_tab import SampleSizeView
+from workbench.app.sidebar import Sidebar
 from workbench.app.state import Workbench
-from workbench.app.views import (
-    ArrowsEditor,
-    EstimatesView,
-    ExplainView,
-    ExportView,
-    GraphView,
-    SampleSizeView,
-    Sidebar,
-    StrategiesEditor,
-    TomlEditor,
-    VariablesEditor,
-    library_status,
-)
 
 __all__ = ["App", "create_app", "GLOBAL_CSS"]
 
@@ -52,23 +46,13 @@ class App(pn.viewable.Viewer):
         )
         state.param.watch(self._header, "scenario")
         self._header()
-        editors = pn.Tabs(
-            ("Arrows", ArrowsEditor(state=state)),
-            ("Variables", VariablesEditor(state=state)),
-            ("Strategies", StrategiesEditor(state=state)),
-            ("Scenario text (TOML)", TomlEditor(state=state)),
-            css_classes=["wb-editor-tabs"],
-            margin=(6, 0),
-            dynamic=False,
-        )
-        graph_tab = pn.Column(GraphView(state=state), editors, margin=(6, 10))
         self.result_views = {
             1: EstimatesView(workbench=wb),
             2: SampleSizeView(workbench=wb),
             3: ExplainView(workbench=wb),
         }
         self.tabs = pn.Tabs(
-            ("Graph", graph_tab),
+            ("Graph", graph_tab(state)),
             ("Estimates", pn.Column(self.result_views[1], margin=(6, 10))),
             ("Sample size", pn.Column(self.result_views[2], margin=(6, 10))),
             ("Explain", pn.Column(self.result_views[3], margin=(6, 10))),
@@ -88,13 +72,11 @@ class App(pn.viewable.Viewer):
     def _header(self, *_):
         sc = self.workbench.scenario
         summary = html.escape(sc.summary or "")
-        status = library_status()
         self.header.object = (
             f"<div style='font-size:18px;font-weight:700;color:#111'>{html.escape(sc.title)}</div>"
             f"<div style='font-size:13px;color:#444;max-width:1060px;line-height:1.4'>{summary}</div>"
             f"<div style='font-size:11px;color:#777'>workbench {__version__}. The graph is an assumption: "
-            f"the results show its consequences, not facts about the world."
-            f"{' ' + html.escape(status) if status else ''}</div>"
+            "the results show its consequences, not facts about the world.</div>"
         )
 
     def __panel__(self):

@@ -1,19 +1,16 @@
 """The dashboard's state: plain ``param.Parameterized`` classes with no Panel import.
 
-Three kinds of state live here, each testable without a browser and usable in a notebook:
-
 - :class:`ScenarioState`: the scenario being edited. Every edit is applied to a copy of the scenario's
-  TOML tables and validated at once by :func:`workbench.scenario.parse.scenario_from_dict`. A valid edit becomes
-  the scenario in effect; an invalid one leaves the last valid scenario in effect and records the one-line
-  error and the section it came from, so the view can show it next to the field. The TOML text the user
-  typed is never overwritten by a failed edit.
-- :class:`SimulationJob` and :class:`PlanJob`: a background run of :func:`workbench.analysis.simulate` or
-  :func:`workbench.analysis.plan` with progress, cancel and a cache keyed by the scenario text (which holds the
-  study settings), so going back to an earlier scenario shows its results at once.
-- :class:`SampleState`: one simulated dataset for the one-dataset view.
+  TOML tables (the editing rules that follow a name everywhere are :mod:`workbench.scenario.edit`) and
+  validated at once by :func:`workbench.scenario_from_dict`. A valid edit becomes the scenario in effect; an
+  invalid one leaves the last valid scenario in effect and records the one-line error and the section it
+  came from, so the view can show it next to the field. The TOML text the user typed is never overwritten
+  by a failed edit.
+- :class:`Workbench` ties the scenario to the background runs of :mod:`workbench.app.runs` and the
+  one-dataset view of :mod:`workbench.app.dataset`: when the scenario changes, a linear-Gaussian scenario is
+  re-run at once with the exact engine (it is fast); other scenarios wait for :meth:`Workbench.run`.
 
-:class:`Workbench` ties them together: when the scenario changes, a linear-Gaussian scenario is re-run at
-once with the exact engine (it is fast); other scenarios wait for :meth:`Workbench.run`.
+The study settings the inputs bind to are in :mod:`workbench.app.settings`.
 
 Examples
 --------
@@ -30,107 +27,128 @@ False
 
 from __future__ import annotations
 
-import threading
-import time
 import warnings
-from collections import OrderedDict
 from collections.abc import Callable
 from typing import Any
 
 import param
 
-from workbench.errors import Cancelled, ScenarioError, WorkbenchError
-from workbench.graph.defaults import loads_scenario, scenario_from_dict
+from workbench.analysis.check import check
+from workbench.app.dataset import SampleState
+from workbench.app.runs import PlanJob, SimulationJob
+from workbench.errors import ScenarioError, WorkbenchError
+from workbench.graph import judge
+from workbench.graph.defaults import load_preset, loads_scenario, scenario_from_dict
+from workbench.scenario import edit
+from workbench.scenario.constraints import STUDY_SETTINGS, check_setting
 from workbench.scenario.model import Scenario
-from workbench.scenario.presets import DEFAULT_PRESET, list_presets, preset_text
+from workbench.scenario.presets import DEFAULT_PRESET, list_presets
 from workbench.scenario.write import dumps_scenario, scenario_to_dict
 
-__all__ = [
-    "MAX_UPLOAD_BYTES",
-    "ScenarioState",
-    "BackgroundJob",
-    "SimulationJob",
-    "PlanJob",
-    "SampleState",
-    "Workbench",
-    "library_has",
-    "strategy_fields",
-    "restrict_text",
-]
+__all__ = ["MAX_UPLOAD_BYTES", "ScenarioState", "Workbench", "check_study_values"]
 
+#: Largest scenario file or text accepted, in bytes.
 MAX_UPLOAD_BYTES = 256 * 1024
-_CACHE_SIZE = 24
+#: The variable fields :meth:`ScenarioState.set_variable` sets as given (numbers checked by the parser).
+_PLAIN_FIELDS = ("noise_sd", "baseline", "proportion")
+_SIZES = "sample_sizes"
 
 
-def library_has(module: str) -> bool:
-    """True when ``workbench.<module>`` can be imported (parts of the library arrive one by one).
+def check_study_values(fields: dict[str, Any]) -> dict[str, Any]:
+    """Check study settings typed in the dashboard with the one rule,
+    :func:`~workbench.scenario.constraints.check_setting`; return them as the TOML table holds them.
 
-    Examples
-    --------
-    >>> library_has("scenario")
-    True
-    """
-    return True  # scaffolding of the staged build, removed with the app split
+    ``target_halfwidth=None`` means no target; ``sample_sizes`` is a sequence of sizes.
 
-
-def strategy_fields() -> set[str]:
-    """The fields a :class:`~workbench.scenario.parse.Strategy` has in this installation (optional keys such as
-    ``selection`` and ``restrict`` arrive with newer versions of the library).
+    Raises
+    ------
+    ScenarioError
+        ``study.<name>: must be ..., got ...`` for the first bad value.
 
     Examples
     --------
-    >>> {"name", "adjust", "model"} <= strategy_fields()
-    True
+    >>> check_study_values({"n": 300, "sample_sizes": (100, 200)})
+    {'n': 300, 'sample_sizes': [100, 200]}
+    >>> check_study_values({"replicates": 0})
+    Traceback (most recent call last):
+    ...
+    workbench.errors.ScenarioError: study.replicates: must be an integer from 1 to 1,000,000, got 0
     """
-    import dataclasses
-
-    from workbench.scenario.model import Strategy
-
-    return {f.name for f in dataclasses.fields(Strategy)}
-
-
-def restrict_text(restrict) -> str:
-    """A strategy's restriction as the text the editor shows (``shift = 0, distance = [10, 50]``).
-
-    Examples
-    --------
-    >>> restrict_text((("shift", 0), ("distance", (10.0, 50.0))))
-    'shift = 0, distance = [10, 50]'
-    >>> restrict_text(())
-    ''
-    """
-    items = restrict.items() if isinstance(restrict, dict) else (restrict or ())
-    parts = []
-    for name, value in items:
-        if isinstance(value, list | tuple):
-            parts.append(f"{name} = [{value[0]:g}, {value[1]:g}]")
+    out: dict[str, Any] = {}
+    for key, value in fields.items():
+        if key == _SIZES:
+            out[key] = [
+                check_setting("sample_size", size, where=f"study.sample_sizes[{i}]")
+                for i, size in enumerate(value, start=1)
+            ]
+        elif key == "target_halfwidth" and value is None:
+            out[key] = None
+        elif key in STUDY_SETTINGS and key != "sample_size":
+            out[key] = check_setting(key, value, where=f"study.{key}")
         else:
-            parts.append(f"{name} = {value}")
-    return ", ".join(parts)
+            raise ScenarioError(f"cannot edit '{key}'", where="study")
+    return out
 
 
-def _parse_restrict_text(value, *, where: str) -> dict:
-    """A restriction typed as text (``shift = 0, distance = [10, 50]``) or given as a table, as a table.
-    The text is read as the inside of a TOML inline table: parsed, never evaluated."""
-    if isinstance(value, dict):
-        return dict(value)
-    text = str(value or "").strip().strip("{}").strip()
-    if not text:
-        return {}
-    import tomllib
+def _variable_change(name: str, field: str, value: Any) -> Callable[[dict], edit.Edited]:
+    """The edit of one field of a variable (see :meth:`ScenarioState.set_variable`)."""
 
-    try:
-        parsed = tomllib.loads(f"restrict = {{ {text} }}")["restrict"]
-    except tomllib.TOMLDecodeError:
-        raise ScenarioError(
-            f"write the units to keep as 'name = 0' or 'name = [low, high]', got '{text}'", where=where
-        ) from None
-    return parsed
+    def change(data: dict) -> edit.Edited:
+        if name not in data["variables"]:
+            raise ScenarioError(f"no variable '{name}'", where="variables")
+        if field == "name":
+            return edit.rename_variable(data, name, str(value))
+        if field == "type":
+            return edit.set_variable_type(data, name, str(value))
+        if field == "observed":
+            return edit.set_observed(data, name, bool(value))
+        table = data["variables"][name]
+        if field == "label":
+            text = str(value or "").strip()
+            if text:
+                table["label"] = text
+            else:
+                table.pop("label", None)
+            return edit.Edited(data)
+        if field not in _PLAIN_FIELDS:
+            raise ScenarioError(f"cannot edit '{field}'", where=f"variables.{name}")
+        if field != "proportion" and table.get("type") == "binary":
+            raise ScenarioError(
+                "a binary variable is set by its proportion", where=f"variables.{name}.{field}"
+            )
+        if field == "proportion" and table.get("type") != "binary":
+            raise ScenarioError("only a binary variable has a proportion", where=f"variables.{name}.{field}")
+        table[field] = value
+        return edit.Edited(data)
+
+    return change
 
 
-def _parse_text(text: str) -> Scenario:
-    """Parse TOML text typed or uploaded by a user. The text is always read as text, never as a path."""
-    return loads_scenario(text if "\n" in text else text + "\n")
+def _strategy_table_change(table: dict, name: str, changes: dict[str, Any]) -> None:
+    """Apply the changes of :meth:`ScenarioState.set_strategy` to one strategy's table, in place."""
+    if changes.get("adjust") is not None:
+        table["adjust"] = list(changes["adjust"])
+    model = changes.get("model")
+    if model is not None:
+        table["model"] = model
+        if model != "logit":
+            table.pop("standardize", None)
+        else:
+            table.pop("selection", None)  # selection rules apply to OLS only
+    if changes.get("standardize") is not None:
+        table["standardize"] = bool(changes["standardize"])
+    selection = changes.get("selection")
+    if selection in ("", "fixed"):
+        table.pop("selection", None)
+    elif selection is not None:
+        table["selection"] = selection
+    if changes.get("restrict") is not None:
+        parsed = edit.parse_restriction(changes["restrict"], where=f"strategies.{name}.restrict")
+        table["restrict"] = parsed
+        if not parsed:
+            del table["restrict"]
+    if changes.get("new_name") is not None:
+        table["name"] = changes["new_name"]
 
 
 class ScenarioState(param.Parameterized):
@@ -140,6 +158,8 @@ class ScenarioState(param.Parameterized):
     ----------
     preset : str
         Name of the built-in preset to start from (loading is by name only).
+    scenario : Scenario, optional
+        A scenario to start from instead.
 
     Examples
     --------
@@ -166,44 +186,31 @@ class ScenarioState(param.Parameterized):
     revision = param.Integer(default=0, doc="Counts valid changes of the scenario.")
     source = param.String(default="preset", doc="Where the scenario in effect came from (the last section).")
 
-    SECTIONS = ("preset", "upload", "toml", "variables", "arrows", "question", "strategies", "study")
+    SECTIONS = ("preset", "upload", "toml", "variables", "arrows", "question", "strategies", "study", "plan")
+    """Where an edit can come from (the ``section`` of errors and notes)."""
 
     def __init__(self, preset: str | None = None, scenario: Scenario | None = None, **params):
         if preset is not None:
             params["preset"] = preset
         super().__init__(**params)
-        if scenario is None:
-            scenario = _parse_text(preset_text(self.preset))
-        self._commit(scenario, "preset")
+        self._commit(scenario if scenario is not None else load_preset(self.preset), "preset")
 
     # --- internals -------------------------------------------------------------------------------------
     def _commit(self, scenario: Scenario, section: str, note: str = "") -> None:
         if self.scenario is not None and scenario == self.scenario:
             with param.parameterized.batch_call_watchers(self):
-                self.error = ""
-                self.error_section = ""
-                self.note = note
-                self.source = section
+                self.error, self.error_section, self.note, self.source = "", "", note, section
             return
         report, report_error = None, ""
-        if library_has("check"):
-            try:
-                from workbench.analysis.check import check
-
-                report = check(scenario)
-            except WorkbenchError as exc:
-                report_error = str(exc)
-        else:
-            report_error = "the graph analysis is not available in this installation"
+        try:
+            report = check(scenario)
+        except WorkbenchError as exc:
+            report_error = str(exc)
         names = {s.name for s in scenario.strategies}
-        selected = self.selected_strategy if self.selected_strategy in names else ""
         with param.parameterized.batch_call_watchers(self):
-            self.error = ""
-            self.error_section = ""
-            self.note = note
-            self.report = report
-            self.report_error = report_error
-            self.selected_strategy = selected
+            self.error, self.error_section, self.note = "", "", note
+            self.report, self.report_error = report, report_error
+            self.selected_strategy = self.selected_strategy if self.selected_strategy in names else ""
             self.text = dumps_scenario(scenario)
             self.source = section
             self.scenario = scenario
@@ -211,61 +218,24 @@ class ScenarioState(param.Parameterized):
 
     def _fail(self, exc: Exception, section: str) -> bool:
         with param.parameterized.batch_call_watchers(self):
-            self.error = str(exc)
-            self.error_section = section
-            self.note = ""
+            self.error, self.error_section, self.note = str(exc), section, ""
         return False
 
-    def _edit(self, section: str, change: Callable[[dict], str | None]) -> bool:
-        """Apply ``change`` to the scenario's TOML tables, validate, and commit or record the error."""
+    def _edit(self, section: str, change: Callable[[dict], edit.Edited | None]) -> bool:
+        """Apply ``change`` to a copy of the scenario's TOML tables, validate, and commit or record the
+        error. ``change`` returns an :class:`~workbench.scenario.edit.Edited`, or None after editing the
+        copy in place."""
         data = scenario_to_dict(self.scenario, include_default_strategies=True)
         try:
             with warnings.catch_warnings(record=True) as caught:
                 warnings.simplefilter("always")
-                note = change(data) or ""
-                scenario = scenario_from_dict(data)
+                edited = change(data) or edit.Edited(data)
+                scenario = scenario_from_dict(edited.data)
         except ScenarioError as exc:
             return self._fail(exc, section)
         warned = "; ".join(str(w.message) for w in caught)
-        self._commit(scenario, section, "; ".join(t for t in (note, warned) if t))
+        self._commit(scenario, section, "; ".join(t for t in (edited.note, warned) if t))
         return True
-
-    @staticmethod
-    def _prune(data: dict, names: set[str]) -> str:
-        """Remove ``names`` from every strategy's adjustment set, restriction, matching and ``question.also``
-        (a selection rule left with no candidate is dropped: the strategy adjusts for nothing)."""
-        removed = []
-        for table in data.get("strategies", []):
-            kept = [v for v in table.get("adjust", []) if v not in names]
-            restrict = {k: v for k, v in (table.get("restrict") or {}).items() if k not in names}
-            match = [v for v in table.get("match", []) if v not in names]
-            if (
-                len(kept) != len(table.get("adjust", []))
-                or len(restrict) != len(table.get("restrict") or {})
-                or len(match) != len(table.get("match", []))
-            ):
-                removed.append(table["name"])
-            if "match" in table:
-                if match:
-                    table["match"] = match
-                else:
-                    del table["match"]
-            table["adjust"] = kept
-            if "restrict" in table:
-                if restrict:
-                    table["restrict"] = restrict
-                else:
-                    del table["restrict"]
-            if not kept:
-                table.pop("selection", None)
-        also = data["question"].get("also")
-        if also:
-            data["question"]["also"] = [v for v in also if v not in names]
-            if not data["question"]["also"]:
-                del data["question"]["also"]
-        if removed:
-            return f"removed {', '.join(sorted(names))} from strategies: {', '.join(removed)}"
-        return ""
 
     # --- whole scenarios -------------------------------------------------------------------------------
     @param.depends("preset", watch=True)
@@ -275,7 +245,7 @@ class ScenarioState(param.Parameterized):
     def load_preset(self, name: str) -> bool:
         """Load a built-in preset by name (never a path)."""
         try:
-            scenario = _parse_text(preset_text(name))
+            scenario = load_preset(name)
         except ScenarioError as exc:
             return self._fail(exc, "preset")
         self._commit(scenario, "preset")
@@ -290,7 +260,7 @@ class ScenarioState(param.Parameterized):
         try:
             with warnings.catch_warnings(record=True) as caught:
                 warnings.simplefilter("always")
-                scenario = _parse_text(text)
+                scenario = loads_scenario(text)
         except ScenarioError as exc:
             return self._fail(exc, "toml")
         self._commit(scenario, "toml", "; ".join(str(w.message) for w in caught))
@@ -303,33 +273,38 @@ class ScenarioState(param.Parameterized):
         Examples
         --------
         >>> state = ScenarioState()
-        >>> state.upload(b"title = ", "broken.toml")
+        >>> state.upload(b"title = \\n", "broken.toml")
         False
         >>> state.error
         'upload broken.toml: line 1, column 9: TOML syntax error: Invalid value'
         """
         label = f"upload {filename}" if filename else "upload"
-        if content is None:
-            return self._fail(ScenarioError("no file received", where=label), "upload")
-        if not (filename or "").lower().endswith(".toml"):
-            return self._fail(ScenarioError("only .toml scenario files can be opened", where=label), "upload")
-        if len(content) > MAX_UPLOAD_BYTES:
-            return self._fail(
-                ScenarioError(
-                    f"{len(content):,} bytes is over the limit of {MAX_UPLOAD_BYTES:,}", where=label
-                ),
-                "upload",
-            )
         try:
-            text = content.decode("utf-8")
-        except UnicodeDecodeError:
-            return self._fail(ScenarioError("not UTF-8 text", where=label), "upload")
+            text = self._uploaded_text(content, filename, label)
+        except ScenarioError as exc:
+            return self._fail(exc, "upload")
         try:
-            scenario = _parse_text(text)
+            scenario = loads_scenario(text)
         except ScenarioError as exc:
             return self._fail(ScenarioError(str(exc), where=label), "upload")
         self._commit(scenario, "upload")
         return True
+
+    @staticmethod
+    def _uploaded_text(content: bytes | None, filename: str | None, label: str) -> str:
+        """The text of an upload, or a ScenarioError saying why it cannot be opened."""
+        if content is None:
+            raise ScenarioError("no file received", where=label)
+        if not (filename or "").lower().endswith(".toml"):
+            raise ScenarioError("only .toml scenario files can be opened", where=label)
+        if len(content) > MAX_UPLOAD_BYTES:
+            raise ScenarioError(
+                f"{len(content):,} bytes is over the limit of {MAX_UPLOAD_BYTES:,}", where=label
+            )
+        try:
+            return content.decode("utf-8")
+        except UnicodeDecodeError:
+            raise ScenarioError("not UTF-8 text", where=label) from None
 
     def download_text(self) -> str:
         """The scenario in effect as TOML text, for saving."""
@@ -345,127 +320,43 @@ class ScenarioState(param.Parameterized):
                 raise ScenarioError("type a name for the new variable", where="variables")
             if name in data["variables"]:
                 raise ScenarioError(f"there is already a variable '{name}'", where=f"variables.{name}")
-            table = {"type": type, "proportion": 0.5} if type == "binary" else {"type": type}
-            data["variables"][name] = table
+            data["variables"][name] = (
+                {"type": type, "proportion": 0.5} if type == "binary" else {"type": type}
+            )
 
         return self._edit("variables", change)
 
     def remove_variable(self, name: str) -> bool:
-        """Remove a variable and its arrows (not the exposure or the outcome)."""
-
-        def change(data):
-            q = data["question"]
-            if name not in data["variables"]:
-                raise ScenarioError(f"no variable '{name}'", where="variables")
-            if name in (q["exposure"], q["outcome"]):
-                role = "exposure" if name == q["exposure"] else "outcome"
-                raise ScenarioError(
-                    f"'{name}' is the {role}; choose another {role} first", where=f"variables.{name}"
-                )
-            del data["variables"][name]
-            data["arrows"] = [a for a in data["arrows"] if name not in (a["from"], a["to"])]
-            return self._prune(data, {name})
-
-        return self._edit("variables", change)
+        """Remove a variable and its arrows (not the exposure or the outcome); strategies stop using it."""
+        return self._edit("variables", lambda data: edit.remove_variable(data, name))
 
     def set_variable(self, name: str, field: str, value: Any) -> bool:
-        """Change one field of a variable: name, type, noise_sd, baseline, proportion, observed or label."""
+        """Change one field of a variable: name, type, noise_sd, baseline, proportion, observed or label.
 
-        def change(data):
-            if name not in data["variables"]:
-                raise ScenarioError(f"no variable '{name}'", where="variables")
-            table = data["variables"][name]
-            q = data["question"]
-            if field == "name":
-                new = str(value).strip()
-                if new == name:
-                    return ""
-                if new in data["variables"]:
-                    raise ScenarioError(f"there is already a variable '{new}'", where=f"variables.{new}")
-                data["variables"] = {(new if k == name else k): v for k, v in data["variables"].items()}
-                for a in data["arrows"]:
-                    a["from"] = new if a["from"] == name else a["from"]
-                    a["to"] = new if a["to"] == name else a["to"]
-                for key in ("exposure", "outcome"):
-                    q[key] = new if q[key] == name else q[key]
-                if "also" in q:
-                    q["also"] = [new if v == name else v for v in q["also"]]
-                for s in data.get("strategies", []):
-                    s["adjust"] = [new if v == name else v for v in s["adjust"]]
-                    if "match" in s:
-                        s["match"] = [new if v == name else v for v in s["match"]]
-                    if s.get("restrict"):
-                        s["restrict"] = {(new if k == name else k): v for k, v in s["restrict"].items()}
-                return ""
-            if field == "type":
-                if value == table.get("type"):
-                    return ""
-                keep = {k: table[k] for k in ("observed", "label", "position") if k in table}
-                for s in data.get("strategies", []):
-                    # a restriction's form depends on the type (a value or an interval): drop it
-                    (s.get("restrict") or {}).pop(name, None)
-                    if "restrict" in s and not s["restrict"]:
-                        del s["restrict"]
-                    if name in s.get("match", []):  # exact matching needs a binary variable
-                        s["match"] = [v for v in s["match"] if v != name]
-                        if not s["match"]:
-                            del s["match"]
-                    if value == "binary" and name == q["outcome"]:
-                        s.pop("selection", None)  # selection rules apply to continuous outcomes only
-                if value == "binary":
-                    data["variables"][name] = {"type": "binary", "proportion": 0.5, **keep}
-                    if name == q["outcome"] and q.get("target") == "direct":
-                        q["target"] = "total"
-                        return "the target is now the total effect (a binary outcome has no direct target)"
-                    return ""
-                data["variables"][name] = {"type": str(value), **keep}
-                if name == q["outcome"]:
-                    q["scale"] = "difference"
-                    for s in data.get("strategies", []):
-                        s["model"] = "ols"
-                        s.pop("standardize", None)
-                    return "a continuous outcome is fitted by OLS; strategies set to model = ols"
-                return ""
-            if field == "label":
-                text = str(value or "").strip()
-                if text:
-                    table["label"] = text
-                else:
-                    table.pop("label", None)
-                return ""
-            if field == "observed":
-                table["observed"] = bool(value)
-                return "" if value else self._prune(data, {name})
-            if field not in ("noise_sd", "baseline", "proportion"):
-                raise ScenarioError(f"cannot edit '{field}'", where=f"variables.{name}")
-            if field in ("noise_sd", "baseline") and table.get("type") == "binary":
-                raise ScenarioError(
-                    "a binary variable is set by its proportion", where=f"variables.{name}.{field}"
-                )
-            if field == "proportion" and table.get("type") != "binary":
-                raise ScenarioError(
-                    "only a binary variable has a proportion", where=f"variables.{name}.{field}"
-                )
-            table[field] = value
-            return ""
-
-        return self._edit("variables", change)
+        A new name follows the variable everywhere; a latent variable leaves the strategies; a type change
+        drops what no longer fits (see :mod:`workbench.scenario.edit`).
+        """
+        return self._edit("variables", _variable_change(name, field, value))
 
     # --- arrows ----------------------------------------------------------------------------------------
     def add_arrow(self, source: str, target: str, effect: float = 0.5) -> bool:
         """Add an arrow ``source -> target``."""
+        return self._edit(
+            "arrows", lambda data: data["arrows"].append({"from": source, "to": target, "effect": effect})
+        )
 
-        def change(data):
-            data["arrows"].append({"from": source, "to": target, "effect": effect})
-
-        return self._edit("arrows", change)
+    @staticmethod
+    def _arrow(data: dict, index: int) -> dict:
+        """The arrow table at ``index``, or a ScenarioError (arrows are numbered from 1 in messages)."""
+        if not 0 <= index < len(data["arrows"]):
+            raise ScenarioError(f"no arrow number {index + 1}", where="arrows")
+        return data["arrows"][index]
 
     def remove_arrow(self, index: int) -> bool:
         """Remove the arrow at ``index`` (counted from 0)."""
 
         def change(data):
-            if not 0 <= index < len(data["arrows"]):
-                raise ScenarioError(f"no arrow number {index + 1}", where="arrows")
+            self._arrow(data, index)
             del data["arrows"][index]
 
         return self._edit("arrows", change)
@@ -474,44 +365,34 @@ class ScenarioState(param.Parameterized):
         self, index: int, *, source: str | None = None, target: str | None = None, effect: Any = None
     ) -> bool:
         """Change the arrow at ``index`` (counted from 0): its source, target or effect."""
-
-        def change(data):
-            if not 0 <= index < len(data["arrows"]):
-                raise ScenarioError(f"no arrow number {index + 1}", where="arrows")
-            arrow = data["arrows"][index]
-            if source is not None:
-                arrow["from"] = source
-            if target is not None:
-                arrow["to"] = target
-            if effect is not None:
-                arrow["effect"] = effect
-
-        return self._edit("arrows", change)
+        changes = {k: v for k, v in (("from", source), ("to", target), ("effect", effect)) if v is not None}
+        return self._edit("arrows", lambda data: self._arrow(data, index).update(changes))
 
     # --- question and study ----------------------------------------------------------------------------
     def set_question(self, **fields: Any) -> bool:
-        """Change the exposure, outcome, target or scale."""
-
-        def change(data):
-            q = data["question"]
-            for key, value in fields.items():
-                if key not in ("exposure", "outcome", "target", "scale"):
-                    raise ScenarioError(f"cannot edit '{key}'", where="question")
-                q[key] = value
-            return self._prune(data, {q["exposure"], q["outcome"]})
-
-        return self._edit("question", change)
+        """Change the exposure, outcome, target or scale (the new exposure and outcome leave the strategies)."""
+        return self._edit("question", lambda data: edit.set_question(data, **fields))
 
     def set_study(self, section: str = "study", **fields: Any) -> bool:
         """Change study settings: n, replicates, seed, alpha, sample_sizes, target_power, target_halfwidth
-        (``None`` removes the optional target half-width). ``section`` names where the edit came from."""
+        (``None`` removes the optional target half-width), each checked by
+        :func:`~workbench.scenario.constraints.check_setting`. ``section`` names where the edit came from.
+
+        Examples
+        --------
+        >>> state = ScenarioState()
+        >>> state.set_study(n=0)
+        False
+        >>> state.error
+        'study.n: must be an integer of at least 1, got 0'
+        """
 
         def change(data):
-            for key, value in fields.items():
-                if value is None and key == "target_halfwidth":
+            for key, value in check_study_values(fields).items():
+                if value is None:
                     data["study"].pop(key, None)
                 else:
-                    data["study"][key] = list(value) if isinstance(value, tuple) else value
+                    data["study"][key] = value
 
         return self._edit(section, change)
 
@@ -530,15 +411,13 @@ class ScenarioState(param.Parameterized):
         >>> state.scenario.study.sample_sizes
         (100, 200, 400)
         """
-        words = [w for w in text.replace(",", " ").split() if w]
-        sizes = []
+        words = text.replace(",", " ").split()
         for word in words:
             if not word.isdigit():
                 return self._fail(
                     ScenarioError(f"'{word}' is not a whole number", where="study.sample_sizes"), section
                 )
-            sizes.append(int(word))
-        return self.set_study(section=section, sample_sizes=sizes)
+        return self.set_study(section=section, sample_sizes=[int(word) for word in words])
 
     # --- strategies ------------------------------------------------------------------------------------
     def add_strategy(self, name: str | None = None, adjust=(), model: str = "ols") -> bool:
@@ -594,34 +473,19 @@ class ScenarioState(param.Parameterized):
         >>> state.error_section
         'strategies'
         """
+        changes = {
+            "adjust": adjust,
+            "model": model,
+            "standardize": standardize,
+            "new_name": new_name,
+            "selection": selection,
+            "restrict": restrict,
+        }
 
         def change(data):
             for table in data["strategies"]:
                 if table["name"] == name:
-                    if adjust is not None:
-                        table["adjust"] = list(adjust)
-                    if model is not None:
-                        table["model"] = model
-                        if model != "logit":
-                            table.pop("standardize", None)
-                        else:
-                            table.pop("selection", None)  # selection rules apply to OLS only
-                    if standardize is not None:
-                        table["standardize"] = bool(standardize)
-                    if selection is not None:
-                        if selection in ("", "fixed"):
-                            table.pop("selection", None)
-                        else:
-                            table["selection"] = selection
-                    if restrict is not None:
-                        parsed = _parse_restrict_text(restrict, where=f"strategies.{name}.restrict")
-                        if parsed:
-                            table["restrict"] = parsed
-                        else:
-                            table.pop("restrict", None)
-                    if new_name is not None:
-                        table["name"] = new_name
-                    return ""
+                    return _strategy_table_change(table, name, changes)
             raise ScenarioError(f"no strategy '{name}'", where="strategies")
 
         ok = self._edit("strategies", change)
@@ -632,38 +496,17 @@ class ScenarioState(param.Parameterized):
     def add_suggested_strategies(self) -> bool:
         """Add every minimal valid adjustment set and the optimal valid set not already present."""
         if self.report is None:
-            return self._fail(
-                ScenarioError(self.report_error or "the graph analysis is not available", where="strategies"),
-                "strategies",
-            )
-        suggestions = [(f"minimal_{i}", tuple(found)) for i, found in enumerate(self.report.minimal_sets, 1)]
+            return self._fail(ScenarioError(self.report_error, where="strategies"), "strategies")
+        suggestions = [(f"minimal_{i}", found) for i, found in enumerate(self.report.minimal_sets, 1)]
         if self.report.optimal_set is not None:
-            suggestions.append(("optimal", tuple(self.report.optimal_set)))
-        model = "logit" if self.scenario.outcome.is_binary else "ols"
-        standardize = self.scenario.outcome.is_binary
+            suggestions.append(("optimal", self.report.optimal_set))
+        binary = self.scenario.outcome.is_binary
 
         def change(data):
-            present = {
-                frozenset(s["adjust"])
-                for s in data["strategies"]
-                if s.get("model", "ols") == model and not s.get("selection") and not s.get("restrict")
-            }
-            taken = {s["name"] for s in data["strategies"]}
-            added = []
-            for label, adjust in suggestions:
-                if frozenset(adjust) in present:
-                    continue
-                chosen, k = label, 2
-                while chosen in taken:
-                    chosen, k = f"{label}_{k}", k + 1
-                table = {"name": chosen, "adjust": sorted(adjust), "model": model}
-                if standardize:
-                    table["standardize"] = True
-                data["strategies"].append(table)
-                present.add(frozenset(adjust))
-                taken.add(chosen)
-                added.append(chosen)
-            return f"added {', '.join(added)}" if added else "the minimal and optimal sets are already listed"
+            edited = edit.add_adjustment_sets(
+                data, suggestions, model="logit" if binary else "ols", standardize=binary
+            )
+            return edited._replace(note=edited.note or "the minimal and optimal sets are already listed")
 
         return self._edit("strategies", change)
 
@@ -677,298 +520,31 @@ class ScenarioState(param.Parameterized):
     def verdict(self, strategy: str | None = None):
         """The adjustment verdict of a strategy (default: the selected one), or None."""
         name = strategy or self.selected_strategy
-        if not name or not library_has("adjustment"):
+        if not name or name not in {s.name for s in self.scenario.strategies}:
             return None
         try:
-            chosen = self.scenario.strategy(name)
-        except KeyError:
-            return None
-        from workbench.graph.adjustment import judge
-
-        try:
-            return judge(self.scenario, chosen.adjust)
+            return judge(self.scenario, self.scenario.strategy(name).adjust)
         except WorkbenchError:
             return None
 
     def strategy_rows(self) -> list[dict]:
-        """One dict per strategy: name, adjust, model, standardize, valid, reasons (from the check report)."""
-        by_name = {}
-        if self.report is not None:
-            by_name = {row["name"]: row for row in self.report.strategies}
-        rows = []
-        for s in self.scenario.strategies:
-            checked = by_name.get(s.name, {})
-            rows.append(
-                {
-                    "name": s.name,
-                    "adjust": list(s.adjust),
-                    "model": s.model,
-                    "standardize": s.standardize,
-                    "selection": getattr(s, "selection", None),
-                    "restrict": dict(getattr(s, "restrict", ()) or ()),
-                    "match": list(getattr(s, "match", ()) or ()),
-                    "valid": checked.get("valid"),
-                    "reasons": list(checked.get("reasons", [])),
-                }
-            )
-        return rows
-
-
-# ------------------------------------------------------------------------------------------------------
-# Background jobs
-# ------------------------------------------------------------------------------------------------------
-class BackgroundJob(param.Parameterized):
-    """A cancellable computation on a scenario, run in a worker thread, with progress and a result cache.
-
-    Subclasses name the library module they need (``module``) and implement :meth:`compute`.
-    With ``deferred`` set, the worker thread's progress and result are queued and applied by :meth:`poll`,
-    which a user interface calls periodically on its own thread; otherwise they are applied at once.
-    """
-
-    status = param.Selector(default="idle", objects=["idle", "running", "done", "cancelled", "failed"])
-    progress = param.Number(default=0.0, bounds=(0.0, 1.0))
-    message = param.String(default="")
-    result = param.Parameter(default=None, doc="The result for ``result_key``, or None.")
-    result_key = param.String(default="", doc="Cache key of the scenario the result belongs to.")
-    deferred = param.Boolean(default=False, doc="Queue updates from worker threads for :meth:`poll`.")
-
-    module = ""
-    label = "run"
-
-    def __init__(self, **params):
-        super().__init__(**params)
-        self._cache: OrderedDict[str, Any] = OrderedDict()
-        self._token = 0
-        self._cancel = threading.Event()
-        self._lock = threading.Lock()
-        self._thread: threading.Thread | None = None
-        self._pending: dict[str, Any] = {}
-
-    @property
-    def available(self) -> bool:
-        """Whether the library function this job needs is installed."""
-        return library_has(self.module)
-
-    @staticmethod
-    def key(scenario: Scenario) -> str:
-        """Cache key: the scenario's TOML text, which includes the study settings and seed."""
-        return dumps_scenario(scenario)
-
-    def compute(self, scenario: Scenario, progress: Callable[[int, int], None]):  # pragma: no cover
-        raise NotImplementedError
-
-    def is_current(self, scenario: Scenario) -> bool:
-        """True when the result shown belongs to ``scenario``."""
-        return self.result is not None and self.result_key == self.key(scenario)
-
-    def show_cached(self, scenario: Scenario) -> bool:
-        """Show the cached result of ``scenario`` if there is one."""
-        key = self.key(scenario)
-        if key in self._cache:
-            self._cache.move_to_end(key)
-            with param.parameterized.batch_call_watchers(self):
-                self.result_key = key
-                self.result = self._cache[key]
-                self.status = "done"
-                self.progress = 1.0
-                self.message = f"{self.label}: from the cache"
-            return True
-        return False
-
-    def clear(self) -> None:
-        """Forget the result shown (the cache stays), cancelling any running computation."""
-        self.cancel()
-        with param.parameterized.batch_call_watchers(self):
-            self.result, self.result_key = None, ""
-            self.status, self.progress, self.message = "idle", 0.0, ""
-
-    def cancel(self) -> None:
-        """Ask the running computation to stop; its result, if any, is discarded."""
-        with self._lock:
-            self._token += 1
-            self._cancel.set()
-            self._pending = {}
-        if self.status == "running":
-            with param.parameterized.batch_call_watchers(self):
-                self.status, self.message, self.progress = "cancelled", f"{self.label} cancelled", 0.0
-
-    def _publish(self, token: int, **values: Any) -> None:
-        """Hand values to the interface: at once, or (with ``deferred``) at the next :meth:`poll`."""
-        with self._lock:
-            if token != self._token:
-                return
-            if self.deferred:
-                self._pending.update(values)
-                return
-        with param.parameterized.batch_call_watchers(self):
-            for name, value in values.items():
-                setattr(self, name, value)
-
-    def poll(self) -> bool:
-        """Apply the values a worker thread handed over since the last call (the interface calls this
-        periodically on its own thread). Returns whether anything changed."""
-        with self._lock:
-            pending, self._pending = self._pending, {}
-        if not pending:
-            return False
-        with param.parameterized.batch_call_watchers(self):
-            for name, value in pending.items():
-                setattr(self, name, value)
-        return True
-
-    def start(self, scenario: Scenario, *, background: bool = True) -> None:
-        """Compute for ``scenario`` (from the cache when possible). A running computation is cancelled."""
-        if self.show_cached(scenario):
-            with self._lock:
-                self._token += 1
-                self._cancel.set()
-                self._pending = {}
-            return
-        if not self.available:
-            with param.parameterized.batch_call_watchers(self):
-                self.status = "idle"
-                self.message = f"workbench.{self.module} is not available yet"
-            return
-        with self._lock:
-            self._cancel.set()
-            self._token += 1
-            self._pending = {}
-            token = self._token
-            cancel = threading.Event()
-            self._cancel = cancel
-        key = self.key(scenario)
-        with param.parameterized.batch_call_watchers(self):
-            self.status = "running"
-            self.progress = 0.0
-            self.message = f"{self.label}: starting"
-        last = [0.0]
-
-        def progress(done: int, total: int) -> None:
-            if cancel.is_set():
-                raise Cancelled(f"{self.label} cancelled")
-            now = time.monotonic()
-            if now - last[0] > 0.15 or done >= total:
-                last[0] = now
-                share = min(1.0, done / total) if total else 0.0
-                self._publish(token, progress=share, message=f"{self.label}: {done:,} of {total:,}")
-
-        def work() -> None:
-            started = time.monotonic()
-            try:
-                result = self.compute(scenario, progress)
-            except Cancelled:
-                self._publish(token, status="cancelled", message=f"{self.label} cancelled", progress=0.0)
-                return
-            except WorkbenchError as exc:
-                self._publish(token, status="failed", message=str(exc), progress=0.0)
-                return
-            except Exception as exc:  # a bug must not freeze the page; say what happened
-                self._publish(token, status="failed", message=f"{type(exc).__name__}: {exc}", progress=0.0)
-                return
-            if cancel.is_set():
-                return
-            self._cache[key] = result
-            while len(self._cache) > _CACHE_SIZE:
-                self._cache.popitem(last=False)
-            seconds = time.monotonic() - started
-            self._publish(
-                token,
-                result_key=key,
-                result=result,
-                status="done",
-                progress=1.0,
-                message=f"{self.label}: done in {seconds:.1f} s",
-            )
-
-        if background:
-            self._thread = threading.Thread(target=work, name=f"workbench-{self.module}", daemon=True)
-            self._thread.start()
-        else:
-            work()
-
-    def wait(self, timeout: float | None = None) -> None:
-        """Wait for the worker thread to finish (for tests and scripts)."""
-        if self._thread is not None:
-            self._thread.join(timeout)
-
-
-class SimulationJob(BackgroundJob):
-    """Runs :func:`workbench.analysis.simulate.simulate` with the scenario's study settings."""
-
-    module = "simulate"
-    label = "simulation"
-
-    def compute(self, scenario, progress):
-        from workbench.analysis.simulate import simulate
-
-        return simulate(scenario, progress=progress)
-
-
-class PlanJob(BackgroundJob):
-    """Runs :func:`workbench.analysis.plan.plan` over the scenario's sample sizes."""
-
-    module = "plan"
-    label = "sample-size plan"
-
-    def compute(self, scenario, progress):
-        from workbench.analysis.plan import plan
-
-        return plan(scenario, progress=progress)
-
-
-class SampleState(param.Parameterized):
-    """One simulated dataset, drawn with the scenario's n and seed, for the one-dataset view.
-
-    Examples
-    --------
-    >>> from workbench import load_preset
-    >>> sample = SampleState()
-    >>> sample.update(load_preset("common_cause"))
-    >>> sample.covariate
-    'soil_quality'
-    """
-
-    covariate = param.Selector(
-        default=None, objects=[], allow_None=True, doc="Variable that colours the points."
-    )
-    data = param.DataFrame(default=None, allow_None=True, doc="The dataset, or None before the first draw.")
-    draw_number = param.Integer(default=0, bounds=(0, None), doc="Which dataset: 0 uses the study seed.")
-    message = param.String(default="")
-
-    def __init__(self, **params):
-        super().__init__(**params)
-        self._scenario: Scenario | None = None
-
-    def update(self, scenario: Scenario) -> None:
-        """Redraw for a new scenario, keeping the chosen covariate when it still exists."""
-        self._scenario = scenario
-        q = scenario.question
-        choices = [n for n in scenario.names if n not in (q.exposure, q.outcome)]
-        current = self.covariate if self.covariate in choices else (choices[0] if choices else None)
-        self.param.covariate.objects = choices
-        with param.parameterized.batch_call_watchers(self):
-            self.covariate = current
-            self._draw()
-
-    @param.depends("draw_number", watch=True)
-    def _draw(self) -> None:
-        if self._scenario is None:
-            return
-        if not library_has("generate"):
-            self.data = None
-            self.message = "workbench.generate is not available yet"
-            return
-        from numpy.random import SeedSequence
-
-        from workbench.engine.generate import draw
-
-        seed = SeedSequence([self._scenario.study.seed, self.draw_number]).generate_state(1)[0]
-        try:
-            self.data = draw(self._scenario, self._scenario.study.n, seed=int(seed))
-            self.message = ""
-        except WorkbenchError as exc:
-            self.data = None
-            self.message = str(exc)
+        """One dict per strategy: name, adjust, model, standardize, selection, restrict, match, valid,
+        reasons (the last two from the check report; None and [] without one)."""
+        checked = {c.name: c for c in self.report.checks} if self.report is not None else {}
+        return [
+            {
+                "name": s.name,
+                "adjust": list(s.adjust),
+                "model": s.model,
+                "standardize": s.standardize,
+                "selection": s.selection,
+                "restrict": dict(s.restrict),
+                "match": list(s.match),
+                "valid": checked[s.name].valid if s.name in checked else None,
+                "reasons": list(checked[s.name].reasons) if s.name in checked else [],
+            }
+            for s in self.scenario.strategies
+        ]
 
 
 class Workbench(param.Parameterized):
@@ -983,7 +559,7 @@ class Workbench(param.Parameterized):
     background : bool
         Run computations in a worker thread (False runs them in the caller, for tests).
     deferred : bool
-        Queue the worker threads' updates until :meth:`poll` (see :class:`BackgroundJob`).
+        Queue the worker threads' updates until :meth:`poll` (see :class:`~workbench.app.runs.BackgroundJob`).
     """
 
     live = param.Boolean(default=True, doc="Re-run linear-Gaussian scenarios at once on every change.")
@@ -1004,6 +580,7 @@ class Workbench(param.Parameterized):
 
     @property
     def scenario(self) -> Scenario:
+        """The scenario in effect."""
         return self.scenario_state.scenario
 
     @property
@@ -1036,6 +613,7 @@ class Workbench(param.Parameterized):
         self.planning.cancel()
 
     def poll(self) -> None:
-        """Apply the progress and results the worker threads handed over (see :meth:`BackgroundJob.poll`)."""
+        """Apply the progress and results the worker threads handed over (see
+        :meth:`~workbench.app.runs.BackgroundJob.poll`)."""
         self.simulation.poll()
         self.planning.poll()

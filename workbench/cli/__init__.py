@@ -1,5 +1,76 @@
-"""The command line: ``workbench COMMAND ...``, a thin layer over the library (see :mod:`workbench.cli.commands`)."""
+"""The ``workbench`` command: a thin layer over the library.
 
-from workbench.cli.commands import build_parser, main
+Commands: ``check``, ``presets``, ``run``, ``plan``, ``serve`` (:mod:`workbench.cli.commands`), parsed by
+:mod:`workbench.cli.parser`; results are written by :mod:`workbench.cli.outputs`. A user mistake prints one
+line on stderr and exits 2; Ctrl-C at any moment exits 130 with one line and writes nothing.
 
-__all__ = ["main", "build_parser"]
+This module imports nothing heavy: each command imports the part of the library it needs when it runs, so
+``workbench --help`` starts in a fraction of a second.
+"""
+
+from __future__ import annotations
+
+import sys
+
+__all__ = ["main", "EXIT_OK", "EXIT_USER_ERROR", "EXIT_CANCELLED"]
+
+EXIT_OK = 0
+EXIT_USER_ERROR = 2
+EXIT_CANCELLED = 130
+
+
+def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    print(f"workbench: warning: {message}", file=sys.stderr)
+
+
+def _run(argv: list[str] | None) -> int:
+    import warnings
+
+    from workbench.cli.parser import build_parser
+    from workbench.errors import Cancelled, WorkbenchError
+
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as done:  # --help, --version, or an option error already printed in one line
+        return int(done.code or 0)
+    if not args.command:
+        parser.print_help()
+        return EXIT_USER_ERROR
+    warnings.showwarning = _show_warning
+    try:
+        return args.func(args)
+    except Cancelled as exc:
+        print(f"workbench: cancelled: {exc}", file=sys.stderr)
+        return EXIT_CANCELLED
+    except WorkbenchError as exc:
+        print(f"workbench: error: {exc}", file=sys.stderr)
+        return EXIT_USER_ERROR
+    except BrokenPipeError:
+        return EXIT_OK
+    except OSError as exc:  # writing an output: disk full, permissions, a vanished folder
+        where = f" '{exc.filename}'" if exc.filename else ""
+        print(f"workbench: error: cannot write{where}: {exc.strerror or exc}", file=sys.stderr)
+        return EXIT_USER_ERROR
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Run the command line; returns the exit code.
+
+    Ctrl-C is caught around everything, the imports of the command included, so it ends with exit code 130
+    and one line whenever it comes.
+
+    Examples
+    --------
+    >>> main(["check", "--preset", "no_such_preset"])
+    2
+    """
+    try:
+        return _run(argv)
+    except KeyboardInterrupt:
+        print("\nworkbench: cancelled by the user; nothing was written", file=sys.stderr)
+        return EXIT_CANCELLED
+
+
+if __name__ == "__main__":
+    sys.exit(main())

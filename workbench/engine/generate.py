@@ -58,6 +58,9 @@ import numpy as np
 import pandas as pd
 from scipy import optimize, special
 
+from workbench.engine.streams import generator
+from workbench.errors import SimulationError
+from workbench.scenario.constraints import check_setting
 from workbench.scenario.model import Scenario
 
 __all__ = [
@@ -72,7 +75,7 @@ __all__ = [
     "PIECE",
     "structure",
     "Structure",
-    "block_seed",
+    "graph_structure",
 ]
 
 PIECE = 2**16
@@ -151,7 +154,18 @@ def _share_gap(a: float, linear: np.ndarray, proportion: float) -> float:
 
 
 @functools.lru_cache(maxsize=64)
-def _structure_cached(variables: tuple, arrows: tuple) -> Structure:
+def graph_structure(variables: tuple, arrows: tuple) -> Structure:
+    """The structural equations of a graph given as a scenario's ``variables`` and ``arrows`` tuples, with
+    calibrated binary intercepts (cached per graph: scenarios that differ only in their question or
+    strategies share one).
+
+    Examples
+    --------
+    >>> from workbench import load_preset
+    >>> sc = load_preset("common_cause")
+    >>> graph_structure(sc.variables, sc.arrows) is structure(sc)
+    True
+    """
     bare = _bare_structure(variables, arrows)
     if not bare.binary.any():
         return bare
@@ -192,7 +206,7 @@ def structure(scenario: Scenario) -> Structure:
     >>> st.names, [st.names[j] for j in st.order]
     (('soil_quality', 'fertiliser', 'wheat_yield'), ['soil_quality', 'fertiliser', 'wheat_yield'])
     """
-    return _structure_cached(scenario.variables, scenario.arrows)
+    return graph_structure(scenario.variables, scenario.arrows)
 
 
 def calibrate_intercepts(scenario: Scenario) -> dict[str, float]:
@@ -413,14 +427,21 @@ def draw(scenario: Scenario, n: int, seed=None) -> pd.DataFrame:
     ----------
     scenario : Scenario
     n : int
-    seed : None, int or numpy.random.Generator
-        An integer gives the same data as replicate 0 of a simulation with that seed on the raw engine.
+    seed : None, int, numpy.random.SeedSequence or numpy.random.Generator
+        A Generator is drawn from as it is; otherwise the stream of replicate block 0
+        (:func:`workbench.engine.streams.generator`), so an integer gives the same data as replicate 0 of a
+        simulation with that seed on the raw engine.
 
     Returns
     -------
     pandas.DataFrame
         One column per variable in file order, latent ones included and listed in ``df.attrs["latent"]``;
         binary variables as 0.0/1.0.
+
+    Raises
+    ------
+    SimulationError
+        ``n`` not a positive integer, or an invalid ``seed``.
 
     Examples
     --------
@@ -429,31 +450,8 @@ def draw(scenario: Scenario, n: int, seed=None) -> pd.DataFrame:
     >>> df.shape
     (5, 3)
     """
-    from workbench.errors import SimulationError
-
-    if isinstance(n, bool) or not isinstance(n, int | np.integer) or n < 1:
-        raise SimulationError(f"draw: n must be a positive integer, got {n!r}")
-    if isinstance(seed, np.random.Generator):
-        rng = seed
-    else:
-        rng = np.random.default_rng(block_seed(seed, 0))
-    rows = draw_rows(scenario, int(n), 1, rng)[0]
+    n = check_setting("n", n, where="n", error=SimulationError)
+    rows = draw_rows(scenario, n, 1, generator(seed))[0]
     df = pd.DataFrame(np.array(rows), columns=scenario.names)
     df.attrs["latent"] = list(scenario.latent_names)
     return df
-
-
-def block_seed(seed, block: int) -> np.random.SeedSequence:
-    """The seed sequence of replicate block ``block``: child ``block`` of ``SeedSequence(seed)``.
-
-    Examples
-    --------
-    >>> block_seed(7, 2).spawn_key
-    (2,)
-    >>> block_seed(7, 2).entropy == np.random.SeedSequence(7).spawn(3)[2].entropy
-    True
-    """
-    root = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)
-    return np.random.SeedSequence(
-        root.entropy, spawn_key=tuple(root.spawn_key) + (block,), pool_size=root.pool_size
-    )

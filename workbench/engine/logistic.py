@@ -1,4 +1,4 @@
-"""Logistic regression fitted to many replicates at once, and standardised (marginal) contrasts from it.
+"""Logistic regression fitted to many replicates at once.
 
 Every function here works on stacked arrays: a design of shape (R, n, p) holds ``R`` replicate datasets of
 ``n`` rows and ``p`` columns (intercept first), an outcome of shape (R, n) holds their 0/1 outcomes. All
@@ -53,12 +53,7 @@ Failures
     problems never raise; only wrongly shaped arguments do.
 
 Standardisation
-    :func:`standardized_contrast` predicts every row with the exposure set to 1 and to 0 (a continuous
-    exposure: as observed and shifted by +1), averages over the rows of the replicate, and contrasts the two
-    means on the risk-difference or log-odds-ratio scale (the "g-formula" or regression standardisation;
-    Greenland, Robins & Pearl 1999 explain why this marginal contrast differs from the conditional odds
-    ratio even without confounding). Its standard error is by the delta method with the covariates held
-    fixed, the definition ``statsmodels`` uses for average discrete changes.
+    The marginal contrast from a fitted model is :func:`workbench.engine.standardize.standardized_contrast`.
 
 References
 ----------
@@ -66,9 +61,6 @@ References
 2. Boyd S., Vandenberghe L. (2004). Convex Optimization. Cambridge University Press, sec. 9.5.
 3. Albert A., Anderson J.A. (1984). On the existence of maximum likelihood estimates in logistic regression
    models. Biometrika 71(1):1-10.
-4. Greenland S., Robins J.M., Pearl J. (1999). Confounding and collapsibility in causal inference.
-   Statistical Science 14(1):29-46.
-5. Oehlert G.W. (1992). A note on the delta method. The American Statistician 46(1):27-29.
 
 Examples
 --------
@@ -89,26 +81,26 @@ from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.special import expit
 
 from workbench.errors import SimulationError
 
 __all__ = [
     "LogitFit",
     "fit_logit_batch",
-    "standardized_contrast",
     "design_matrix",
     "PERFECT_FIT_TOLERANCE",
+    "CACHE_BYTES",
 ]
 
 PERFECT_FIT_TOLERANCE = 1e-8
 """A row whose fitted probability lies within this distance of its 0/1 outcome counts as perfectly predicted."""
+CACHE_BYTES = 6 * 2**20
+"""Working set aimed at per block of replicates fitted together, in bytes (tuned on a 2-CPU EPYC)."""
 
 _MOVING = 1e-3  # last step still shifts the linear predictor by more than this: not a quadratic polish
 _CERTIFICATE_SLACK = 1e-6  # relative slack in the separation inequalities
 _SINGULAR = 1e-12  # smallest eigenvalue of the unit-diagonal information matrix below this: singular
 _HALVINGS = 30
-_CACHE_BYTES = 6 * 2**20  # working set of one block of replicates (tuned on a 2-CPU EPYC)
 _START_CLIP = 0.02  # linear-probability fitted values clipped to [0.02, 0.98] for the start (tuned)
 _EXTREME_ETA = 18.0  # |eta| beyond this puts a fitted probability within about 1.5e-8 of 0 or 1
 
@@ -339,10 +331,10 @@ def _invert(info: np.ndarray):
     return inverse, singular
 
 
-def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> LogitFit:
-    """:func:`fit_logit_batch` on one block of replicates, single-threaded."""
-    R, n, p = X.shape
-    Xt = np.ascontiguousarray(np.swapaxes(X, 1, 2))  # (R, p, n): the rows of each column contiguous
+def _usable_data(X: np.ndarray, y: np.ndarray):
+    """The block's designs transposed to (R, p, n) (each column's rows contiguous), and which replicates
+    have finite data and 0/1 outcomes: ``(Xt, y, finite, binary)``. Unusable replicates are zeroed."""
+    Xt = np.ascontiguousarray(np.swapaxes(X, 1, 2))
     with np.errstate(over="ignore", invalid="ignore"):
         finite = np.isfinite(np.sum(Xt, axis=(1, 2))) & np.isfinite(np.sum(y, axis=1))  # one pass
     if not finite.all():  # a sum can overflow with finite entries: look again element by element
@@ -352,17 +344,19 @@ def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> Logit
     if not usable.all():
         Xt[~usable] = 0.0
         y = np.where(usable[:, None], y, 0.0)
+    return Xt, y, finite, binary
 
+
+def _starting_point(Xt: np.ndarray, y: np.ndarray, products: _Products, usable: np.ndarray):
+    """Starting coefficients (R, p), linear predictors (R, n) and log-likelihoods (R,) (module notes).
+
+    Where the first column is a column of ones and both outcomes occur: the intercept-only fit (intercept
+    ``logit(mean y)``, slopes 0), or one reweighted least-squares step from the linear probability fit where
+    that has the higher log-likelihood; elsewhere zero.
+    """
+    R, p, n = Xt.shape
     beta = np.zeros((R, p))
-    last_step = np.zeros((R, p))
     eta = np.zeros((R, n))
-    mu = np.empty((R, n))
-    shift = np.empty((R, n))
-    residual = np.empty((R, n))
-    products = _Products(Xt)
-    column_size = np.max(np.abs(Xt), axis=2)  # (R, p): bounds |x' step| <= |step| . column_size
-    # Where the first column is a column of ones and both outcomes occur, start from the intercept-only fit:
-    # intercept logit(mean y), slopes 0; elsewhere from zero.
     mean_y = y.mean(axis=1)
     start = usable & (mean_y > 0) & (mean_y < 1) & np.all(Xt[:, 0, :] == 1.0, axis=1)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -371,7 +365,6 @@ def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> Logit
     eta += intercept[:, None]
     # log-likelihood at the current iterate, known exactly at the start
     loglik = n * (mean_y * intercept - np.logaddexp(0.0, intercept))
-    # A better start where it is one: its log-likelihood must beat that of the intercept-only fit.
     if start.any():
         better_beta, better_eta, better_loglik, better = _linear_probability_start(Xt, y, products, start)
         better &= better_loglik > loglik
@@ -381,26 +374,47 @@ def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> Logit
             beta[better] = better_beta[better]
             eta[better] = better_eta[better]
             loglik[better] = better_loglik[better]
-    iterations = np.zeros(R, dtype=int)
-    stopped = np.zeros(R, dtype=bool)  # stopping rule met
-    singular = np.zeros(R, dtype=bool)
-    active = usable.copy()
+    return beta, eta, loglik
 
-    for _ in range(max_iter):
-        idx = np.flatnonzero(active)
+
+class _Newton:
+    """The Newton-Raphson iterations of one block of replicates, all together (module notes).
+
+    A replicate leaves the work when its stopping rule is met or its information matrix is singular. While
+    at least half of the replicates are active the work is done in place on whole arrays (the others get a
+    zero step), afterwards on copies of the active rows.
+    """
+
+    def __init__(self, Xt, y, products: _Products, beta, eta, loglik, usable, tol: float):
+        R, p, n = Xt.shape
+        self.Xt, self.y, self.products, self.tol = Xt, y, products, tol
+        self.beta, self.eta, self.loglik = beta, eta, loglik
+        self.last_step = np.zeros((R, p))
+        self.mu = np.empty((R, n))
+        self.shift = np.empty((R, n))
+        self.residual = np.empty((R, n))
+        self.column_size = np.max(np.abs(Xt), axis=2)  # (R, p): bounds |x' step| <= |step| . column_size
+        self.iterations = np.zeros(R, dtype=int)
+        self.stopped = np.zeros(R, dtype=bool)  # stopping rule met
+        self.singular = np.zeros(R, dtype=bool)
+        self.active = usable.copy()
+
+    def iterate(self) -> bool:
+        """One Newton iteration of the active replicates; False when none was left."""
+        idx = np.flatnonzero(self.active)
         if idx.size == 0:
-            break
-        # Work on every replicate in place until the stopped ones are the majority, then on copies.
+            return False
+        R = self.active.size
         whole = 2 * idx.size >= R
         if whole:
-            rows, work = np.arange(R), active.copy()
-            Xt_a, y_a, eta_a, mu_a, shift_a, res_a = Xt, y, eta, mu, shift, residual
+            rows, work = np.arange(R), self.active.copy()
+            Xt, y, eta, mu, shift, residual = self.Xt, self.y, self.eta, self.mu, self.shift, self.residual
         else:
             rows, work = idx, np.ones(idx.size, dtype=bool)
-            Xt_a, y_a, eta_a = Xt[idx], y[idx], eta[idx]
-            mu_a, shift_a, res_a = np.empty_like(eta_a), np.empty_like(eta_a), np.empty_like(eta_a)
+            Xt, y, eta = self.Xt[idx], self.y[idx], self.eta[idx]
+            mu, shift, residual = np.empty_like(eta), np.empty_like(eta), np.empty_like(eta)
 
-        score, info = products(Xt_a, y_a, _sigmoid(eta_a, mu_a), res_a, None if whole else idx)
+        score, info = self.products(Xt, y, _sigmoid(eta, mu), residual, None if whole else idx)
         inverse, bad = _invert(info)
         step = np.matmul(inverse, score[..., None])[..., 0]
         every = bool(work.all())  # usually so: then no masking is needed below
@@ -408,67 +422,80 @@ def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> Logit
             bad &= work
             step[~work] = 0.0
         decrement = np.sum(score * step, axis=1)
-        np.matmul(step[:, None, :], Xt_a, out=shift_a[:, None, :])
-
-        # A large move of the linear predictor may overshoot: halve the step while the log-likelihood falls.
-        bound = np.sum(np.abs(step) * (column_size if whole else column_size[rows]), axis=1)
+        np.matmul(step[:, None, :], Xt, out=shift[:, None, :])
         keep = work & ~bad
+        column_size = self.column_size if whole else self.column_size[rows]
+        new_loglik = self._halve_steps(step, shift, eta, y, rows, keep, column_size)
+        if whole and every and not bad.any():  # every replicate takes its step: no index arrays
+            self._take_every_step(step, shift, new_loglik)
+        else:
+            self._take_steps(step, shift, eta, rows, keep, new_loglik, whole)
+        self.singular[rows[bad]] = True
+        done = rows[keep & (decrement / 2.0 <= self.tol)]
+        self.stopped[done] = True
+        self.active[done] = False
+        self.active[rows[bad]] = False
+        return True
+
+    def _halve_steps(self, step, shift, eta, y, rows, keep, column_size) -> np.ndarray:
+        """Halve, in place, each step that may move a linear predictor by more than 1 (a bound from the
+        column maxima) while the log-likelihood would fall, at most ``_HALVINGS`` times. Returns the
+        log-likelihoods after the steps where they were computed, NaN elsewhere."""
+        bound = np.sum(np.abs(step) * column_size, axis=1)
         big = np.flatnonzero(keep & (bound > 1.0))
         new_loglik = np.full(rows.size, np.nan)
-        if big.size:
-            old = loglik[rows[big]]
-            unknown = np.isnan(old)
-            if unknown.any():
-                old[unknown] = _softplus_sum(eta_a[big[unknown]], y_a[big[unknown]])
-            factor = np.ones(big.size)
-            if 2 * big.size >= rows.size:  # most rows: no copies, evaluate all at the full step
-                new = _softplus_sum(eta_a + shift_a, y_a)[big]
-            else:
-                new = _softplus_sum(eta_a[big] + shift_a[big], y_a[big])
-            for _h in range(_HALVINGS):
-                worse = ~(new >= old - 1e-12 * (1.0 + np.abs(old)))
-                if not worse.any():
-                    break
-                factor[worse] *= 0.5
-                trial = big[worse]
-                new[worse] = _softplus_sum(eta_a[trial] + factor[worse, None] * shift_a[trial], y_a[trial])
-            new_loglik[big] = new
-            step[big] *= factor[:, None]
-            shift_a[big] *= factor[:, None]
-
-        if whole and every and not bad.any():  # every replicate takes its step: no index arrays
-            beta += step
-            last_step[...] = step
-            eta += shift_a
-            loglik[...] = new_loglik  # NaN (not yet known) unless the halving check computed it
-            iterations += 1
+        if not big.size:
+            return new_loglik
+        old = self.loglik[rows[big]]
+        unknown = np.isnan(old)
+        if unknown.any():
+            old[unknown] = _softplus_sum(eta[big[unknown]], y[big[unknown]])
+        factor = np.ones(big.size)
+        if 2 * big.size >= rows.size:  # most rows: no copies, evaluate all at the full step
+            new = _softplus_sum(eta + shift, y)[big]
         else:
-            target = rows[keep]
-            beta[target] += step[keep]
-            last_step[target] = step[keep]
-            if whole:
-                shift_a[~keep] = 0.0
-                eta += shift_a
-            else:
-                eta[target] = eta_a[keep] + shift_a[keep]
-            loglik[target] = new_loglik[keep]
-            iterations[target] += 1
-        singular[rows[bad]] = True
-        done = rows[keep & (decrement / 2.0 <= tol)]
-        stopped[done] = True
-        active[done] = False
-        active[rows[bad]] = False
+            new = _softplus_sum(eta[big] + shift[big], y[big])
+        for _h in range(_HALVINGS):
+            worse = ~(new >= old - 1e-12 * (1.0 + np.abs(old)))
+            if not worse.any():
+                break
+            factor[worse] *= 0.5
+            trial = big[worse]
+            new[worse] = _softplus_sum(eta[trial] + factor[worse, None] * shift[trial], y[trial])
+        new_loglik[big] = new
+        step[big] *= factor[:, None]
+        shift[big] *= factor[:, None]
+        return new_loglik
 
-    # Information at the returned coefficients, for the covariance.
-    _sigmoid(eta, mu)
+    def _take_every_step(self, step, shift, new_loglik) -> None:
+        """Every replicate of the block takes its step (in place on the whole arrays)."""
+        self.beta += step
+        self.last_step[...] = step
+        self.eta += shift
+        self.loglik[...] = new_loglik  # NaN (not yet known) unless the halving check computed it
+        self.iterations += 1
+
+    def _take_steps(self, step, shift, eta, rows, keep, new_loglik, whole: bool) -> None:
+        """The replicates ``rows[keep]`` take their steps (``eta``, ``shift``: the arrays worked on)."""
+        target = rows[keep]
+        self.beta[target] += step[keep]
+        self.last_step[target] = step[keep]
+        if whole:
+            shift[~keep] = 0.0
+            self.eta += shift
+        else:
+            self.eta[target] = eta[keep] + shift[keep]
+        self.loglik[target] = new_loglik[keep]
+        self.iterations[target] += 1
+
+
+def _separation(Xt, y, eta, mu, last_step, usable) -> tuple[np.ndarray, np.ndarray]:
+    """Replicates whose last Newton step certifies separation, and those completely separated (module
+    notes): boolean arrays of shape (R,)."""
+    R = usable.size
     # A fitted probability within 1e-8 of 0 or 1 needs |eta| > 18.4: only such replicates can be separated.
     suspect = np.flatnonzero(usable & (np.maximum(eta.max(axis=1), -eta.min(axis=1)) > _EXTREME_ETA))
     perfect = np.abs(y[suspect] - mu[suspect]) < PERFECT_FIT_TOLERANCE
-    np.subtract(1.0, mu, out=residual)
-    residual *= mu  # the weights mu (1 - mu)
-    cov, bad_final = _invert(products.information(Xt, residual))
-
-    # Separation: certificate check on the last Newton step (module notes).
     moves = np.matmul(last_step[suspect, None, :], Xt[suspect])[:, 0, :]
     largest = np.maximum(moves.max(axis=1, initial=0.0), -moves.min(axis=1, initial=0.0))
     margin = np.min((2.0 * y[suspect] - 1.0) * moves, axis=1, initial=np.inf)
@@ -477,24 +504,48 @@ def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> Logit
     complete = np.zeros(R, dtype=bool)
     separated[suspect] = certified
     complete[suspect] = certified & np.all(perfect, axis=1)
+    return separated, complete
 
-    failure = np.full(R, "", dtype=object)
-    failure[usable & ~stopped] = f"did not converge in {max_iter} iterations"
-    failure[usable & (singular | bad_final)] = "singular information matrix"
+
+def _failure_reasons(newton: _Newton, singular_at_end, separated, complete, finite, binary, max_iter):
+    """Each replicate's failure reason, ``""`` for a good fit; a later rule overrides an earlier one."""
+    usable = finite & binary
+    failure = np.full(usable.size, "", dtype=object)
+    failure[usable & ~newton.stopped] = f"did not converge in {max_iter} iterations"
+    failure[usable & (newton.singular | singular_at_end)] = "singular information matrix"
     failure[separated] = "quasi-complete separation"
     failure[complete] = "complete separation"
     failure[finite & ~binary] = "outcome values other than 0 and 1"
     failure[~finite] = "non-finite values in the data"
-    failed = failure != ""
+    return failure
 
-    beta[failed] = np.nan
+
+def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> LogitFit:
+    """:func:`fit_logit_batch` on one block of replicates, single-threaded."""
+    Xt, y, finite, binary = _usable_data(X, y)
+    usable = finite & binary
+    products = _Products(Xt)
+    beta, eta, loglik = _starting_point(Xt, y, products, usable)
+    newton = _Newton(Xt, y, products, beta, eta, loglik, usable, tol)
+    for _ in range(max_iter):
+        if not newton.iterate():
+            break
+    # Information at the returned coefficients, for the covariance.
+    mu = _sigmoid(newton.eta, newton.mu)
+    separated, complete = _separation(Xt, y, newton.eta, mu, newton.last_step, usable)
+    weights = np.subtract(1.0, mu, out=newton.residual)
+    weights *= mu  # the weights mu (1 - mu)
+    cov, singular_at_end = _invert(products.information(Xt, weights))
+    failure = _failure_reasons(newton, singular_at_end, separated, complete, finite, binary, max_iter)
+    failed = failure != ""
+    newton.beta[failed] = np.nan
     cov[failed] = np.nan
     return LogitFit(
-        coef=beta,
+        coef=newton.beta,
         cov=cov,
-        converged=stopped & ~failed,
+        converged=newton.stopped & ~failed,
         failure=failure,
-        iterations=iterations,
+        iterations=newton.iterations,
     )
 
 
@@ -563,7 +614,7 @@ def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10, workers: in
     # Blocks of replicates small enough for the working arrays to stay in the processor cache (about
     # 6 MiB each) are much faster than one pass over everything, whose arrays stream from memory.
     per_replicate = 8 * n * (p * (p + 1) // 2 + p + 6)
-    size = int(np.clip(_CACHE_BYTES // max(per_replicate, 1), 8, max(R, 1)))
+    size = int(np.clip(CACHE_BYTES // max(per_replicate, 1), 8, max(R, 1)))
     blocks = [slice(start, min(start + size, R)) for start in range(0, R, size)] or [slice(0, 0)]
     workers = max(1, min(int(workers), len(blocks)))
 
@@ -584,95 +635,3 @@ def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10, workers: in
         failure=np.concatenate([f.failure for f in parts]),
         iterations=np.concatenate([f.iterations for f in parts]),
     )
-
-
-def standardized_contrast(
-    fit: LogitFit,
-    X,
-    exposure_column: int,
-    *,
-    exposure_kind: str = "binary",
-    scale: str = "difference",
-) -> tuple[np.ndarray, np.ndarray]:
-    """Marginal contrast by standardisation over each replicate's rows, with its delta-method SE.
-
-    Each row is predicted with the exposure set to 1 and to 0 (``exposure_kind="binary"``), or as observed
-    and shifted by +1 (``"continuous"``); the predictions are averaged over the rows to ``m1`` and ``m0``
-    and contrasted: ``m1 - m0`` (``scale="difference"``, a risk difference) or
-    ``logit(m1) - logit(m0)`` (``"log_odds_ratio"``, the marginal log odds ratio).
-
-    Parameters
-    ----------
-    fit : LogitFit
-        From :func:`fit_logit_batch` on ``X``.
-    X : array_like of shape (R, n, p)
-        The designs the model was fitted on.
-    exposure_column : int
-        Column of ``X`` holding the exposure (1 with :func:`design_matrix`).
-    exposure_kind : {"binary", "continuous"}, default "binary"
-    scale : {"difference", "log_odds_ratio"}, default "difference"
-
-    Returns
-    -------
-    estimate : ndarray of shape (R,)
-    se : ndarray of shape (R,)
-        ``sqrt(g' cov g)`` with ``g`` the gradient of the contrast with respect to the coefficients, the
-        covariates held fixed. NaN for failed replicates.
-
-    References
-    ----------
-    Greenland S., Robins J.M., Pearl J. (1999). Statistical Science 14(1):29-46.
-    Oehlert G.W. (1992). A note on the delta method. The American Statistician 46(1):27-29.
-
-    Examples
-    --------
-    >>> import numpy as np
-    >>> rng = np.random.default_rng(7)
-    >>> data = np.stack([rng.integers(0, 2, (2, 500)), rng.normal(size=(2, 500))], axis=-1)
-    >>> X = design_matrix(data, 0, [1])
-    >>> y = (rng.random((2, 500)) < 1 / (1 + np.exp(-(X[..., 1] + 2 * X[..., 2])))).astype(float)
-    >>> estimate, se = standardized_contrast(fit_logit_batch(X, y), X, 1)
-    >>> estimate.shape, bool(np.all((se > 0) & (se < 0.1)))
-    ((2,), True)
-    """
-    if exposure_kind not in ("binary", "continuous"):
-        raise SimulationError(
-            f"standardized_contrast: exposure_kind must be 'binary' or 'continuous', got {exposure_kind!r}"
-        )
-    if scale not in ("difference", "log_odds_ratio"):
-        raise SimulationError(
-            f"standardized_contrast: scale must be 'difference' or 'log_odds_ratio', got {scale!r}"
-        )
-    X = np.asarray(X, dtype=float)
-    j = int(exposure_column)
-    beta = fit.coef
-    n = X.shape[1]
-    eta = np.matmul(X, beta[..., None])[..., 0]
-    x = X[..., j]
-    bj = beta[:, j : j + 1]
-    if exposure_kind == "binary":
-        eta1 = eta + (1.0 - x) * bj
-        eta0 = eta - x * bj
-        x1, x0 = np.ones_like(x), np.zeros_like(x)
-    else:
-        eta1 = eta + bj
-        eta0 = eta
-        x1, x0 = x + 1.0, x
-    p1, p0 = expit(eta1), expit(eta0)
-    w1, w0 = p1 * (1.0 - p1), p0 * (1.0 - p0)
-    m1, m0 = p1.mean(axis=1), p0.mean(axis=1)
-    # d m / d beta = mean over rows of p (1 - p) x_row, with the exposure column at its set value.
-    g1 = np.matmul(w1[:, None, :], X)[:, 0, :] / n
-    g0 = np.matmul(w0[:, None, :], X)[:, 0, :] / n
-    g1[:, j] = np.mean(w1 * x1, axis=1)
-    g0[:, j] = np.mean(w0 * x0, axis=1)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        if scale == "difference":
-            estimate = m1 - m0
-            grad = g1 - g0
-        else:
-            estimate = np.log(m1 / (1.0 - m1)) - np.log(m0 / (1.0 - m0))
-            grad = g1 / (m1 * (1.0 - m1))[:, None] - g0 / (m0 * (1.0 - m0))[:, None]
-        variance = np.einsum("ri,rij,rj->r", grad, fit.cov, grad)
-        se = np.sqrt(variance)
-    return estimate, se

@@ -28,11 +28,11 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import special
 
+from workbench.scenario.model import CHANGE_THRESHOLD, SELECTIONS
+
 __all__ = [
     "PIVOT_TOLERANCE",
     "BatchFit",
-    "CHANGE_THRESHOLD",
-    "SELECTION_RULES",
     "crossproducts",
     "masked_crossproducts",
     "fit_crossproducts",
@@ -45,10 +45,6 @@ __all__ = [
 ]
 
 PIVOT_TOLERANCE = 1e-10
-SELECTION_RULES = ("p_value", "change_in_estimate")
-CHANGE_THRESHOLD = 0.10
-"""The change-in-estimate rule keeps a candidate whose removal moves the exposure's coefficient by more than
-this share of the full-model coefficient (Mickey & Greenland 1989)."""
 
 
 @dataclass
@@ -305,8 +301,8 @@ def select_covariates(
     1
     """
     candidates = list(candidates)
-    if rule not in SELECTION_RULES:
-        raise ValueError(f"rule: must be one of {SELECTION_RULES}, got {rule!r}")
+    if rule not in SELECTIONS:
+        raise ValueError(f"rule: must be one of {SELECTIONS}, got {rule!r}")
     k = len(candidates)
     full = fit_crossproducts(S, n, outcome, [exposure, *candidates], names)
     if rule == "p_value":

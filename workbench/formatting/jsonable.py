@@ -11,7 +11,8 @@ import math
 from typing import Any
 
 import numpy as np
-import pandas as pd
+
+from workbench.formatting.numbers import is_pandas_missing
 
 __all__ = ["to_jsonable"]
 
@@ -39,6 +40,6 @@ def to_jsonable(value: Any) -> Any:
         return value if math.isfinite(value) else None
     if value is None or isinstance(value, int | str):
         return value
-    if value is pd.NA or value is pd.NaT:
+    if is_pandas_missing(value):
         return None
     return value

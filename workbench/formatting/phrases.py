@@ -3,6 +3,11 @@ restriction and matching read in words, and which sets a selection rule chose.
 
 The command line's tables, the dashboard, the explanations and the HTML report all call these, so one
 strategy reads the same everywhere.
+
+Examples
+--------
+>>> strategy_text(["soil_quality"], None, {"farm_size": [1, 5]}, ["region"])
+'soil_quality; only units with farm_size in [1, 5]; matched on region'
 """
 
 from __future__ import annotations
@@ -10,10 +15,53 @@ from __future__ import annotations
 import math
 from typing import Any
 
-__all__ = ["strategy_text", "selected_sets_text", "restriction_text", "RULE_NAMES"]
+__all__ = [
+    "strategy_text",
+    "selected_sets_text",
+    "restriction_text",
+    "kept_units_text",
+    "match_text",
+    "names_in_words",
+    "rule_sentence",
+    "RULE_NAMES",
+    "RULE_SENTENCES",
+]
 
 RULE_NAMES = {"p_value": "p-value", "change_in_estimate": "change in estimate > 10%"}
 """Short names of the data-driven selection rules."""
+
+RULE_SENTENCES = {
+    "p_value": "whose coefficient is significant (p < alpha)",
+    "change_in_estimate": "whose removal changes the estimate by more than 10%",
+}
+"""What each selection rule keeps, as the end of the sentence "keeping among the candidates those ..."."""
+
+
+def rule_sentence(selection: str) -> str:
+    """Which candidates a selection rule keeps, in words (the rule's own name when it has no sentence).
+
+    Examples
+    --------
+    >>> rule_sentence("p_value")
+    'whose coefficient is significant (p < alpha)'
+    """
+    return RULE_SENTENCES.get(selection, selection)
+
+
+def names_in_words(names: Any) -> str:
+    """Variable names as a list in prose: ``nothing``, ``a``, ``a and b``, ``a, b and c``.
+
+    Examples
+    --------
+    >>> names_in_words([]), names_in_words(["a"]), names_in_words(["a", "b", "c"])
+    ('nothing', 'a', 'a, b and c')
+    """
+    names = [str(n) for n in names or ()]
+    if not names:
+        return "nothing"
+    if len(names) == 1:
+        return names[0]
+    return ", ".join(names[:-1]) + " and " + names[-1]
 
 
 def restriction_text(restrict: Any) -> str:
@@ -34,6 +82,30 @@ def restriction_text(restrict: Any) -> str:
     )
 
 
+def kept_units_text(restrict: Any) -> str:
+    """The units a restriction keeps: ``only units with shift = 0`` ('' without a restriction).
+
+    Examples
+    --------
+    >>> kept_units_text({"shift": 0}), kept_units_text({})
+    ('only units with shift = 0', '')
+    """
+    return "only units with " + restriction_text(restrict) if restrict else ""
+
+
+def match_text(match: Any) -> str:
+    """The variables a strategy matches on: ``matched on night_shift`` ('' without matching).
+
+    Examples
+    --------
+    >>> match_text(["night_shift", "site"]), match_text(())
+    ('matched on night_shift, site', '')
+    """
+    if not isinstance(match, list | tuple) or not match:
+        return ""
+    return "matched on " + ", ".join(str(m) for m in match)
+
+
 def strategy_text(adjust: Any, selection: Any = None, restrict: Any = None, match: Any = None) -> str:
     """What a strategy adjusts for, in words, with how the set is chosen and the units it keeps.
 
@@ -52,9 +124,9 @@ def strategy_text(adjust: Any, selection: Any = None, restrict: Any = None, matc
         rule = RULE_NAMES.get(selection, selection)
         text = f"chosen by {rule} from {text}"
     if restrict:
-        text += "; only units with " + restriction_text(restrict)
-    if isinstance(match, list | tuple) and match:
-        text += "; matched on " + ", ".join(str(m) for m in match)
+        text += "; " + kept_units_text(restrict)
+    if match_text(match):
+        text += "; " + match_text(match)
     return text
 
 

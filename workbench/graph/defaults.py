@@ -47,7 +47,7 @@ import dataclasses
 import functools
 import os
 
-from workbench.graph.adjustment import minimal_sets, optimal_set
+from workbench.graph.search import minimal_sets, optimal_set
 from workbench.scenario.model import Scenario, Strategy
 from workbench.scenario.parse import check_sizes, parse_scenario, parse_scenario_text, read_scenario
 from workbench.scenario.presets import read_preset

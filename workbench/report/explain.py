@@ -4,6 +4,14 @@
 result (:func:`workbench.analysis.simulate.simulate`) into one short story per strategy: what it adjusts for, which
 paths between the exposure and the outcome that opens or blocks, the resulting bias and coverage with numbers
 from the run, and a recommendation. The dashboard's Explain tab and the HTML report show the same stories.
+Each part of a story is one step: the method, the paths, how the set was chosen and the units kept, the
+run's numbers (or the large-sample figures) and the recommendation.
+
+The stories share their rules and words with the tables: a valid strategy the run shows biased
+(:func:`workbench.engine.metrics.is_biased`) is not recommended, coverage is called off by
+:func:`workbench.engine.metrics.coverage_is_off`, restrictions, matching and selection rules read as in
+:mod:`workbench.formatting.phrases`, and a Monte Carlo estimate is rounded to its MCSE by
+:func:`workbench.formatting.numbers.with_mcse`.
 
 The words follow the adjustment criterion for total effects and the single-door criterion for direct effects
 (Pearl J. (2009). Causality, 2nd ed., Def. 3.3.1 and Thm 5.3.1; Shpitser I., VanderWeele T., Robins J.
@@ -29,8 +37,17 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
-from workbench.analysis.check import ASSUMPTION, CheckReport
-from workbench.report.tables import selected_sets_text, strategy_text, with_mcse
+from workbench.analysis.check import ASSUMPTION, CheckReport, StrategyCheck
+from workbench.engine.metrics import coverage_is_off, is_biased
+from workbench.formatting.numbers import with_mcse
+from workbench.formatting.phrases import (
+    RULE_NAMES,
+    kept_units_text,
+    match_text,
+    names_in_words,
+    rule_sentence,
+    selected_sets_text,
+)
 
 __all__ = ["ASSUMPTION_NOTE", "Story", "explain"]
 
@@ -86,19 +103,6 @@ class Story:
         return body + f"<p style='margin:3px 0'><b>{html.escape(self.recommendation)}</b></p>"
 
 
-#: How a selection rule is named in a title and described in a sentence.
-_RULES = {"p_value": "by p-value", "change_in_estimate": "by change in estimate"}
-_RULE_WORDS = {
-    "p_value": "whose coefficient is significant (p < alpha)",
-    "change_in_estimate": "whose removal changes the estimate by more than 10%",
-}
-
-
-def _restriction(restrict: dict) -> str:
-    """``{"shift": 0, "age": [1, 5]}`` as ``shift = 0, age in [1, 5]``."""
-    return strategy_text([], None, restrict).split("only units with ", 1)[-1]
-
-
 def _sentence(note: str, names) -> str:
     """A note as a sentence: a capital first letter (unless it starts with a variable's name, which keeps
     its spelling) and a full stop."""
@@ -108,6 +112,7 @@ def _sentence(note: str, names) -> str:
 
 
 def _number(value: Any) -> float | None:
+    """A finite float, or None for anything missing (a story leaves out what it cannot say)."""
     try:
         number = float(value)
     except (TypeError, ValueError):
@@ -115,23 +120,299 @@ def _number(value: Any) -> float | None:
     return number if math.isfinite(number) else None
 
 
-def _sets(names) -> str:
-    names = list(names)
-    if not names:
-        return "nothing"
-    if len(names) == 1:
-        return names[0]
-    return ", ".join(names[:-1]) + " and " + names[-1]
+# ------------------------------------------------------------------------------------------------------
+# What the stories share: the run's rows, the truth, and which strategy is the most precise usable one
+# ------------------------------------------------------------------------------------------------------
+@dataclass
+class _Context:
+    """What every story of one explanation reads: the scenario, the run's rows by strategy name, alpha and
+    the truth; then which strategies are usable and the most precise usable one per scale and truth."""
+
+    report: CheckReport
+    result: Any
+    sim: dict[str, dict]
+    alpha: float
+    truth: float | None
+    usable: list[str] = field(default_factory=list)
+    precision: dict[str, float] = field(default_factory=dict)
+    best_in: dict[tuple[str, float], str] = field(default_factory=dict)
+
+    @property
+    def nominal(self) -> float:
+        return 1 - self.alpha
+
+    def off_target(self, name: str) -> bool:
+        """A valid set whose estimates still miss the truth clearly in the run (e.g. a conditional odds
+        ratio scored against a marginal one): biased by :func:`workbench.engine.metrics.is_biased`."""
+        row = self.sim.get(name)
+        if row is None:
+            return False
+        row_truth = _number(row.get("truth"))
+        scale = row_truth if row_truth else (self.truth if self.truth is not None else math.nan)
+        return is_biased(row.get("bias"), row.get("bias_mcse"), scale)
+
+    def group(self, name: str) -> tuple[str, float]:
+        """Strategies compared for precision: same scale and same truth."""
+        row = self.sim.get(name, {})
+        estimand = str(row.get("estimand") or "effect")
+        row_truth = _number(row.get("truth"))
+        return (
+            "log odds ratio" if "log odds" in estimand else estimand,
+            round(row_truth if row_truth is not None else (self.truth or 0.0), 9),
+        )
+
+    def doubtful_selection(self, s: StrategyCheck) -> bool:
+        """A set chosen from the data counts as usable only when the run shows it valid in >= 95% of
+        studies."""
+        if s.selection is None:
+            return False
+        share = _number(self.sim.get(s.name, {}).get("selected_valid_share"))
+        return share is None or share < 0.95
 
 
-def _rows_by_name(result) -> dict[str, dict]:
-    if result is None:
-        return {}
-    return {str(r["name"]): r for r in result.table.to_dict("records")}
+def _context(report: CheckReport, result) -> _Context:
+    """The shared facts, with the usable strategies ranked by precision: the run's empirical SE, or without
+    a run the closed form's large-sample SE factor."""
+    sim = {} if result is None else {str(r["name"]): r for r in result.table.to_dict("records")}
+    ctx = _Context(
+        report=report,
+        result=result,
+        sim=sim,
+        alpha=report.scenario.study.alpha if result is None else float(result.alpha),
+        truth=_number(result.truth) if result is not None else _number(report.truth),
+    )
+    ctx.usable = [
+        s.name
+        for s in report.checks
+        if s.valid and not ctx.off_target(s.name) and not ctx.doubtful_selection(s)
+    ]
+    for s in report.checks:
+        if s.name not in ctx.usable:
+            continue
+        if sim:
+            se = _number(sim.get(s.name, {}).get("emp_se"))
+        else:
+            se = _number(s.large_sample_se_factor)
+        if se is not None:
+            ctx.precision[s.name] = se
+    for candidate, se in ctx.precision.items():
+        current = ctx.best_in.get(ctx.group(candidate))
+        if current is None or se < ctx.precision[current]:
+            ctx.best_in[ctx.group(candidate)] = candidate
+    return ctx
+
+
+# ------------------------------------------------------------------------------------------------------
+# The parts of one story
+# ------------------------------------------------------------------------------------------------------
+def _title(s: StrategyCheck) -> str:
+    """One line: the name, the set (or the candidates and the rule), the units kept and the verdict."""
+    adjust, selection = list(s.adjust), s.selection
+    verdict = "valid" if s.valid else "invalid"
+    if selection:
+        head = f"{s.name}: chooses from {names_in_words(adjust)} by {RULE_NAMES.get(selection, selection)}"
+        verdict = f"candidates {verdict}"
+    else:
+        head = f"{s.name}: adjusts for {names_in_words(adjust)}"
+    kept = [kept_units_text(s.restrict), match_text(list(s.match))]
+    return ", ".join([head, *(k for k in kept if k)]) + f" ({verdict})"
+
+
+def _method_paragraphs(s: StrategyCheck, q) -> list[str]:
+    """What the strategy fits, and how it chooses its set, restricts or matches."""
+    adjust, selection, restrict, match = list(s.adjust), s.selection, s.restrict, list(s.match)
+    what = {
+        "ols": "a linear regression",
+        "logit": "a logistic regression" + (" standardised to the whole sample" if s.standardize else ""),
+    }.get(s.model, s.model)
+    if selection:
+        fits = (
+            f"It fits {what} of {q.outcome} on {q.exposure} and the covariates it keeps: the set is "
+            f"chosen from the data in each study, keeping among {names_in_words(adjust)} those "
+            f"{rule_sentence(selection)}."
+        )
+    elif adjust:
+        fits = f"It fits {what} of {q.outcome} on {q.exposure} and {names_in_words(adjust)}."
+    elif restrict or match:
+        fits = f"It fits {what} of {q.outcome} on {q.exposure} alone, within the units kept."
+    else:
+        fits = f"It fits {what} of {q.outcome} on {q.exposure} alone, the raw comparison."
+    paragraphs = [fits]
+    if restrict:
+        like = (
+            "that variable much as adjusting for it"
+            if len(restrict) == 1
+            else "those variables much as adjusting for them"
+        )
+        paragraphs.append(f"It analyses {kept_units_text(restrict)}, which conditions on {like} would.")
+    if match:
+        paragraphs.append(
+            f"It first pairs each unit with {q.exposure} = 1 with one with {q.exposure} = 0 and the same "
+            f"{', '.join(match)}, and drops the units left unpaired: this balances the matched variables "
+            "between the groups by design."
+        )
+    return paragraphs
+
+
+def _path_paragraphs(s: StrategyCheck, q, names) -> list[str]:
+    """The non-causal paths the strategy blocks or leaves open, causal paths it cuts, why it fails and
+    its precision notes."""
+    open_noncausal = [p.text for p in s.open_paths if not p.causal]
+    blocked_noncausal = [p.text for p in s.blocked_paths if not p.causal]
+    blocked_causal = [p.text for p in s.blocked_paths if p.causal]
+    paragraphs = []
+    if blocked_noncausal:
+        word = "path" if len(blocked_noncausal) == 1 else "paths"
+        paragraphs.append(f"It blocks the non-causal {word} {'; '.join(blocked_noncausal)}.")
+    if open_noncausal:
+        word = "path" if len(open_noncausal) == 1 else "paths"
+        paragraphs.append(
+            f"It leaves the non-causal {word} {'; '.join(open_noncausal)} open, so part of "
+            f"the association between {q.exposure} and {q.outcome} is not their effect."
+        )
+    if blocked_causal and q.target == "total":
+        paragraphs.append(f"It cuts part of the effect itself by blocking {'; '.join(blocked_causal)}.")
+    if not s.valid:
+        other = [r for r in s.reasons if not r.startswith("leaves the non-causal")]
+        if other:
+            paragraphs.append("Why it fails: " + "; ".join(other) + ".")
+    paragraphs += [_sentence(note, names) for note in s.notes]
+    return paragraphs
+
+
+def _choice_paragraphs(ctx: _Context, s: StrategyCheck, row: dict | None) -> list[str]:
+    """How often a set chosen from the data was valid in the run (or which set the rule keeps in a very
+    large sample), and how many units a restriction or matching kept."""
+    study = ctx.report.scenario.study
+    selection = s.selection
+    paragraphs = []
+    valid_share = _number(row.get("selected_valid_share")) if row is not None else None
+    if selection and row is not None and valid_share is not None:
+        chosen = selected_sets_text(row.get("selected_sets"))
+        paragraphs.append(
+            f"The set is chosen from the data: in {valid_share:.0%} of the simulated studies the chosen "
+            f"set was valid" + (f"; chosen most often: {chosen}" if chosen else "") + "."
+        )
+    elif selection and s.large_sample_selected is not None:
+        paragraphs.append(
+            f"In a very large sample the rule would keep {names_in_words(s.large_sample_selected)}; in a "
+            f"study of n = {study.n} it may keep another set: run the simulation to see how often."
+        )
+    kept = _number(row.get("mean_retained_n")) if row is not None else None
+    if (s.restrict or s.match) and kept is not None:
+        paragraphs.append(f"On average {kept:.0f} of the {ctx.result.n:,} units were kept.")
+    return paragraphs
+
+
+def _bias_text(bias: float, bias_mcse: float | None, truth: float) -> str:
+    """The mean error in words, rounded to its Monte Carlo SE, with its share of the true effect."""
+    size = with_mcse(bias, bias_mcse)
+    rel = ""
+    if truth:
+        share = 100 * abs(bias) / abs(truth)
+        rel = (
+            f", {share:.0f}% of the true effect {truth:.3g}"
+            if share >= 1
+            else f", under 1% of the true effect {truth:.3g}"
+        )
+    return f"across the simulated studies its estimates were off by {size} on average{rel}"
+
+
+def _run_paragraphs(ctx: _Context, row: dict, names) -> list[str]:
+    """The run's bias, coverage, empirical SE and power for the strategy, and the run's note on it."""
+    row_truth = _number(row.get("truth"))
+    row_truth = ctx.truth if row_truth is None else row_truth
+    bias, bias_mcse = _number(row.get("bias")), _number(row.get("bias_mcse"))
+    cov, cov_mcse = _number(row.get("coverage")), _number(row.get("coverage_mcse"))
+    emp_se, power = _number(row.get("emp_se")), _number(row.get("power"))
+    numbers = []
+    if bias is not None and row_truth is not None:
+        numbers.append(_bias_text(bias, bias_mcse, row_truth))
+    if cov is not None:
+        cov_text = f"its {ctx.nominal:.0%} confidence intervals covered the truth in {cov:.1%} of studies"
+        if coverage_is_off(cov, cov_mcse, ctx.nominal):
+            cov_text += f" (they should in {ctx.nominal:.0%})"
+        numbers.append(cov_text)
+    if emp_se is not None:
+        numbers.append(f"its estimates varied with a standard error of {emp_se:.3g}")
+    if power is not None:
+        numbers.append(f"it found an effect (p < {ctx.alpha:g}) in {power:.0%} of studies")
+    paragraphs = ["In the simulation, " + "; ".join(numbers) + "."] if numbers else []
+    if row.get("note"):
+        paragraphs.append(_sentence(str(row["note"]), names))
+    return paragraphs
+
+
+def _large_sample_paragraphs(ctx: _Context, s: StrategyCheck) -> list[str]:
+    """Without a run: the closed form's large-sample estimate against the truth."""
+    ls_bias = _number(s.large_sample_bias)
+    if ls_bias is None or ctx.truth is None:
+        return []
+    truth = ctx.truth
+    return [
+        f"In a very large sample its estimate would be {truth + ls_bias:.3g} against a true effect "
+        f"of {truth:.3g} (bias {ls_bias:+.3g}). Run the simulation to see coverage and precision at "
+        f"n = {ctx.report.scenario.study.n}."
+    ]
+
+
+def _recommendation(ctx: _Context, s: StrategyCheck, row: dict | None) -> str:
+    """Use it, prefer another, wait for a run, or not: from the verdict, the run and the precision ranking."""
+    name, selection = s.name, s.selection
+    valid_share = _number(row.get("selected_valid_share")) if row is not None else None
+    if selection and valid_share is None and s.valid:
+        return (
+            "Depends on the data: the candidates include a valid set, but each study keeps its own "
+            "choice. Run the simulation to see how often the chosen set is valid."
+        )
+    if selection and valid_share is not None and valid_share < 0.95:
+        return (
+            f"Not recommended: the set chosen from the data was valid in only {valid_share:.0%} of "
+            "studies, and the reported intervals ignore the choice. Fix the set from the graph instead."
+        )
+    if s.valid and ctx.off_target(name):
+        return (
+            "Not recommended for this question: the adjustment set is valid, but the simulated "
+            "estimates miss the quantity asked for (see the note above)."
+        )
+    if s.valid:
+        return _valid_recommendation(ctx, name)
+    if ctx.usable:
+        return "Not recommended: it answers a different question than the one asked."
+    return (
+        "Not recommended, but no strategy here is valid: under this graph no set of "
+        "observed variables removes the bias. Measuring the latent variables or "
+        "another design is needed."
+    )
+
+
+def _valid_recommendation(ctx: _Context, name: str) -> str:
+    """A usable valid strategy: recommended when it is the most precise of its scale, else name the
+    better one and how much larger its SE is."""
+    best = ctx.best_in.get(ctx.group(name))
+    if best is None or name == best:
+        several_scales = len({ctx.group(u) for u in ctx.usable}) > 1
+        where = f" for the {ctx.group(name)[0]}" if several_scales else " here"
+        return "Recommended: valid" + (
+            f", and the most precise valid strategy{where}."
+            if len(ctx.usable) > 1
+            else ", the only valid one."
+        )
+    ratio = ctx.precision.get(name, math.nan) / ctx.precision[best]
+    extra = (
+        f" (its standard error is {100 * (ratio - 1):.0f}% larger)"
+        if math.isfinite(ratio) and ratio > 1.005
+        else ""
+    )
+    return f"Valid, but {best} estimates the same effect more precisely{extra}."
 
 
 def explain(report: CheckReport, result=None) -> list[Story]:
     """One plain-language story per strategy.
+
+    Each story tells, in order: what the strategy fits (:func:`_method_paragraphs`), the paths it blocks or
+    leaves open (:func:`_path_paragraphs`), how its set was chosen and the units kept
+    (:func:`_choice_paragraphs`), the run's numbers or the large-sample figures, and a recommendation.
 
     Parameters
     ----------
@@ -156,244 +437,18 @@ def explain(report: CheckReport, result=None) -> list[Story]:
     >>> print(story.paragraphs[1])
     It blocks the non-causal path fertiliser <- soil_quality -> wheat_yield.
     """
+    ctx = _context(report, result)
     scenario = report.scenario
-    q = scenario.question
-    sim = _rows_by_name(result)
-    alpha = scenario.study.alpha if result is None else float(getattr(result, "alpha", scenario.study.alpha))
-    truth = _number(result.truth) if result is not None else _number(report.truth)
-    nominal = 1 - alpha
-
-    def off_target(name: str) -> bool:
-        """A valid set whose estimates still miss the truth clearly in the run (e.g. a conditional odds
-        ratio scored against a marginal one): |bias| over 3 MCSE and at least 5% of the truth."""
-        row = sim.get(name)
-        if row is None:
-            return False
-        bias, mcse, row_truth = (_number(row.get(k)) for k in ("bias", "bias_mcse", "truth"))
-        if bias is None or mcse is None:
-            return False
-        scale = abs(row_truth) if row_truth else abs(truth or 0.0)
-        return abs(bias) > 3 * mcse and (scale == 0 or abs(bias) >= 0.05 * scale)
-
-    def group(name: str) -> tuple[str, float]:
-        """Strategies compared for precision: same scale and same truth."""
-        row = sim.get(name, {})
-        estimand = str(row.get("estimand") or "effect")
-        row_truth = _number(row.get("truth"))
-        return (
-            "log odds ratio" if "log odds" in estimand else estimand,
-            round(row_truth if row_truth is not None else (truth or 0.0), 9),
-        )
-
-    def doubtful_selection(s: dict) -> bool:
-        """A set chosen from the data counts as usable only when the run shows it valid in >= 95% of
-        studies."""
-        if not isinstance(s.get("selection"), str):
-            return False
-        share = _number(sim.get(s["name"], {}).get("selected_valid_share"))
-        return share is None or share < 0.95
-
-    usable = [
-        s["name"]
-        for s in report.strategies
-        if s["valid"] and not off_target(s["name"]) and not doubtful_selection(s)
-    ]
-    precision: dict[str, float] = {}
-    for s in report.strategies:
-        if s["name"] not in usable:
-            continue
-        if sim:
-            se = _number(sim.get(s["name"], {}).get("emp_se"))
-        else:
-            se = _number(s.get("large_sample_se_factor"))
-        if se is not None:
-            precision[s["name"]] = se
-
-    best_in: dict[tuple[str, float], str] = {}
-    for candidate, se in precision.items():
-        current = best_in.get(group(candidate))
-        if current is None or se < precision[current]:
-            best_in[group(candidate)] = candidate
-
     stories = []
-    for s in report.strategies:
-        name, adjust = s["name"], list(s["adjust"])
-        selection = s.get("selection") if isinstance(s.get("selection"), str) else None
-        restrict = s.get("restrict") if isinstance(s.get("restrict"), dict) else {}
-        verdict = "valid" if s["valid"] else "invalid"
-        if selection:
-            rule = _RULES.get(selection, selection)
-            title = f"{name}: chooses from {_sets(adjust)} {rule} (candidates {verdict})"
-        else:
-            title = f"{name}: adjusts for {_sets(adjust)} ({verdict})"
-        if restrict:
-            title = title.replace(f" ({verdict})", f", only units with {_restriction(restrict)} ({verdict})")
-        match = [str(m) for m in s.get("match") or []]
-        if match:
-            title = title.replace(f" ({verdict})", f", matched on {', '.join(match)} ({verdict})")
-        paragraphs = []
-        model = s.get("model", "ols")
-        what = {
-            "ols": "a linear regression",
-            "logit": "a logistic regression"
-            + (" standardised to the whole sample" if s.get("standardize") else ""),
-        }.get(model, model)
-        if selection:
-            paragraphs.append(
-                f"It fits {what} of {q.outcome} on {q.exposure} and the covariates it keeps: the set is "
-                f"chosen from the data in each study, keeping among {_sets(adjust)} those "
-                f"{_RULE_WORDS.get(selection, selection)}."
-            )
-        else:
-            paragraphs.append(
-                f"It fits {what} of {q.outcome} on {q.exposure}"
-                + (
-                    f" and {_sets(adjust)}"
-                    if adjust
-                    else (
-                        " alone, within the units kept" if restrict or match else " alone, the raw comparison"
-                    )
-                )
-                + "."
-            )
-        if restrict:
-            paragraphs.append(
-                f"It analyses only the units with {_restriction(restrict)}, which conditions on "
-                + (
-                    "that variable much as adjusting for it"
-                    if len(restrict) == 1
-                    else "those variables much as adjusting for them"
-                )
-                + " would."
-            )
-        if match:
-            paragraphs.append(
-                f"It first pairs each unit with {q.exposure} = 1 with one with {q.exposure} = 0 and the same "
-                f"{', '.join(match)}, and drops the units left unpaired: this balances the matched variables "
-                "between the groups by design."
-            )
-        open_noncausal = [p.text for p in s["open_paths"] if not p.causal]
-        blocked_noncausal = [p.text for p in s["blocked_paths"] if not p.causal]
-        blocked_causal = [p.text for p in s["blocked_paths"] if p.causal]
-        if blocked_noncausal:
-            word = "path" if len(blocked_noncausal) == 1 else "paths"
-            paragraphs.append(f"It blocks the non-causal {word} {'; '.join(blocked_noncausal)}.")
-        if open_noncausal:
-            word = "path" if len(open_noncausal) == 1 else "paths"
-            paragraphs.append(
-                f"It leaves the non-causal {word} {'; '.join(open_noncausal)} open, so part of "
-                f"the association between {q.exposure} and {q.outcome} is not their effect."
-            )
-        if blocked_causal and q.target == "total":
-            paragraphs.append(f"It cuts part of the effect itself by blocking {'; '.join(blocked_causal)}.")
-        if not s["valid"]:
-            other = [r for r in s["reasons"] if not r.startswith("leaves the non-causal")]
-            if other:
-                paragraphs.append("Why it fails: " + "; ".join(other) + ".")
-        for note in s.get("notes") or []:
-            paragraphs.append(_sentence(note, scenario.names))
-
-        row = sim.get(name)
-        valid_share = _number(row.get("selected_valid_share")) if row is not None else None
-        if selection and row is not None and valid_share is not None:
-            chosen = selected_sets_text(row.get("selected_sets"))
-            paragraphs.append(
-                f"The set is chosen from the data: in {valid_share:.0%} of the simulated studies the chosen "
-                f"set was valid" + (f"; chosen most often: {chosen}" if chosen else "") + "."
-            )
-        elif selection and s.get("large_sample_selected") is not None:
-            paragraphs.append(
-                f"In a very large sample the rule would keep {_sets(s['large_sample_selected'])}; in a study "
-                f"of n = {scenario.study.n} it may keep another set: run the simulation to see how often."
-            )
-        kept = _number(row.get("mean_retained_n")) if row is not None else None
-        if (restrict or match) and kept is not None:
-            n_run = getattr(result, "n", scenario.study.n)
-            paragraphs.append(f"On average {kept:.0f} of the {n_run:,} units were kept.")
+    for s in report.checks:
+        row = ctx.sim.get(s.name)
+        paragraphs = _method_paragraphs(s, scenario.question)
+        paragraphs += _path_paragraphs(s, scenario.question, scenario.names)
+        paragraphs += _choice_paragraphs(ctx, s, row)
         if row is not None:
-            row_truth = _number(row.get("truth"))
-            row_truth = truth if row_truth is None else row_truth
-            bias, bias_mcse = _number(row.get("bias")), _number(row.get("bias_mcse"))
-            cov, cov_mcse = _number(row.get("coverage")), _number(row.get("coverage_mcse"))
-            emp_se, power = _number(row.get("emp_se")), _number(row.get("power"))
-            numbers = []
-            if bias is not None and row_truth is not None:
-                size = with_mcse(bias, bias_mcse)
-                share = 100 * abs(bias) / abs(row_truth) if row_truth else math.nan
-                rel = (
-                    (
-                        f", {share:.0f}% of the true effect {row_truth:.3g}"
-                        if share >= 1
-                        else f", under 1% of the true effect {row_truth:.3g}"
-                    )
-                    if row_truth
-                    else ""
-                )
-                numbers.append(
-                    f"across the simulated studies its estimates were off by {size} on average{rel}"
-                )
-            if cov is not None:
-                cov_text = f"its {nominal:.0%} confidence intervals covered the truth in {cov:.1%} of studies"
-                if cov_mcse is not None and abs(cov - nominal) > 3 * cov_mcse:
-                    cov_text += f" (they should in {nominal:.0%})"
-                numbers.append(cov_text)
-            if emp_se is not None:
-                numbers.append(f"its estimates varied with a standard error of {emp_se:.3g}")
-            if power is not None:
-                numbers.append(f"it found an effect (p < {alpha:g}) in {power:.0%} of studies")
-            if numbers:
-                paragraphs.append("In the simulation, " + "; ".join(numbers) + ".")
-            if row.get("note"):
-                paragraphs.append(_sentence(str(row["note"]), scenario.names))
+            paragraphs += _run_paragraphs(ctx, row, scenario.names)
         else:
-            ls_bias = _number(s.get("large_sample_bias"))
-            if ls_bias is not None and truth is not None:
-                paragraphs.append(
-                    f"In a very large sample its estimate would be {truth + ls_bias:.3g} against a true effect "
-                    f"of {truth:.3g} (bias {ls_bias:+.3g}). Run the simulation to see coverage and precision at "
-                    f"n = {scenario.study.n}."
-                )
-
-        best = best_in.get(group(name))
-        if selection and valid_share is None and s["valid"]:
-            recommendation = (
-                "Depends on the data: the candidates include a valid set, but each study keeps its own "
-                "choice. Run the simulation to see how often the chosen set is valid."
-            )
-        elif selection and valid_share is not None and valid_share < 0.95:
-            recommendation = (
-                f"Not recommended: the set chosen from the data was valid in only {valid_share:.0%} of "
-                "studies, and the reported intervals ignore the choice. Fix the set from the graph instead."
-            )
-        elif s["valid"] and off_target(name):
-            recommendation = (
-                "Not recommended for this question: the adjustment set is valid, but the simulated "
-                "estimates miss the quantity asked for (see the note above)."
-            )
-        elif s["valid"]:
-            if best is None or name == best:
-                several_scales = len({group(u) for u in usable}) > 1
-                where = f" for the {group(name)[0]}" if several_scales else " here"
-                recommendation = "Recommended: valid" + (
-                    f", and the most precise valid strategy{where}."
-                    if len(usable) > 1
-                    else ", the only valid one."
-                )
-            else:
-                ratio = precision.get(name, math.nan) / precision[best]
-                extra = (
-                    f" (its standard error is {100 * (ratio - 1):.0f}% larger)"
-                    if math.isfinite(ratio) and ratio > 1.005
-                    else ""
-                )
-                recommendation = f"Valid, but {best} estimates the same effect more precisely{extra}."
-        elif usable:
-            recommendation = "Not recommended: it answers a different question than the one asked."
-        else:
-            recommendation = (
-                "Not recommended, but no strategy here is valid: under this graph no set of "
-                "observed variables removes the bias. Measuring the latent variables or "
-                "another design is needed."
-            )
-        stories.append(Story(name, bool(s["valid"]), title, paragraphs, recommendation))
+            paragraphs += _large_sample_paragraphs(ctx, s)
+        recommendation = _recommendation(ctx, s, row)
+        stories.append(Story(s.name, s.valid, _title(s), paragraphs, recommendation))
     return stories

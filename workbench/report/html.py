@@ -7,49 +7,58 @@ settings, the seed and the version. BokehJS is inlined (the raw core bundle of `
 ``inline`` mode, without the extension files other libraries may register), the text uses the system's fonts,
 and nothing is fetched from anywhere.
 
-The figures and tables are the dashboard's own (:mod:`workbench.report.figures`,
-:mod:`workbench.report.tables`; neither imports Panel), so the report shows what the dashboard shows.
+The figures and tables are the dashboard's own (:mod:`workbench.report.graph_drawing`,
+:mod:`workbench.report.figures`, :mod:`workbench.report.dataset_figures`, :mod:`workbench.report.tables`;
+none imports Panel), so the report shows what the dashboard shows. The page is the Jinja2 template
+``templates/report.html.j2`` with autoescaping on: titles, summaries and strategy names are user text and
+reach the page escaped; only the fragments this layer builds (already escaped tables and stories, Bokeh's
+own script and divs) are inserted as they are. :func:`build_report` gathers one part of the page per step
+(the settings, the graph, the estimates, the sample size, the stories, one dataset).
 
 Examples
 --------
 >>> from workbench import load_preset
 >>> page = build_report(load_preset("common_cause"))
->>> page.startswith("<!DOCTYPE html>"), "https://" in page.split("<body>")[0]
-(True, False)
+>>> page.startswith("<!DOCTYPE html>"), "<script src=" in page, "<link" in page
+(True, False, False)
 """
 
 from __future__ import annotations
 
 import datetime as _dt
-import html
 import os
+from functools import lru_cache
 
+import jinja2
 import pandas as pd
 from bokeh.embed import components
 from bokeh.layouts import gridplot, row
 from bokeh.resources import Resources
 
 from workbench import __version__
-from workbench.report import figures, tables
+from workbench.formatting.numbers import fmt_mcse
+from workbench.report import dataset_figures, figures, graph_drawing, tables
 from workbench.report.explain import ASSUMPTION_NOTE, explain
 from workbench.scenario.model import Scenario
 from workbench.scenario.write import dumps_scenario, write_text_atomically
 
 __all__ = ["build_report", "write_report"]
 
-_PAGE_CSS = """
-body { font-family: system-ui, -apple-system, "Segoe UI", Roboto, "Helvetica Neue", Arial, sans-serif;
-       color: #111; margin: 24px auto; max-width: 1120px; padding: 0 16px; line-height: 1.45; }
-h1 { font-size: 24px; margin-bottom: 4px; } h2 { font-size: 19px; margin-top: 28px; border-bottom: 1px solid #ccc; }
-h3 { font-size: 15px; margin-bottom: 4px; }
-.summary { color: #333; } .meta { font-size: 13px; color: #444; }
-.note { background: #e8f1fb; border-left: 4px solid #0072B2; padding: 8px 12px; font-size: 14px; }
-.story { border-left: 4px solid #999; padding: 4px 12px; margin: 8px 0; font-size: 14px; }
-.story.valid { border-color: #00603F; } .story.invalid { border-color: #A33C00; }
-pre { background: #f6f6f6; padding: 10px; font-size: 12px; overflow-x: auto; }
-dl.settings { display: grid; grid-template-columns: max-content auto; gap: 2px 14px; font-size: 13px; }
-dl.settings dt { font-weight: 600; } dl.settings dd { margin: 0; }
-"""
+TEMPLATE = "report.html.j2"
+"""The page's template, in ``workbench/report/templates`` (shipped as package data)."""
+
+
+@lru_cache(maxsize=1)
+def _environment() -> jinja2.Environment:
+    """The template environment: templates read from the package (a source checkout or an installed
+    wheel alike), every value autoescaped, an unknown name an error."""
+    return jinja2.Environment(
+        loader=jinja2.PackageLoader("workbench.report", "templates"),
+        autoescape=True,
+        undefined=jinja2.StrictUndefined,
+        trim_blocks=True,
+        lstrip_blocks=True,
+    )
 
 
 def _inline_bokeh() -> str:
@@ -61,20 +70,16 @@ def _inline_bokeh() -> str:
     return css + js
 
 
-def _slot(name: str) -> str:
-    """A place for a figure; user text is escaped, so it can never contain one."""
-    return f"<!--figure:{name}-->"
-
-
-def _settings(scenario: Scenario, result, plan) -> str:
+def _settings(scenario: Scenario, result) -> list[tuple[str, str]]:
+    """The settings the report was made with, as (name, value) pairs: the run's own when there is one."""
     st = scenario.study
     q = scenario.question
     items = [
         ("question", f"the {q.target} effect of {q.exposure} on {q.outcome} ({q.scale.replace('_', ' ')})"),
-        ("sample size n", f"{getattr(result, 'n', st.n):,}"),
-        ("replicates", f"{getattr(result, 'replicates', st.replicates):,}"),
-        ("seed", str(getattr(result, "seed", st.seed))),
-        ("alpha", f"{getattr(result, 'alpha', st.alpha):g}"),
+        ("sample size n", f"{st.n if result is None else result.n:,}"),
+        ("replicates", f"{st.replicates if result is None else result.replicates:,}"),
+        ("seed", str(st.seed if result is None else result.seed)),
+        ("alpha", f"{st.alpha if result is None else result.alpha:g}"),
         ("sample sizes planned", ", ".join(str(s) for s in st.sample_sizes)),
         ("target power", f"{st.target_power:g}"),
     ]
@@ -84,8 +89,89 @@ def _settings(scenario: Scenario, result, plan) -> str:
         items.append(("engine", str(result.engine)))
     items.append(("workbench version", __version__))
     items.append(("written", _dt.datetime.now(_dt.UTC).strftime("%Y-%m-%d %H:%M UTC")))
-    body = "".join(f"<dt>{html.escape(k)}</dt><dd>{html.escape(v)}</dd>" for k, v in items)
-    return f'<dl class="settings">{body}</dl>'
+    return items
+
+
+def _graph_section(scenario: Scenario, report, models: dict) -> dict:
+    """The graph with its roles, the strategies' verdicts and the valid sets."""
+    models["graph"] = graph_drawing.graph_figure(scenario, report.roles, width=640, height=380)
+    return {
+        "strategies_table": tables.strategies_table(report.checks),
+        "minimal": "; ".join("{" + ", ".join(m) + "}" for m in report.minimal_sets) or "none",
+        "optimal": "{" + ", ".join(report.optimal_set) + "}" if report.optimal_set is not None else "none",
+        "optimal_note": report.optimal_note,
+    }
+
+
+def _estimates_section(result, models: dict) -> dict:
+    """The truth, the performance table with its flags, the estimates' and SEs' distributions, the ranked
+    intervals and the signals."""
+    distributions = zip(
+        figures.estimates_figure(result, width=540), figures.se_figure(result, width=540), strict=True
+    )
+    keys = []
+    for i, (a, b) in enumerate(distributions):
+        models[f"distributions_{i}"] = row(a, b)
+        keys.append(f"distributions_{i}")
+    models["intervals"] = figures.interval_figure(result, width=1080)
+    return {
+        "truth": f"{result.truth:.4g}",
+        "truth_mcse": fmt_mcse(result.truth_mcse) if result.truth_mcse else "",
+        "truth_description": result.truth_description or "",
+        "performance_table": tables.performance_table(result.table, alpha=result.alpha),
+        "flag_note": tables.FLAG_NOTE,
+        "distribution_figures": keys,
+        "signals_table": tables.signals_table(result.table),
+    }
+
+
+def _plan_section(plan, models: dict) -> dict:
+    """Power against n with the smallest n, bias and empirical SE against n, and for ``question.also`` how
+    well the effects separate."""
+    models["power"] = figures.power_figure(plan, target_power=plan.target_power, width=1080)
+    models["by_n"] = gridplot(
+        [
+            figures.by_n_figure(
+                plan, "bias", title="Bias against n", y_label="bias", zero_line=True, width=530
+            ),
+            figures.by_n_figure(
+                plan, "emp_se", title="Empirical SE against n", y_label="empirical SE", width=530
+            ),
+        ],
+        ncols=2,
+        toolbar_location=None,
+    )
+    section = {"smallest_n_table": tables.smallest_n_table(plan.smallest_n), "separation": False}
+    if plan.also_table is not None and len(plan.also_table):
+        models["separation"] = figures.separation_figure(plan.also_table, plan.table, width=530)
+        also_n = plan.also_smallest_n
+        section["separation"] = True
+        section["also_smallest_n_table"] = (
+            tables.also_smallest_n_table(also_n) if also_n is not None and len(also_n) else ""
+        )
+    return section
+
+
+def _stories(report, result) -> list[dict]:
+    """One entry per strategy: its story's title, body (escaped HTML) and whether to use it."""
+    return [
+        {
+            "name": story.name,
+            "kind": {True: "valid", False: "invalid"}.get(story.usable, "depends"),
+            "title": story.title,
+            "body": story.html(),
+        }
+        for story in explain(report, result)
+    ]
+
+
+def _dataset_figure(scenario: Scenario, dataset: pd.DataFrame, covariate: str | None):
+    """The one-dataset figures side by side."""
+    q = scenario.question
+    plots = [dataset_figures.dataset_scatter(dataset, q.exposure, q.outcome, covariate, width=560)]
+    if covariate:
+        plots.append(dataset_figures.dataset_groups(dataset, q.exposure, covariate, width=480))
+    return row(*plots)
 
 
 def build_report(
@@ -97,7 +183,7 @@ def build_report(
     dataset: pd.DataFrame | None = None,
     covariate: str | None = None,
 ) -> str:
-    """The report as one HTML document.
+    """The report as one HTML document, rendered from the template :data:`TEMPLATE`.
 
     Parameters
     ----------
@@ -114,7 +200,7 @@ def build_report(
     Returns
     -------
     str
-        A complete HTML document with Bokeh's scripts inlined.
+        A complete HTML document with Bokeh's scripts inlined; every piece of user text escaped.
 
     Examples
     --------
@@ -129,110 +215,25 @@ def build_report(
         from workbench.analysis.check import check
 
         report = check(scenario)
-    q = scenario.question
-    models = {"graph": figures.graph_figure(scenario, report.roles, width=640, height=380)}
-    parts: list[str] = []
-    alpha = (
-        float(getattr(result, "alpha", scenario.study.alpha)) if result is not None else scenario.study.alpha
-    )
-
-    parts.append("<h2>The graph</h2>" + _slot("graph"))
-    parts.append(tables.strategies_table(report.strategies))
-    minimal = "; ".join("{" + ", ".join(m) + "}" for m in report.minimal_sets) or "none"
-    optimal = "{" + ", ".join(report.optimal_set) + "}" if report.optimal_set is not None else "none"
-    parts.append(
-        f"<p class='meta'><b>Minimal valid sets:</b> {html.escape(minimal)}. <b>Optimal valid set:</b> "
-        f"{html.escape(optimal)} ({html.escape(report.optimal_note)}).</p>"
-    )
-
-    if result is not None:
-        truth_mcse = getattr(result, "truth_mcse", None)
-        parts.append("<h2>Estimates</h2>")
-        parts.append(
-            f"<p class='meta'><b>True effect:</b> {result.truth:.4g}"
-            + (f" (Monte Carlo SE {truth_mcse:.2g})" if truth_mcse else "")
-            + f" &mdash; {html.escape(str(getattr(result, 'truth_description', '') or ''))}</p>"
-        )
-        parts.append(tables.performance_table(result.table, alpha=alpha))
-        parts.append(
-            "<p class='meta'>The small &plusmn; figures are Monte Carlo standard errors (MCSE). Highlighted cells: the bias exceeds "
-            "3 Monte Carlo SEs, or the coverage lies outside the nominal level &plusmn; 3 Monte Carlo "
-            "SEs (Morris, White &amp; Crowther 2019).</p>"
-        )
-        for i, (a, b) in enumerate(
-            zip(
-                figures.estimates_figure(result, width=540), figures.se_figure(result, width=540), strict=True
-            )
-        ):
-            models[f"distributions_{i}"] = row(a, b)
-            parts.append(_slot(f"distributions_{i}"))
-        models["intervals"] = figures.interval_figure(result, width=1080)
-        parts.append("<h3>Confidence intervals of the first 100 replicates</h3>" + _slot("intervals"))
-        parts.append("<h3>Signals</h3>" + tables.signals_table(result.table))
-
-    if plan is not None:
-        parts.append("<h2>Sample size</h2>")
-        target = float(getattr(plan, "target_power", None) or scenario.study.target_power)
-        models["power"] = figures.power_figure(plan, target_power=target, width=1080)
-        parts.append(_slot("power"))
-        parts.append(tables.smallest_n_table(plan.smallest_n))
-        models["by_n"] = gridplot(
-            [
-                figures.by_n_figure(
-                    plan, "bias", title="Bias against n", y_label="bias", zero_line=True, width=530
-                ),
-                figures.by_n_figure(
-                    plan, "emp_se", title="Empirical SE against n", y_label="empirical SE", width=530
-                ),
-            ],
-            ncols=2,
-            toolbar_location=None,
-        )
-        parts.append(_slot("by_n"))
-        also = getattr(plan, "also_table", None)
-        if also is not None and len(also):
-            models["separation"] = figures.separation_figure(also, plan.table, width=530)
-            parts.append("<h3>Separating the effects</h3>" + _slot("separation"))
-            also_n = getattr(plan, "also_smallest_n", None)
-            if also_n is not None and len(also_n):
-                parts.append(tables.also_smallest_n_table(also_n))
-
-    parts.append("<h2>What each strategy does</h2>")
-    for story in explain(report, result):
-        kind = {True: "valid", False: "invalid"}.get(story.usable, "depends")
-        parts.append(f"<div class='story {kind}'><h3>{html.escape(story.title)}</h3>{story.html()}</div>")
-
+    models: dict = {}
+    context = {
+        "title": scenario.title,
+        "summary": scenario.summary or "",
+        "assumption": ASSUMPTION_NOTE,
+        "settings": _settings(scenario, result),
+        "graph": _graph_section(scenario, report, models),
+        "estimates": None if result is None else _estimates_section(result, models),
+        "plan": None if plan is None else _plan_section(plan, models),
+        "stories": _stories(report, result),
+        "dataset": dataset is not None,
+        "scenario_text": dumps_scenario(scenario),
+        "table_css": tables.TABLE_CSS,
+        "bokeh_resources": _inline_bokeh(),
+    }
     if dataset is not None:
-        parts.append("<h2>One simulated dataset</h2>")
-        plots = [figures.dataset_scatter(dataset, q.exposure, q.outcome, covariate, width=560)]
-        if covariate:
-            plots.append(figures.dataset_groups(dataset, q.exposure, covariate, width=480))
-        models["dataset"] = row(*plots)
-        parts.append(_slot("dataset"))
-
-    parts.append("<h2>Scenario file</h2>")
-    parts.append(f"<pre>{html.escape(dumps_scenario(scenario))}</pre>")
-
+        models["dataset"] = _dataset_figure(scenario, dataset, covariate)
     script, divs = components(models)
-    body = "\n".join(parts)
-    for name, div in divs.items():
-        body = body.replace(_slot(name), div)
-    head = (
-        "<!DOCTYPE html>\n<html lang='en'><head><meta charset='utf-8'>"
-        f"<title>{html.escape(scenario.title)} - workbench report</title>"
-        f"<style>{_PAGE_CSS}{tables.TABLE_CSS}</style>{_inline_bokeh()}{script}</head>"
-    )
-    intro = (
-        f"<body><h1>{html.escape(scenario.title)}</h1>"
-        f"<p class='summary'>{html.escape(scenario.summary or '')}</p>"
-        f"<p class='note'>{html.escape(ASSUMPTION_NOTE)}</p>"
-        f"{_settings(scenario, result, plan)}"
-    )
-    if result is None:
-        intro += (
-            "<p class='meta'>No simulation was run for this report: it holds the graph analysis only.</p>"
-        )
-    return head + intro + body + "</body></html>"
+    return _environment().get_template(TEMPLATE).render(context, bokeh_script=script, figures=divs)
 
 
 def write_report(path: str | os.PathLike, scenario: Scenario, **kwargs) -> None:

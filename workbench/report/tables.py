@@ -2,15 +2,18 @@
 
 The performance table flags a cell when the Monte Carlo evidence says something is off (Morris, White &
 Crowther 2019, "Using simulation studies to evaluate statistical methods", Statistics in Medicine
-38:2074-2102): the bias when ``|bias| > 3 x MCSE(bias)``, and the coverage when it lies outside
-``nominal +/- 3 x MCSE(coverage)``. Every number cell carries ``data-strategy``, ``data-field`` and
-``data-value`` attributes so tests and scripts can read the exact values.
+38:2074-2102), by the one rule of :mod:`workbench.engine.metrics`: the bias when
+:func:`~workbench.engine.metrics.is_biased` (``|bias| > 3 x MCSE(bias)`` and at least 5% of the true
+effect), the coverage when :func:`~workbench.engine.metrics.coverage_is_off` (outside
+``nominal +/- 3 x MCSE(coverage)``). :data:`FLAG_NOTE` says so in words under the table. Every number cell
+carries ``data-strategy``, ``data-field`` and ``data-value`` attributes so tests and scripts can read the
+exact values.
 
 Examples
 --------
 >>> import pandas as pd
->>> row = dict(name="a", adjust=[], valid=True, mean=0.25, bias=0.01, bias_mcse=0.002, relative_bias=4.0,
-...            emp_se=0.07, emp_se_mcse=0.001, model_se=0.07, model_se_mcse=0.0005, rmse=0.07,
+>>> row = dict(name="a", adjust=[], valid=True, mean=0.25, bias=0.02, bias_mcse=0.002, relative_bias=8.0,
+...            truth=0.25, emp_se=0.07, emp_se_mcse=0.001, model_se=0.07, model_se_mcse=0.0005, rmse=0.07,
 ...            coverage=0.95, coverage_mcse=0.005, power=0.9, power_mcse=0.007, failures=0)
 >>> html = performance_table(pd.DataFrame([row]), alpha=0.05)
 >>> 'class="flag"' in html
@@ -21,29 +24,42 @@ from __future__ import annotations
 
 import html
 import math
+from collections.abc import Iterable
+from dataclasses import dataclass
 from typing import Any
 
 import pandas as pd
 
-from workbench.formatting.numbers import effect_digits, estimate_decimals, fmt, fmt_mcse, with_mcse
+from workbench.analysis.check import StrategyCheck
+from workbench.engine.metrics import BIAS_MCSE_MULTIPLE, BIAS_RELATIVE_FLOOR, coverage_is_off, is_biased
+from workbench.formatting.numbers import effect_digits, estimate_decimals, fmt, fmt_mcse
 from workbench.formatting.phrases import selected_sets_text, strategy_text
 
 __all__ = [
-    "fmt_mcse",
-    "effect_digits",
     "TABLE_CSS",
+    "BIAS_FLAG_TEXT",
+    "COVERAGE_FLAG_TEXT",
+    "FLAG_NOTE",
     "flags",
     "performance_table",
     "signals_table",
     "strategies_table",
     "smallest_n_table",
     "also_smallest_n_table",
-    "fmt",
-    "estimate_decimals",
-    "with_mcse",
-    "strategy_text",
-    "selected_sets_text",
 ]
+
+BIAS_FLAG_TEXT = (
+    f"the bias exceeds {BIAS_MCSE_MULTIPLE:g} Monte Carlo SEs and {BIAS_RELATIVE_FLOOR:.0%} of the true "
+    "effect in size"
+)
+"""Why a bias cell is flagged (:func:`workbench.engine.metrics.is_biased`), in words."""
+COVERAGE_FLAG_TEXT = f"the coverage lies outside the nominal level ± {BIAS_MCSE_MULTIPLE:g} Monte Carlo SEs"
+"""Why a coverage cell is flagged (:func:`workbench.engine.metrics.coverage_is_off`), in words."""
+FLAG_NOTE = (
+    "The small ± figures are Monte Carlo standard errors (MCSE). Flagged cells: "
+    f"{BIAS_FLAG_TEXT}, or {COVERAGE_FLAG_TEXT} (Morris, White & Crowther 2019)."
+)
+"""The note under a performance table (plain text: escape it for HTML)."""
 
 #: Styles of the tables (no web fonts: the system's sans-serif).
 TABLE_CSS = """
@@ -92,22 +108,23 @@ def _get(row: Any, key: str) -> Any:
 
 
 def flags(row: Any, alpha: float) -> dict[str, bool]:
-    """Which cells of a performance-table row to flag: ``bias`` when |bias| > 3 MCSE, ``coverage`` when
-    outside (1 - alpha) +/- 3 MCSE.
+    """Which cells of a performance-table row to flag, by the one rule of :mod:`workbench.engine.metrics`:
+    ``bias`` when :func:`~workbench.engine.metrics.is_biased` (against the row's ``truth``; without one, by
+    the MCSE alone), ``coverage`` when :func:`~workbench.engine.metrics.coverage_is_off` for the nominal
+    level 1 - alpha.
 
     Examples
     --------
-    >>> flags({"bias": 0.01, "bias_mcse": 0.002, "coverage": 0.95, "coverage_mcse": 0.005}, 0.05)
+    >>> flags({"bias": 0.01, "bias_mcse": 0.002, "truth": 0.1, "coverage": 0.95, "coverage_mcse": 0.005}, 0.05)
     {'bias': True, 'coverage': False}
+    >>> flags({"bias": 0.01, "bias_mcse": 0.002, "truth": 1.0}, 0.05)  # under 5% of the truth
+    {'bias': False, 'coverage': False}
     """
-    bias, bias_mcse = _get(row, "bias"), _get(row, "bias_mcse")
-    cov, cov_mcse = _get(row, "coverage"), _get(row, "coverage_mcse")
-    out = {"bias": False, "coverage": False}
-    if bias is not None and bias_mcse is not None:
-        out["bias"] = abs(bias) > 3 * bias_mcse
-    if cov is not None and cov_mcse is not None:
-        out["coverage"] = abs(cov - (1 - alpha)) > 3 * cov_mcse
-    return out
+    truth = _get(row, "truth")
+    return {
+        "bias": is_biased(_get(row, "bias"), _get(row, "bias_mcse"), math.nan if truth is None else truth),
+        "coverage": coverage_is_off(_get(row, "coverage"), _get(row, "coverage_mcse"), 1 - alpha),
+    }
 
 
 def _cell(
@@ -145,6 +162,139 @@ def _verdict_cell(valid: Any) -> str:
     return '<td class="valid">valid</td>' if bool(valid) else '<td class="invalid">invalid</td>'
 
 
+@dataclass(frozen=True)
+class _Columns:
+    """Which optional column groups a performance table shows."""
+
+    scored: bool
+    """The strategies estimate different quantities or are scored against different truths."""
+    selection: bool
+    """Some strategy chooses its set from the data."""
+    retained: bool
+    """Some strategy restricts or matches, so the units kept vary."""
+
+    def head(self, alpha: float) -> list[str]:
+        """The column names."""
+        head = ["strategy", "verdict", "adjusts for"]
+        if self.scored:
+            head += ["estimates", "its truth"]
+        if self.selection:
+            head += ["chosen set valid in", "chosen most often"]
+        if self.retained:
+            head += ["units kept (mean)"]
+        return head + [
+            "mean estimate",
+            "bias",
+            "relative bias %",
+            "empirical SE",
+            "model SE",
+            "RMSE",
+            f"coverage of {1 - alpha:.0%} CI",
+            "power",
+            "failed fits",
+        ]
+
+
+def _columns(table: pd.DataFrame) -> _Columns:
+    scored = (
+        "truth" in table
+        and "estimand" in table
+        and (table["truth"].nunique(dropna=True) > 1 or table["estimand"].nunique(dropna=True) > 1)
+    )
+    selection = "selection" in table and any(isinstance(v, str) and v for v in table["selection"])
+    retained = "mean_retained_n" in table and bool(
+        pd.to_numeric(table["mean_retained_n"], errors="coerce").notna().any()
+    )
+    return _Columns(bool(scored), bool(selection), retained)
+
+
+def _strategy_verdict_cell(r: Any) -> str:
+    """The graph's verdict; for a set chosen from the data, the share of studies whose chosen set was valid
+    (a chosen set is valid only in those)."""
+    share = _get(r, "selected_valid_share")
+    if isinstance(_get(r, "selection"), str) and share is not None:
+        kind = "valid" if share >= 0.95 else "invalid"
+        return f'<td class="{kind}" title="share of studies whose chosen set was valid">valid in {100 * share:.0f}%</td>'
+    return _verdict_cell(_get(r, "valid"))
+
+
+def _description_cells(r: Any, name: str, columns: _Columns) -> list[str]:
+    """The cells that say what a strategy is: name, verdict, set, and the optional groups (what it
+    estimates, how it chose its set, the units it kept)."""
+    adjust_text = strategy_text(
+        _get(r, "adjust"), _get(r, "selection"), _get(r, "restrict"), _get(r, "match")
+    )
+    cells = [
+        f"<td>{html.escape(name)}</td>",
+        _strategy_verdict_cell(r),
+        f'<td class="text"><div>{html.escape(str(adjust_text))}</div></td>',
+    ]
+    if columns.scored:
+        cells += [
+            f'<td class="text"><div>{html.escape(str(_get(r, "estimand") or ""))}</div></td>',
+            _cell(name, "truth", _get(r, "truth"), digits=effect_digits(_get(r, "emp_se"))),
+        ]
+    if columns.selection:
+        share = _get(r, "selected_valid_share")
+        chosen = selected_sets_text(_get(r, "selected_sets"))
+        cells += [
+            _cell(name, "selected_valid_share", share, digits=0, percent=True)
+            if share is not None
+            else f'<td data-strategy="{html.escape(name)}" data-field="selected_valid_share">-</td>',
+            f'<td class="text" data-strategy="{html.escape(name)}" data-field="selected_sets"><div>'
+            f"{html.escape(chosen) or '-'}</div></td>",
+        ]
+    if columns.retained:
+        cells.append(_cell(name, "mean_retained_n", _get(r, "mean_retained_n"), digits=1))
+    return cells
+
+
+def _measure_cells(r: Any, name: str, alpha: float) -> list[str]:
+    """The performance measures, each with its MCSE where it has one; bias and coverage flagged by
+    :func:`flags`. Estimates show about a hundredth of their spread (:func:`effect_digits`)."""
+    flag = flags(r, alpha)
+    d = effect_digits(_get(r, "emp_se"))
+    return [
+        _cell(name, "mean", _get(r, "mean"), digits=d),
+        _cell(
+            name,
+            "bias",
+            _get(r, "bias"),
+            digits=estimate_decimals(_get(r, "bias_mcse"), d),
+            mcse=_get(r, "bias_mcse"),
+            flagged=flag["bias"],
+            title=BIAS_FLAG_TEXT if flag["bias"] else "",
+        ),
+        _cell(name, "relative_bias", _get(r, "relative_bias"), digits=1),
+        _cell(name, "emp_se", _get(r, "emp_se"), mcse=_get(r, "emp_se_mcse"), digits=d),
+        _cell(name, "model_se", _get(r, "model_se"), mcse=_get(r, "model_se_mcse"), digits=d),
+        _cell(name, "rmse", _get(r, "rmse"), digits=d),
+        _cell(
+            name,
+            "coverage",
+            _get(r, "coverage"),
+            mcse=_get(r, "coverage_mcse"),
+            flagged=flag["coverage"],
+            title=COVERAGE_FLAG_TEXT if flag["coverage"] else "",
+        ),
+        _cell(name, "power", _get(r, "power"), mcse=_get(r, "power_mcse")),
+        _cell(name, "failures", _get(r, "failures"), digits=0),
+    ]
+
+
+def _row_notes(r: Any, name: str) -> list[str]:
+    """A strategy's note and its failed fits' reasons, as list items."""
+    notes = []
+    note = _get(r, "note")
+    if note:
+        notes.append(f"<li><b>{html.escape(name)}</b>: {html.escape(str(note))}</li>")
+    reasons = _get(r, "failure_reasons")
+    if isinstance(reasons, dict) and reasons:
+        text = ", ".join(f"{k}: {v}" for k, v in reasons.items())
+        notes.append(f"<li><b>{html.escape(name)}</b> failed fits: {html.escape(text)}</li>")
+    return notes
+
+
 def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "performance") -> str:
     """The performance table: each measure with its Monte Carlo SE below it, suspicious cells flagged.
 
@@ -158,7 +308,7 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
     Returns
     -------
     str
-        An HTML table.
+        An HTML table, followed by a list of the strategies' notes when there are any.
 
     Examples
     --------
@@ -169,105 +319,14 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
     >>> html.startswith("<table"), "flag" in html  # the unadjusted bias is flagged
     (True, True)
     """
-    scored = (
-        "truth" in table
-        and "estimand" in table
-        and (table["truth"].nunique(dropna=True) > 1 or table["estimand"].nunique(dropna=True) > 1)
-    )
-    head = ["strategy", "verdict", "adjusts for"]
-    if scored:
-        head += ["estimates", "its truth"]
-    selection = "selection" in table and any(isinstance(v, str) and v for v in table["selection"])
-    retained = "mean_retained_n" in table and bool(
-        pd.to_numeric(table["mean_retained_n"], errors="coerce").notna().any()
-    )
-    if selection:
-        head += ["chosen set valid in", "chosen most often"]
-    if retained:
-        head += ["units kept (mean)"]
-    head += [
-        "mean estimate",
-        "bias",
-        "relative bias %",
-        "empirical SE",
-        "model SE",
-        "RMSE",
-        f"coverage of {1 - alpha:.0%} CI",
-        "power",
-        "failed fits",
-    ]
-    rows = []
-    notes = []
+    columns = _columns(table)
+    rows, notes = [], []
     for _, r in table.iterrows():
         name = str(r["name"])
-        flag = flags(r, alpha)
-        adjust_text = strategy_text(
-            _get(r, "adjust"), _get(r, "selection"), _get(r, "restrict"), _get(r, "match")
-        )
-        verdict = _verdict_cell(_get(r, "valid"))
-        share = _get(r, "selected_valid_share")
-        if isinstance(_get(r, "selection"), str) and share is not None:
-            # a set chosen from the data is valid only in the studies whose chosen set is valid
-            kind = "valid" if share >= 0.95 else "invalid"
-            verdict = f'<td class="{kind}" title="share of studies whose chosen set was valid">valid in {100 * share:.0f}%</td>'
-        cells = [
-            f"<td>{html.escape(name)}</td>",
-            verdict,
-            f'<td class="text"><div>{html.escape(str(adjust_text))}</div></td>',
-        ]
-        if scored:
-            cells += [
-                f'<td class="text"><div>{html.escape(str(_get(r, "estimand") or ""))}</div></td>',
-                _cell(name, "truth", _get(r, "truth"), digits=effect_digits(_get(r, "emp_se"))),
-            ]
-        if selection:
-            share = _get(r, "selected_valid_share")
-            chosen = selected_sets_text(_get(r, "selected_sets"))
-            cells += [
-                _cell(name, "selected_valid_share", share, digits=0, percent=True)
-                if share is not None
-                else f'<td data-strategy="{html.escape(name)}" data-field="selected_valid_share">-</td>',
-                f'<td class="text" data-strategy="{html.escape(name)}" data-field="selected_sets"><div>'
-                f"{html.escape(chosen) or '-'}</div></td>",
-            ]
-        if retained:
-            cells.append(_cell(name, "mean_retained_n", _get(r, "mean_retained_n"), digits=1))
-        d = effect_digits(_get(r, "emp_se"))
-        cells += [
-            _cell(name, "mean", _get(r, "mean"), digits=d),
-            _cell(
-                name,
-                "bias",
-                _get(r, "bias"),
-                digits=estimate_decimals(_get(r, "bias_mcse"), d),
-                mcse=_get(r, "bias_mcse"),
-                flagged=flag["bias"],
-                title="|bias| exceeds 3 Monte Carlo SEs" if flag["bias"] else "",
-            ),
-            _cell(name, "relative_bias", _get(r, "relative_bias"), digits=1),
-            _cell(name, "emp_se", _get(r, "emp_se"), mcse=_get(r, "emp_se_mcse"), digits=d),
-            _cell(name, "model_se", _get(r, "model_se"), mcse=_get(r, "model_se_mcse"), digits=d),
-            _cell(name, "rmse", _get(r, "rmse"), digits=d),
-            _cell(
-                name,
-                "coverage",
-                _get(r, "coverage"),
-                mcse=_get(r, "coverage_mcse"),
-                flagged=flag["coverage"],
-                title="coverage is outside nominal +/- 3 Monte Carlo SEs" if flag["coverage"] else "",
-            ),
-            _cell(name, "power", _get(r, "power"), mcse=_get(r, "power_mcse")),
-            _cell(name, "failures", _get(r, "failures"), digits=0),
-        ]
+        cells = _description_cells(r, name, columns) + _measure_cells(r, name, alpha)
         rows.append("<tr>" + "".join(cells) + "</tr>")
-        note = _get(r, "note")
-        if note:
-            notes.append(f"<li><b>{html.escape(name)}</b>: {html.escape(str(note))}</li>")
-        reasons = _get(r, "failure_reasons")
-        if isinstance(reasons, dict) and reasons:
-            text = ", ".join(f"{k}: {v}" for k, v in reasons.items())
-            notes.append(f"<li><b>{html.escape(name)}</b> failed fits: {html.escape(text)}</li>")
-    out = _html_table(table_id, head, rows)
+        notes += _row_notes(r, name)
+    out = _html_table(table_id, columns.head(alpha), rows)
     if notes:
         out += f'<ul class="wb-notes" style="font-size:12px;margin:2px 0 6px 0">{"".join(notes)}</ul>'
     return out
@@ -304,23 +363,24 @@ def signals_table(table: pd.DataFrame, *, table_id: str = "signals") -> str:
     return _html_table(table_id, head, rows)
 
 
-def strategies_table(rows: list[dict], *, table_id: str = "verdicts") -> str:
-    """Strategies with their verdict and reasons (rows from ``CheckReport.strategies``).
+def strategies_table(checks: Iterable[StrategyCheck], *, table_id: str = "verdicts") -> str:
+    """Strategies with their verdict and reasons (the records of ``CheckReport.checks``).
 
     Examples
     --------
-    >>> html = strategies_table([{"name": "raw", "adjust": [], "valid": False, "reasons": ["a <- c -> y open"]}])
-    >>> '<td class="invalid">invalid</td>' in html, "a &lt;- c -&gt; y open" in html
+    >>> from workbench import check, load_preset
+    >>> html = strategies_table(check(load_preset("common_cause")).checks)
+    >>> '<td>unadjusted</td><td class="invalid">invalid</td>' in html, "soil_quality" in html
     (True, True)
     """
     out = []
-    for r in rows:
-        adjust = strategy_text(r.get("adjust") or [], r.get("selection"), r.get("restrict"), r.get("match"))
-        reasons = "<br>".join(html.escape(x) for x in (r.get("reasons") or []))
-        notes = "<br>".join(html.escape(x) for x in (r.get("notes") or []))
-        model = r.get("model", "ols") + (" (standardised)" if r.get("standardize") else "")
+    for c in checks:
+        adjust = strategy_text(c.adjust, c.selection, c.restrict, c.match)
+        reasons = "<br>".join(html.escape(x) for x in c.reasons)
+        notes = "<br>".join(html.escape(x) for x in c.notes)
+        model = c.model + (" (standardised)" if c.standardize else "")
         out.append(
-            f"<tr><td>{html.escape(r['name'])}</td>{_verdict_cell(r.get('valid'))}"
+            f"<tr><td>{html.escape(c.name)}</td>{_verdict_cell(c.valid)}"
             f'<td class="text"><div>{html.escape(adjust)}</div></td><td>{html.escape(model)}</td>'
             f'<td class="text"><div>{reasons}{"<br><i>" + notes + "</i>" if notes else ""}</div></td></tr>'
         )

@@ -1,8 +1,25 @@
 """The scenario's data model: frozen dataclasses for the variables, arrows, strategies, question and study.
 
-Build a :class:`Scenario` by reading a file (:mod:`workbench.scenario.parse`), never by hand: the readers
-validate every field. The graph is an assumption written down by the user; nothing here checks it against
-data.
+Build a :class:`Scenario` by reading a file (``workbench.load_scenario``, ``workbench.loads_scenario``, or the
+raw readers of :mod:`workbench.scenario.parse`), never by hand: the readers validate every field. The graph is
+an assumption written down by the user; nothing here checks it against data.
+
+Import order: this module imports nothing of the package but the errors, and :mod:`workbench.scenario.parse`
+imports it. :meth:`Scenario.replace` validates its copy with the parser, so it imports
+:func:`~workbench.scenario.parse.parse_scenario` and :func:`~workbench.scenario.write.scenario_to_dict` inside
+the method, when it is called: a module-level import would make model and parse import each other. The
+alternative, a ``replace`` function in the parser, would lose the method users expect on a frozen object.
+
+Examples
+--------
+>>> from workbench import load_preset
+>>> sc = load_preset("common_cause")
+>>> sc.replace(study=Study(n=200)).study.n
+200
+>>> sc.variable("fertilizer")
+Traceback (most recent call last):
+...
+workbench.errors.UnknownNameError: unknown variable 'fertilizer' (did you mean 'fertiliser'?)
 """
 
 from __future__ import annotations
@@ -21,12 +38,14 @@ __all__ = [
     "Question",
     "Study",
     "Scenario",
+    "minimum_study_size",
     "NAME_PATTERN",
     "VARIABLE_TYPES",
     "TARGETS",
     "SCALES",
     "MODELS",
     "SELECTIONS",
+    "CHANGE_THRESHOLD",
 ]
 
 NAME_PATTERN = re.compile(r"^[A-Za-z][A-Za-z0-9_]{0,31}$")
@@ -35,7 +54,11 @@ TARGETS = ("total", "direct")
 SCALES = ("difference", "log_odds_ratio")
 MODELS = ("ols", "logit")
 SELECTIONS = ("p_value", "change_in_estimate")
-MAX_SELECTION_CANDIDATES = 10
+"""The data-driven covariate selection rules (``selection`` of a strategy)."""
+CHANGE_THRESHOLD = 0.10
+"""The change-in-estimate rule keeps a candidate whose removal moves the exposure's coefficient by more than
+this share of the full-model coefficient (Mickey & Greenland 1989, American Journal of Epidemiology
+129(1):125-137)."""
 
 
 @dataclass(frozen=True)
@@ -161,10 +184,12 @@ class Study:
 
 @dataclass(frozen=True)
 class Scenario:
-    """A whole scenario. Build it with :func:`load_scenario` or :func:`scenario_from_dict`, which validate.
+    """A whole scenario. Build it with :func:`workbench.load_scenario`, :func:`workbench.loads_scenario` or
+    :func:`workbench.scenario_from_dict`, which validate.
 
-    ``strategies`` is never empty: when the file gives none, the default set is filled in
-    (``strategies_given`` is then False).
+    From those loaders ``strategies`` is never empty: when the file gives none, the default set is filled in
+    by the graph layer (``strategies_given`` is then False). The scenario layer's raw readers
+    (:mod:`workbench.scenario.parse`) leave it empty.
     """
 
     title: str
@@ -183,6 +208,8 @@ class Scenario:
         return [v.name for v in self.variables]
 
     def variable(self, name: str) -> Variable:
+        """The variable called ``name``; :class:`~workbench.errors.UnknownNameError` (a KeyError) naming the
+        closest name otherwise."""
         for v in self.variables:
             if v.name == name:
                 return v
@@ -215,6 +242,15 @@ class Scenario:
         return [(a.source, a.effect) for a in self.arrows if a.target == name]
 
     def strategy(self, name: str) -> Strategy:
+        """The strategy called ``name``; :class:`~workbench.errors.UnknownNameError` (a KeyError) naming the
+        closest name otherwise.
+
+        Examples
+        --------
+        >>> from workbench import load_preset
+        >>> load_preset("common_cause").strategy("unadjusted").adjust
+        ()
+        """
         for s in self.strategies:
             if s.name == name:
                 return s
@@ -235,3 +271,21 @@ class Scenario:
         keep = given or not changes.keys() & {"variables", "arrows", "question"}
         out = parse_scenario(scenario_to_dict(merged, include_default_strategies=keep))
         return out if given else dataclasses.replace(out, strategies_given=False)
+
+
+def minimum_study_size(scenario: Scenario) -> tuple[str, int, int]:
+    """The strategy with the most coefficients, its coefficients ``p`` and the smallest ``n`` it allows.
+
+    A study needs at least ``p + 2`` units for a strategy with ``p`` fitted coefficients (intercept, exposure
+    and each adjusted variable, or each candidate of a selection rule, whose full model is fitted first):
+    two residual degrees of freedom at least. The same rule checks ``study.n`` in a scenario file.
+
+    Examples
+    --------
+    >>> from workbench import load_preset
+    >>> minimum_study_size(load_preset("common_cause"))
+    ('adjust_soil', 3, 5)
+    """
+    widest = max(scenario.strategies, key=lambda s: s.n_coefficients)
+    p = widest.n_coefficients
+    return widest.name, p, p + 2

@@ -1,10 +1,17 @@
 """Scenario files: the assumed data-generating graph, the question, the strategies and the study settings.
 
 A scenario is one TOML file (the format is documented in ``docs/scenario-format.md``). This module reads it
-into frozen dataclasses, checks every field, and writes it back. Every problem raises
-:class:`~workbench.errors.ScenarioError` with a one-line message naming the place, for example
-``arrows[3].to: unknown variable 'rainfal' (did you mean 'rainfall'?)``. Arrays are counted from 1 in
-places, as people count them.
+into the frozen dataclasses of :mod:`workbench.scenario.model` and checks every field; writing it back is
+:mod:`workbench.scenario.write`. Every problem raises :class:`~workbench.errors.ScenarioError` with a
+one-line message naming the place, for example ``arrows[3].to: unknown variable 'rainfal' (did you mean
+'rainfall'?)``. Arrays are counted from 1 in places, as people count them.
+
+:func:`parse_scenario` reads the document in named steps, each stopping at the first problem: the title,
+the variables, the arrows (and that they form no cycle, found with :class:`graphlib.TopologicalSorter`), the
+question, the study settings (checked by :func:`~workbench.scenario.constraints.check_setting`, the rule the
+library, the command line and the dashboard share), the strategies, and last :func:`check_sizes`. The
+readers of text (:func:`parse_scenario_text`) and of files (:func:`read_scenario`) put the source in front
+of every place. None of them fills in default strategies: :mod:`workbench.graph.defaults` does.
 
 The graph is an assumption written down by the user; nothing here checks it against data.
 
@@ -39,7 +46,7 @@ Examples
 
 from __future__ import annotations
 
-import difflib
+import graphlib
 import math
 import os
 import re
@@ -48,8 +55,13 @@ import warnings
 from pathlib import Path
 from typing import Any
 
-from workbench.errors import ScenarioError
-from workbench.scenario.constraints import MAX_ARROWS, MAX_REPLICATES, MAX_SELECTION_CANDIDATES, MAX_VARIABLES
+from workbench.errors import ScenarioError, suggestion
+from workbench.scenario.constraints import (
+    MAX_ARROWS,
+    MAX_SELECTION_CANDIDATES,
+    MAX_VARIABLES,
+    check_setting,
+)
 from workbench.scenario.model import (
     MODELS,
     NAME_PATTERN,
@@ -63,6 +75,7 @@ from workbench.scenario.model import (
     Strategy,
     Study,
     Variable,
+    minimum_study_size,
 )
 
 __all__ = ["parse_scenario", "parse_scenario_text", "read_scenario", "check_sizes"]
@@ -79,16 +92,11 @@ _STRATEGY_KEYS = ("name", "adjust", "model", "standardize", "selection", "restri
 _STUDY_KEYS = ("n", "replicates", "seed", "alpha", "sample_sizes", "target_power", "target_halfwidth")
 
 
-def _suggest(word: str, choices) -> str:
-    close = difflib.get_close_matches(str(word), [str(c) for c in choices], n=1, cutoff=0.6)
-    return f" (did you mean '{close[0]}'?)" if close else ""
-
-
 def _check_keys(table: dict, allowed, where: str) -> None:
     for key in table:
         if key not in allowed:
             place = f"{where}.{key}" if where else key
-            raise ScenarioError(f"unknown key '{key}'{_suggest(key, allowed)}", where=place)
+            raise ScenarioError(f"unknown key '{key}'{suggestion(key, allowed)}", where=place)
 
 
 def _type_name(value: Any) -> str:
@@ -137,7 +145,9 @@ def _get(table: dict, key: str, kind: str, where: str, default: Any = None, requ
 def _choice(value: str, choices, place: str) -> str:
     if value not in choices:
         options = ", ".join(f"'{c}'" for c in choices)
-        raise ScenarioError(f"must be one of {options}, got '{value}'{_suggest(value, choices)}", where=place)
+        raise ScenarioError(
+            f"must be one of {options}, got '{value}'{suggestion(value, choices)}", where=place
+        )
     return value
 
 
@@ -147,7 +157,7 @@ def _known(name: Any, names, place: str) -> str:
             f"must be a variable name (a string), got {_type_name(name)} {name!r}", where=place
         )
     if name not in names:
-        raise ScenarioError(f"unknown variable '{name}'{_suggest(name, names)}", where=place)
+        raise ScenarioError(f"unknown variable '{name}'{suggestion(name, names)}", where=place)
     return name
 
 
@@ -193,43 +203,253 @@ def _parse_variable(name: str, table: Any) -> Variable:
         raise ScenarioError(f"must be >= 0, got {noise_sd:g}", where=f"{where}.noise_sd")
     if noise_sd == 0:
         warnings.warn(
-            f"{where}.noise_sd: 0 makes '{name}' a deterministic function of its causes", stacklevel=3
+            f"{where}.noise_sd: 0 makes '{name}' a deterministic function of its causes", stacklevel=4
         )
     baseline = _get(table, "baseline", "number", where, 0.0)
     return Variable(name, "continuous", noise_sd, baseline, None, observed, label, position)
 
 
-def _find_cycle(names: list[str], arrows: list[Arrow]) -> list[str] | None:
-    children: dict[str, list[str]] = {n: [] for n in names}
+def _check_acyclic(names: list[str], arrows: list[Arrow]) -> None:
+    """Refuse a cycle, naming it in arrow order (``graphlib`` reports each node before the one it causes)."""
+    sorter = graphlib.TopologicalSorter({name: () for name in names})
     for a in arrows:
-        children[a.source].append(a.target)
-    state: dict[str, int] = {}
-    stack: list[str] = []
+        sorter.add(a.target, a.source)
+    try:
+        sorter.prepare()
+    except graphlib.CycleError as exc:
+        cycle = exc.args[1]
+        raise ScenarioError(
+            "cycle: " + " -> ".join(cycle) + " (a causal graph must have no cycle)", where="arrows"
+        ) from None
 
-    def visit(node: str) -> list[str] | None:
-        state[node] = 1
-        stack.append(node)
-        for child in children[node]:
-            if state.get(child) == 1:
-                return stack[stack.index(child) :] + [child]
-            if child not in state:
-                found = visit(child)
-                if found:
-                    return found
-        state[node] = 2
-        stack.pop()
+
+def _parse_title(data: dict) -> tuple[str, str | None]:
+    """The title (not blank) and the optional summary."""
+    title = _get(data, "title", "str", "", required=True).strip()
+    if not title:
+        raise ScenarioError("must not be empty", where="title")
+    return title, _get(data, "summary", "str", "")
+
+
+def _parse_variables(data: dict) -> tuple[Variable, ...]:
+    """The ``[variables]`` tables, in file order: at least 2, at most :data:`MAX_VARIABLES`."""
+    var_tables = _get(data, "variables", "table", "", required=True)
+    if len(var_tables) < 2:
+        raise ScenarioError("needs at least the exposure and the outcome", where="variables")
+    if len(var_tables) > MAX_VARIABLES:
+        raise ScenarioError(f"at most {MAX_VARIABLES} variables, got {len(var_tables)}", where="variables")
+    return tuple(_parse_variable(name, table) for name, table in var_tables.items())
+
+
+def _parse_arrow(i: int, table: Any, names: list[str], seen: dict[tuple[str, str], int]) -> Arrow:
+    """Arrow ``i`` (counted from 1): known ends, not a self-arrow, not listed before."""
+    where = f"arrows[{i}]"
+    if not isinstance(table, dict):
+        raise ScenarioError(f"must be a table with from, to, effect, got {_type_name(table)}", where=where)
+    _check_keys(table, _ARROW_KEYS, where)
+    source = _known(_get(table, "from", "str", where, required=True), names, f"{where}.from")
+    target = _known(_get(table, "to", "str", where, required=True), names, f"{where}.to")
+    effect = _get(table, "effect", "number", where, required=True)
+    if source == target:
+        raise ScenarioError(f"an arrow from '{source}' to itself is not allowed", where=where)
+    if (source, target) in seen:
+        raise ScenarioError(
+            f"duplicate arrow {source} -> {target} (also arrows[{seen[(source, target)]}])", where=where
+        )
+    seen[(source, target)] = i
+    return Arrow(source, target, effect)
+
+
+def _parse_arrows(data: dict, names: list[str]) -> tuple[Arrow, ...]:
+    """The ``[[arrows]]``: at most :data:`MAX_ARROWS`, each valid, and no cycle."""
+    arrow_list = _get(data, "arrows", "list", "", default=[])
+    if len(arrow_list) > MAX_ARROWS:
+        raise ScenarioError(f"at most {MAX_ARROWS} arrows, got {len(arrow_list)}", where="arrows")
+    seen: dict[tuple[str, str], int] = {}
+    arrows = [_parse_arrow(i, table, names, seen) for i, table in enumerate(arrow_list, start=1)]
+    _check_acyclic(names, arrows)
+    return tuple(arrows)
+
+
+def _parse_also(q: dict, by_name: dict[str, Variable], exposure: str, outcome: str) -> tuple[str, ...]:
+    """``question.also``: further observed variables, not the exposure or the outcome, each once."""
+    also: list[str] = []
+    for i, name in enumerate(_get(q, "also", "list", "question", []), start=1):
+        place = f"question.also[{i}]"
+        _known(name, list(by_name), place)
+        if name in (exposure, outcome):
+            raise ScenarioError(
+                f"'{name}' is the {'exposure' if name == exposure else 'outcome'}; "
+                "'also' names further variables",
+                where=place,
+            )
+        if not by_name[name].observed:
+            raise ScenarioError(f"'{name}' is latent and cannot be estimated", where=place)
+        if name in also:
+            raise ScenarioError(f"'{name}' is listed twice", where=place)
+        also.append(name)
+    return tuple(also)
+
+
+def _parse_question(data: dict, by_name: dict[str, Variable]) -> Question:
+    """The ``[question]``: observed, distinct exposure and outcome; a target and scale the outcome allows."""
+    names = list(by_name)
+    q = _get(data, "question", "table", "", required=True)
+    _check_keys(q, _QUESTION_KEYS, "question")
+    exposure = _known(_get(q, "exposure", "str", "question", required=True), names, "question.exposure")
+    outcome = _known(_get(q, "outcome", "str", "question", required=True), names, "question.outcome")
+    if exposure == outcome:
+        raise ScenarioError(
+            f"the outcome must differ from the exposure (both '{exposure}')", where="question.outcome"
+        )
+    for role, name in (("exposure", exposure), ("outcome", outcome)):
+        if not by_name[name].observed:
+            raise ScenarioError(
+                f"the {role} '{name}' is latent (observed = false); it must be observed",
+                where=f"question.{role}",
+            )
+    target = _choice(_get(q, "target", "str", "question", "total"), TARGETS, "question.target")
+    scale = _choice(_get(q, "scale", "str", "question", "difference"), SCALES, "question.scale")
+    outcome_binary = by_name[outcome].is_binary
+    if scale == "log_odds_ratio" and not outcome_binary:
+        raise ScenarioError(
+            f"'log_odds_ratio' needs a binary outcome; '{outcome}' is continuous", where="question.scale"
+        )
+    if target == "direct" and outcome_binary:
+        raise ScenarioError(
+            f"the 'direct' target needs a continuous outcome; '{outcome}' is binary, and its arrow from "
+            "the exposure is a conditional log odds ratio that no marginal contrast equals",
+            where="question.target",
+        )
+    return Question(exposure, outcome, target, scale, _parse_also(q, by_name, exposure, outcome))
+
+
+def _study_setting(table: dict, key: str, kind: str, default: Any) -> Any:
+    """One ``[study]`` setting: its TOML type, then the shared rule of :func:`check_setting`."""
+    value = _get(table, key, kind, "study", default)
+    if value is None:
         return None
+    return check_setting(key, value, where=f"study.{key}")
 
-    for n in names:
-        if n not in state:
-            found = visit(n)
-            if found:
-                return found
-    return None
+
+def _parse_study(data: dict) -> Study:
+    """The ``[study]`` table; every setting is checked against
+    :data:`~workbench.scenario.constraints.STUDY_SETTINGS`."""
+    table = _get(data, "study", "table", "", {})
+    _check_keys(table, _STUDY_KEYS, "study")
+    defaults = Study()
+    n = _study_setting(table, "n", "int", defaults.n)
+    replicates = _study_setting(table, "replicates", "int", defaults.replicates)
+    seed = _study_setting(table, "seed", "int", defaults.seed)
+    alpha = _study_setting(table, "alpha", "number", defaults.alpha)
+    sizes = _get(table, "sample_sizes", "list", "study", list(defaults.sample_sizes))
+    if not sizes:
+        raise ScenarioError("must list at least one sample size", where="study.sample_sizes")
+    for i, size in enumerate(sizes, start=1):
+        check_setting("sample_size", size, where=f"study.sample_sizes[{i}]")
+    target_power = _study_setting(table, "target_power", "number", defaults.target_power)
+    target_halfwidth = _study_setting(table, "target_halfwidth", "number", None)
+    return Study(n, replicates, seed, alpha, tuple(sorted(set(sizes))), target_power, target_halfwidth)
+
+
+def _parse_adjust(table: dict, where: str, by_name: dict[str, Variable], question: Question) -> list[str]:
+    """A strategy's ``adjust``: observed variables other than the exposure and the outcome, each once."""
+    exposure, outcome = question.exposure, question.outcome
+    adjust: list[str] = []
+    for j, var in enumerate(_get(table, "adjust", "list", where, []), start=1):
+        place = f"{where}.adjust[{j}]"
+        _known(var, list(by_name), place)
+        if var == exposure:
+            raise ScenarioError(f"'{var}' is the exposure; it is always in the model", where=place)
+        if var == outcome:
+            raise ScenarioError(f"'{var}' is the outcome and cannot be adjusted for", where=place)
+        if not by_name[var].observed:
+            raise ScenarioError(
+                f"'{var}' is latent (observed = false) and cannot be adjusted for", where=place
+            )
+        if var in adjust:
+            raise ScenarioError(f"'{var}' is listed twice", where=place)
+        adjust.append(var)
+    return adjust
+
+
+def _parse_selection(table: dict, where: str, model: str, outcome_binary: bool, adjust: list[str]):
+    """A strategy's ``selection`` rule: OLS on a continuous outcome, 1 to 10 candidates in ``adjust``."""
+    selection = _get(table, "selection", "str", where, None)
+    if selection is None:
+        return None
+    _choice(selection, SELECTIONS, f"{where}.selection")
+    if model != "ols" or outcome_binary:
+        raise ScenarioError(
+            'selection applies to model = "ols" with a continuous outcome only', where=f"{where}.selection"
+        )
+    if not adjust:
+        raise ScenarioError(
+            "a selection rule needs candidate covariates in 'adjust'", where=f"{where}.selection"
+        )
+    if len(adjust) > MAX_SELECTION_CANDIDATES:
+        raise ScenarioError(
+            f"at most {MAX_SELECTION_CANDIDATES} candidate covariates with a selection rule, got {len(adjust)}",
+            where=f"{where}.adjust",
+        )
+    return selection
+
+
+def _parse_strategy(
+    i: int, table: Any, by_name: dict[str, Variable], question: Question, taken: set[str]
+) -> Strategy:
+    """Strategy ``i`` (counted from 1): a unique name, its set, model, options and design."""
+    where = f"strategies[{i}]"
+    if not isinstance(table, dict):
+        raise ScenarioError(f"must be a table, got {_type_name(table)}", where=where)
+    _check_keys(table, _STRATEGY_KEYS, where)
+    name = _get(table, "name", "str", where, required=True).strip()
+    if not name:
+        raise ScenarioError("must not be empty", where=f"{where}.name")
+    if name in taken:
+        raise ScenarioError(f"duplicate strategy name '{name}'", where=f"{where}.name")
+    exposure, outcome = question.exposure, question.outcome
+    outcome_binary = by_name[outcome].is_binary
+    adjust = _parse_adjust(table, where, by_name, question)
+    model = _choice(_get(table, "model", "str", where, "ols"), MODELS, f"{where}.model")
+    if model == "logit" and not outcome_binary:
+        raise ScenarioError(
+            f"'logit' needs a binary outcome; '{outcome}' is continuous", where=f"{where}.model"
+        )
+    standardize = _get(table, "standardize", "bool", where, False)
+    if standardize and model != "logit":
+        raise ScenarioError(
+            'standardize = true applies to model = "logit" only', where=f"{where}.standardize"
+        )
+    selection = _parse_selection(table, where, model, outcome_binary, adjust)
+    restrict = _parse_restrict(table, where, by_name, exposure, outcome, adjust)
+    if restrict and (model != "ols" or outcome_binary):
+        raise ScenarioError(
+            'restrict applies to model = "ols" with a continuous outcome only', where=f"{where}.restrict"
+        )
+    match = _parse_match(table, where, by_name, exposure, outcome, adjust, model)
+    return Strategy(name, tuple(adjust), model, standardize, selection, restrict, match)
+
+
+def _parse_strategies(
+    data: dict, by_name: dict[str, Variable], question: Question
+) -> tuple[tuple[Strategy, ...], bool]:
+    """The ``[[strategies]]`` and whether the file gives the key (an empty list is an error)."""
+    strategy_list = _get(data, "strategies", "list", "", None)
+    strategies: list[Strategy] = []
+    for i, table in enumerate(strategy_list or [], start=1):
+        strategies.append(_parse_strategy(i, table, by_name, question, {s.name for s in strategies}))
+    if strategy_list is not None and not strategies:
+        raise ScenarioError("lists no strategy; remove the key to get the default set", where="strategies")
+    return tuple(strategies), strategy_list is not None
 
 
 def parse_scenario(data: dict) -> Scenario:
     """Build and validate a scenario from the parsed TOML tables.
+
+    The steps, in the order a problem is found: the top-level keys, the title, the variables, the arrows
+    (and that they form no cycle), the question, the study settings, the strategies, and last whether ``n``
+    and every planned size fit the widest strategy (:func:`check_sizes`).
 
     Parameters
     ----------
@@ -260,202 +480,15 @@ def parse_scenario(data: dict) -> Scenario:
     if not isinstance(data, dict):
         raise ScenarioError("a scenario must be a TOML document (a table)")
     _check_keys(data, _TOP_KEYS, "")
-    title = _get(data, "title", "str", "", required=True).strip()
-    if not title:
-        raise ScenarioError("must not be empty", where="title")
-    summary = _get(data, "summary", "str", "")
-
-    var_tables = _get(data, "variables", "table", "", required=True)
-    if len(var_tables) < 2:
-        raise ScenarioError("needs at least the exposure and the outcome", where="variables")
-    if len(var_tables) > MAX_VARIABLES:
-        raise ScenarioError(f"at most {MAX_VARIABLES} variables, got {len(var_tables)}", where="variables")
-    variables = tuple(_parse_variable(name, table) for name, table in var_tables.items())
-    names = [v.name for v in variables]
-
-    arrow_list = _get(data, "arrows", "list", "", default=[])
-    if len(arrow_list) > MAX_ARROWS:
-        raise ScenarioError(f"at most {MAX_ARROWS} arrows, got {len(arrow_list)}", where="arrows")
-    arrows: list[Arrow] = []
-    seen: dict[tuple[str, str], int] = {}
-    for i, table in enumerate(arrow_list, start=1):
-        where = f"arrows[{i}]"
-        if not isinstance(table, dict):
-            raise ScenarioError(
-                f"must be a table with from, to, effect, got {_type_name(table)}", where=where
-            )
-        _check_keys(table, _ARROW_KEYS, where)
-        source = _known(_get(table, "from", "str", where, required=True), names, f"{where}.from")
-        target = _known(_get(table, "to", "str", where, required=True), names, f"{where}.to")
-        effect = _get(table, "effect", "number", where, required=True)
-        if source == target:
-            raise ScenarioError(f"an arrow from '{source}' to itself is not allowed", where=where)
-        if (source, target) in seen:
-            raise ScenarioError(
-                f"duplicate arrow {source} -> {target} (also arrows[{seen[(source, target)]}])", where=where
-            )
-        seen[(source, target)] = i
-        arrows.append(Arrow(source, target, effect))
-    cycle = _find_cycle(names, arrows)
-    if cycle:
-        raise ScenarioError(
-            "cycle: " + " -> ".join(cycle) + " (a causal graph must have no cycle)", where="arrows"
-        )
-
-    q = _get(data, "question", "table", "", required=True)
-    _check_keys(q, _QUESTION_KEYS, "question")
-    exposure = _known(_get(q, "exposure", "str", "question", required=True), names, "question.exposure")
-    outcome = _known(_get(q, "outcome", "str", "question", required=True), names, "question.outcome")
-    if exposure == outcome:
-        raise ScenarioError(
-            f"the outcome must differ from the exposure (both '{exposure}')", where="question.outcome"
-        )
+    title, summary = _parse_title(data)
+    variables = _parse_variables(data)
     by_name = {v.name: v for v in variables}
-    for role, name in (("exposure", exposure), ("outcome", outcome)):
-        if not by_name[name].observed:
-            raise ScenarioError(
-                f"the {role} '{name}' is latent (observed = false); it must be observed",
-                where=f"question.{role}",
-            )
-    target = _choice(_get(q, "target", "str", "question", "total"), TARGETS, "question.target")
-    scale = _choice(_get(q, "scale", "str", "question", "difference"), SCALES, "question.scale")
-    outcome_binary = by_name[outcome].is_binary
-    if scale == "log_odds_ratio" and not outcome_binary:
-        raise ScenarioError(
-            f"'log_odds_ratio' needs a binary outcome; '{outcome}' is continuous", where="question.scale"
-        )
-    if target == "direct" and outcome_binary:
-        raise ScenarioError(
-            f"the 'direct' target needs a continuous outcome; '{outcome}' is binary, and its arrow from "
-            "the exposure is a conditional log odds ratio that no marginal contrast equals",
-            where="question.target",
-        )
-    also_list = _get(q, "also", "list", "question", [])
-    also: list[str] = []
-    for i, name in enumerate(also_list, start=1):
-        place = f"question.also[{i}]"
-        _known(name, names, place)
-        if name in (exposure, outcome):
-            raise ScenarioError(
-                f"'{name}' is the {'exposure' if name == exposure else 'outcome'}; "
-                "'also' names further variables",
-                where=place,
-            )
-        if not by_name[name].observed:
-            raise ScenarioError(f"'{name}' is latent and cannot be estimated", where=place)
-        if name in also:
-            raise ScenarioError(f"'{name}' is listed twice", where=place)
-        also.append(name)
-    question = Question(exposure, outcome, target, scale, tuple(also))
-
-    study_table = _get(data, "study", "table", "", {})
-    _check_keys(study_table, _STUDY_KEYS, "study")
-    defaults = Study()
-    n = _get(study_table, "n", "int", "study", defaults.n)
-    replicates = _get(study_table, "replicates", "int", "study", defaults.replicates)
-    if not 1 <= replicates <= MAX_REPLICATES:
-        raise ScenarioError(
-            f"must be between 1 and {MAX_REPLICATES:,}, got {replicates}", where="study.replicates"
-        )
-    seed = _get(study_table, "seed", "int", "study", defaults.seed)
-    if seed < 0:
-        raise ScenarioError(f"must be a non-negative integer, got {seed}", where="study.seed")
-    alpha = _get(study_table, "alpha", "number", "study", defaults.alpha)
-    if not 0.0 < alpha <= 0.5:
-        raise ScenarioError(f"must lie in (0, 0.5], got {alpha:g}", where="study.alpha")
-    sizes = _get(study_table, "sample_sizes", "list", "study", list(defaults.sample_sizes))
-    if not sizes:
-        raise ScenarioError("must list at least one sample size", where="study.sample_sizes")
-    for i, size in enumerate(sizes, start=1):
-        if not isinstance(size, int) or isinstance(size, bool) or size < 1:
-            raise ScenarioError(f"must be a positive integer, got {size!r}", where=f"study.sample_sizes[{i}]")
-    sample_sizes = tuple(sorted(set(sizes)))
-    target_power = _get(study_table, "target_power", "number", "study", defaults.target_power)
-    if not 0.0 < target_power < 1.0:
-        raise ScenarioError(
-            f"must lie strictly between 0 and 1, got {target_power:g}", where="study.target_power"
-        )
-    target_halfwidth = _get(study_table, "target_halfwidth", "number", "study", None)
-    if target_halfwidth is not None and target_halfwidth <= 0:
-        raise ScenarioError(f"must be > 0, got {target_halfwidth:g}", where="study.target_halfwidth")
-    study = Study(n, replicates, seed, alpha, sample_sizes, target_power, target_halfwidth)
-
-    strategy_list = _get(data, "strategies", "list", "", None)
-    strategies: list[Strategy] = []
-    adjustable = {v.name for v in variables if v.observed} - {exposure, outcome}
-    for i, table in enumerate(strategy_list or [], start=1):
-        where = f"strategies[{i}]"
-        if not isinstance(table, dict):
-            raise ScenarioError(f"must be a table, got {_type_name(table)}", where=where)
-        _check_keys(table, _STRATEGY_KEYS, where)
-        name = _get(table, "name", "str", where, required=True).strip()
-        if not name:
-            raise ScenarioError("must not be empty", where=f"{where}.name")
-        if any(s.name == name for s in strategies):
-            raise ScenarioError(f"duplicate strategy name '{name}'", where=f"{where}.name")
-        adjust_list = _get(table, "adjust", "list", where, [])
-        adjust: list[str] = []
-        for j, var in enumerate(adjust_list, start=1):
-            place = f"{where}.adjust[{j}]"
-            _known(var, names, place)
-            if var == exposure:
-                raise ScenarioError(f"'{var}' is the exposure; it is always in the model", where=place)
-            if var == outcome:
-                raise ScenarioError(f"'{var}' is the outcome and cannot be adjusted for", where=place)
-            if var not in adjustable:
-                raise ScenarioError(
-                    f"'{var}' is latent (observed = false) and cannot be adjusted for", where=place
-                )
-            if var in adjust:
-                raise ScenarioError(f"'{var}' is listed twice", where=place)
-            adjust.append(var)
-        model = _choice(_get(table, "model", "str", where, "ols"), MODELS, f"{where}.model")
-        if model == "logit" and not outcome_binary:
-            raise ScenarioError(
-                f"'logit' needs a binary outcome; '{outcome}' is continuous", where=f"{where}.model"
-            )
-        standardize = _get(table, "standardize", "bool", where, False)
-        if standardize and model != "logit":
-            raise ScenarioError(
-                'standardize = true applies to model = "logit" only', where=f"{where}.standardize"
-            )
-        selection = _get(table, "selection", "str", where, None)
-        if selection is not None:
-            _choice(selection, SELECTIONS, f"{where}.selection")
-            if model != "ols" or outcome_binary:
-                raise ScenarioError(
-                    'selection applies to model = "ols" with a continuous outcome only',
-                    where=f"{where}.selection",
-                )
-            if not adjust:
-                raise ScenarioError(
-                    "a selection rule needs candidate covariates in 'adjust'", where=f"{where}.selection"
-                )
-            if len(adjust) > MAX_SELECTION_CANDIDATES:
-                raise ScenarioError(
-                    f"at most {MAX_SELECTION_CANDIDATES} candidate covariates with a selection rule, "
-                    f"got {len(adjust)}",
-                    where=f"{where}.adjust",
-                )
-        restrict = _parse_restrict(table, where, by_name, exposure, outcome, adjust)
-        if restrict and (model != "ols" or outcome_binary):
-            raise ScenarioError(
-                'restrict applies to model = "ols" with a continuous outcome only', where=f"{where}.restrict"
-            )
-        match = _parse_match(table, where, by_name, exposure, outcome, adjust, model)
-        strategies.append(Strategy(name, tuple(adjust), model, standardize, selection, restrict, match))
-    if strategy_list is not None and not strategies:
-        raise ScenarioError("lists no strategy; remove the key to get the default set", where="strategies")
-
+    arrows = _parse_arrows(data, list(by_name))
+    question = _parse_question(data, by_name)
+    study = _parse_study(data)
+    strategies, given = _parse_strategies(data, by_name, question)
     scenario = Scenario(
-        title,
-        question,
-        variables,
-        tuple(arrows),
-        tuple(strategies),
-        study,
-        summary,
-        strategies_given=strategy_list is not None,
+        title, question, variables, arrows, strategies, study, summary, strategies_given=given
     )
     check_sizes(scenario)
     return scenario
@@ -538,19 +571,17 @@ def check_sizes(scenario: Scenario) -> None:
     """n (and every planned size) must exceed the largest strategy's fitted coefficients + 1."""
     if not scenario.strategies:
         return
-    widest = max(scenario.strategies, key=lambda s: s.n_coefficients)
-    p = widest.n_coefficients
-    needed = p + 2
+    widest, p, needed = minimum_study_size(scenario)
     if scenario.study.n < needed:
         raise ScenarioError(
-            f"n = {scenario.study.n} is too small for strategy '{widest.name}' ({p} coefficients); "
+            f"n = {scenario.study.n} is too small for strategy '{widest}' ({p} coefficients); "
             f"n must be at least {needed}",
             where="study.n",
         )
     for i, size in enumerate(scenario.study.sample_sizes, start=1):
         if size < needed:
             raise ScenarioError(
-                f"{size} is too small for strategy '{widest.name}' ({p} coefficients); sizes must be at "
+                f"{size} is too small for strategy '{widest}' ({p} coefficients); sizes must be at "
                 f"least {needed}",
                 where=f"study.sample_sizes[{i}]",
             )

@@ -26,14 +26,15 @@ DEFAULT_PRESET = "common_cause"
 _NAME = re.compile(r"^[a-z][a-z0-9_]{0,63}$")
 
 
+_SOURCE_FOLDER = Path(__file__).resolve().parents[2] / "presets"
+
+
 def _folder():
-    try:
-        folder = resources.files("workbench.preset_data")
-        if any(str(p.name).endswith(".toml") for p in folder.iterdir()):
-            return folder
-    except (ModuleNotFoundError, FileNotFoundError, NotADirectoryError, TypeError):
-        pass
-    return Path(__file__).resolve().parent.parent / "presets"  # running from a source checkout
+    """The preset files: the top-level ``presets/`` folder when the code runs from a source checkout (as the
+    tests do, with the checkout on ``sys.path``), else the installed ``workbench.preset_data`` package."""
+    if _SOURCE_FOLDER.is_dir():
+        return _SOURCE_FOLDER
+    return resources.files("workbench.preset_data")
 
 
 def list_presets() -> dict[str, str]:

@@ -1,0 +1,305 @@
+"""The scenario editors under the graph: the variables table, the arrows table with an effect-size slider,
+and the scenario's TOML text. (The strategies editor is :mod:`workbench.app.strategies_editor`.)
+
+Each editor turns a user's edit into one call of a :class:`~workbench.app.state.ScenarioState` method and
+shows that section's error next to itself; the tables are rewritten from the scenario in effect after every
+valid change.
+"""
+
+from __future__ import annotations
+
+import pandas as pd
+import panel as pn
+import param
+from bokeh.models.widgets.tables import NumberFormatter
+
+from workbench.app.state import ScenarioState
+from workbench.app.widgets import MAIN_WIDTH, NOTE_STYLE, ErrorBox
+from workbench.report.graph_drawing import ROLE_STYLE, primary_role
+
+__all__ = ["VariablesEditor", "ArrowsEditor", "TomlEditor", "as_number"]
+
+
+def as_number(value):
+    """A table cell's value as a float when it reads as one, else as given (the parser names the problem).
+
+    Examples
+    --------
+    >>> as_number("0.5"), as_number("lots")
+    (0.5, 'lots')
+    """
+    try:
+        return float(value)
+    except (TypeError, ValueError):
+        return value
+
+
+class VariablesEditor(pn.viewable.Viewer):
+    """An editable table of the variables: add, delete, rename, change type, noise, proportion, observed."""
+
+    state = param.ClassSelector(class_=ScenarioState)
+
+    _COLUMNS = ["name", "role", "type", "noise_sd", "baseline", "proportion", "observed", "label"]
+    _NUMBERS = ("noise_sd", "baseline", "proportion")
+
+    def __init__(self, **params):
+        super().__init__(**params)
+        self.table = pn.widgets.Tabulator(
+            self._frame(),
+            show_index=False,
+            layout="fit_data_table",
+            selectable=False,
+            editors={
+                "name": {"type": "input"},
+                "role": None,
+                "type": {"type": "list", "values": ["continuous", "binary"]},
+                "noise_sd": {"type": "number", "step": 0.1},
+                "baseline": {"type": "number", "step": 0.1},
+                "proportion": {"type": "number", "step": 0.05, "min": 0, "max": 1},
+                "observed": None,  # one click toggles it (see _clicked); an editor would need three
+                "label": {"type": "input"},
+            },
+            formatters={
+                "observed": {"type": "tickCross"},
+                **{
+                    key: NumberFormatter(format="0.[0000]", nan_format="-", null_format="-")
+                    for key in self._NUMBERS
+                },
+            },
+            titles={"noise_sd": "noise SD", "observed": "observed (click)"},
+            buttons={"remove": "<span title='delete this variable'>✕</span>"},
+            css_classes=["wb-variables"],
+            max_height=300,
+            width=MAIN_WIDTH - 40,
+        )
+        self.table.on_edit(self._edited)
+        self.table.on_click(self._clicked)
+        self.new_name = pn.widgets.TextInput(
+            placeholder="new variable name", width=200, css_classes=["wb-new-variable"]
+        )
+        self.new_type = pn.widgets.Select(options=["continuous", "binary"], width=120)
+        self.add = pn.widgets.Button(label="Add variable", width=120, css_classes=["wb-add-variable"])
+        self.add.on_click(self._add)
+        self.state.param.watch(self._refresh, ["scenario", "report"])
+
+    def _frame(self) -> pd.DataFrame:
+        sc = self.state.scenario
+        roles = self.state.report.roles if self.state.report else {}
+        rows = [
+            {
+                "name": v.name,
+                "role": ROLE_STYLE[primary_role(sc, v.name, roles)][0],
+                "type": v.type,
+                "noise_sd": None if v.is_binary else v.noise_sd,
+                "baseline": None if v.is_binary else v.baseline,
+                "proportion": v.proportion,
+                "observed": v.observed,
+                "label": v.label or "",
+            }
+            for v in sc.variables
+        ]
+        return pd.DataFrame(rows, columns=self._COLUMNS)
+
+    def _refresh(self, *_):
+        frame = self._frame()
+        if not frame.equals(self.table.value):
+            self.table.value = frame
+
+    def _edited(self, event):
+        variables = self.state.scenario.variables
+        if event.row >= len(variables):
+            return
+        value = as_number(event.value) if event.column in self._NUMBERS else event.value
+        self.state.set_variable(variables[event.row].name, event.column, value)
+
+    def _clicked(self, event):
+        variables = self.state.scenario.variables
+        if event.row is None or event.row >= len(variables):
+            return
+        variable = variables[event.row]
+        if event.column == "remove":
+            self.state.remove_variable(variable.name)
+        elif event.column == "observed":
+            self.state.set_variable(variable.name, "observed", not variable.observed)
+
+    def _add(self, _event):
+        if self.state.add_variable(self.new_name.value, self.new_type.value):
+            self.new_name.value = ""
+
+    def __panel__(self):
+        return pn.Column(
+            self.table,
+            pn.Row(self.new_name, self.new_type, self.add),
+            ErrorBox(state=self.state, sections=["variables"]),
+            margin=0,
+            css_classes=["wb-variables-box"],
+        )
+
+
+class ArrowsEditor(pn.viewable.Viewer):
+    """An editable table of the arrows (cause, effect, size) with add and delete, and an effect slider."""
+
+    state = param.ClassSelector(class_=ScenarioState)
+
+    def __init__(self, **params):
+        super().__init__(**params)
+        self.table = pn.widgets.Tabulator(
+            self._frame(),
+            show_index=False,
+            layout="fit_data_table",
+            selectable=False,
+            editors=self._editors(),
+            titles={"from": "from (cause)", "to": "to (effect)", "effect": "effect size"},
+            buttons={"remove": "<span title='delete this arrow'>✕</span>"},
+            css_classes=["wb-arrows"],
+            max_height=300,
+            width=560,
+        )
+        self.table.on_edit(self._edited)
+        self.table.on_click(self._clicked)
+        names = self.state.scenario.names
+        self.new_from = pn.widgets.Select(options=names, width=150, css_classes=["wb-new-from"])
+        self.new_to = pn.widgets.Select(
+            options=names, value=names[-1] if names else None, width=150, css_classes=["wb-new-to"]
+        )
+        self.new_effect = pn.widgets.FloatInput(value=0.5, step=0.1, width=90)
+        self.add = pn.widgets.Button(label="Add arrow", width=110, css_classes=["wb-add-arrow"])
+        self.add.on_click(
+            lambda e: self.state.add_arrow(self.new_from.value, self.new_to.value, self.new_effect.value)
+        )
+        self.slider_arrow = pn.widgets.Select(label="Arrow", width=260, css_classes=["wb-slider-arrow"])
+        self.slider = pn.widgets.FloatSlider(
+            label="Effect size",
+            start=-2.0,
+            end=2.0,
+            step=0.05,
+            value=0.0,
+            width=300,
+            css_classes=["wb-effect-slider"],
+        )
+        self.slider_arrow.param.watch(lambda e: self._sync_slider(), "value")
+        self.slider.param.watch(self._slid, "value_throttled")
+        self.state.param.watch(self._refresh, "scenario")
+        self._refresh()
+
+    def _editors(self):
+        names = self.state.scenario.names
+        return {
+            "from": {"type": "list", "values": names},
+            "to": {"type": "list", "values": names},
+            "effect": {"type": "number", "step": 0.05},
+        }
+
+    def _frame(self) -> pd.DataFrame:
+        arrows = self.state.scenario.arrows
+        return pd.DataFrame(
+            {
+                "from": [a.source for a in arrows],
+                "to": [a.target for a in arrows],
+                "effect": [a.effect for a in arrows],
+            }
+        )
+
+    def _refresh(self, *_):
+        names = self.state.scenario.names
+        if names != self.new_from.options:
+            self.table.editors = self._editors()
+            self.new_from.options = names
+            self.new_to.param.update(options=names, value=names[-1] if names else None)
+        frame = self._frame()
+        if not frame.equals(self.table.value):
+            self.table.value = frame
+        arrows = self.state.scenario.arrows
+        options = {f"{a.source} -> {a.target}": i for i, a in enumerate(arrows)}
+        if options != self.slider_arrow.options:
+            keep = self.slider_arrow.value
+            self.slider_arrow.options = options
+            self.slider_arrow.value = keep if keep in options.values() else (0 if arrows else None)
+        self._sync_slider()
+
+    def _sync_slider(self):
+        index = self.slider_arrow.value
+        arrows = self.state.scenario.arrows
+        if index is None or index >= len(arrows):
+            self.slider.disabled = True
+            return
+        effect = arrows[index].effect
+        reach = max(2.0, 2 * abs(effect))
+        self.slider.param.update(start=-reach, end=reach, value=effect, disabled=False)
+
+    def _slid(self, event):
+        index = self.slider_arrow.value
+        if index is not None and event.new is not None:
+            self.state.set_arrow(index, effect=round(float(event.new), 6))
+
+    def _edited(self, event):
+        key = {"from": "source", "to": "target", "effect": "effect"}.get(event.column)
+        if key is not None:
+            value = as_number(event.value) if key == "effect" else event.value
+            self.state.set_arrow(event.row, **{key: value})
+
+    def _clicked(self, event):
+        if event.column == "remove":
+            self.state.remove_arrow(event.row)
+
+    def __panel__(self):
+        help_text = pn.pane.Markdown(
+            "Each arrow is a direct causal effect: the change in the effect variable per unit of the cause "
+            "(mean scale for a continuous variable, log-odds scale for a binary one). Edit a cell and press "
+            "Enter; the graph, roles, verdicts and truth update at once.",
+            width=440,
+            styles=NOTE_STYLE,
+        )
+        slider_text = pn.pane.Markdown(
+            "**Try an effect size**: pick an arrow and drag the slider. On a linear-Gaussian graph "
+            "the simulation re-runs when you let go.",
+            width=440,
+            styles=NOTE_STYLE,
+        )
+        return pn.Row(
+            pn.Column(
+                self.table,
+                pn.Row(self.new_from, self.new_to, self.new_effect, self.add),
+                ErrorBox(state=self.state, sections=["arrows"]),
+                margin=0,
+            ),
+            pn.Column(help_text, slider_text, self.slider_arrow, self.slider, margin=0),
+        )
+
+
+class TomlEditor(pn.viewable.Viewer):
+    """The scenario as TOML text, editable and kept in sync with the other editors."""
+
+    state = param.ClassSelector(class_=ScenarioState)
+
+    def __init__(self, **params):
+        super().__init__(**params)
+        self.editor = pn.widgets.TextAreaInput(
+            value=self.state.text,
+            height=420,
+            width=640,
+            css_classes=["wb-toml"],
+            stylesheets=[":host textarea {font-family: monospace; font-size: 12px;}"],
+        )
+        self.apply = pn.widgets.Button(
+            label="Apply text", color="primary", width=140, css_classes=["wb-apply-toml"]
+        )
+        self.apply.on_click(lambda e: self.state.apply_text(self.editor.value_input or self.editor.value))
+        self.state.param.watch(self._refresh, "text")
+
+    def _refresh(self, *_):
+        if self.editor.value != self.state.text:
+            self.editor.value = self.state.text
+
+    def __panel__(self):
+        help_text = pn.pane.Markdown(
+            "The same scenario as a TOML file. Edit and press **Apply text**: the text is parsed and checked; "
+            "if it has a mistake the error is shown, your text stays here, and the last valid scenario stays "
+            "in effect. Edits in the tables rewrite this text.",
+            width=380,
+            styles=NOTE_STYLE,
+        )
+        return pn.Row(
+            pn.Column(self.editor, self.apply, ErrorBox(state=self.state, sections=["toml"]), margin=0),
+            help_text,
+        )

@@ -1,0 +1,254 @@
+"""Fitting every fit of a plan on one chunk of replicates, batched.
+
+Each fit of the plan (:mod:`workbench.engine.fitplan`) is computed for all replicates of the chunk at once:
+
+- classical OLS, with or without a data-driven selection rule, from the chunk's cross-products
+  (:func:`workbench.engine.ols.fit_crossproducts`, :func:`workbench.engine.ols.fit_selected`);
+- a restricted or matched fit from the masked cross-products of the rows it keeps
+  (:mod:`workbench.engine.design`, :func:`workbench.engine.ols.masked_crossproducts`); replicates with fewer
+  than ``p + 2`` kept units fail with a counted reason;
+- the linear probability model (OLS on a binary outcome) with HC3 SEs from the rows
+  (:func:`workbench.engine.robust.ols_hc3_batch`);
+- logistic regression from the rows (:func:`workbench.engine.logistic.fit_logit_batch`), plain or
+  standardised (:func:`workbench.engine.standardize.standardized_contrast`); both forms with one set share
+  one fit.
+
+A replicate whose exposure estimate or SE is not finite counts as failed; every number of a failed replicate
+is NaN.
+
+Examples
+--------
+>>> from workbench import load_preset
+>>> from workbench.engine.chunks import ChunkDraws
+>>> from workbench.engine.fitplan import fit_plan
+>>> sc = load_preset("common_cause")
+>>> plan = fit_plan(sc)
+>>> draws = ChunkDraws(sc, plan, "raw", 100, 50, np.random.SeedSequence(2))
+>>> chunk = next(iter(draws))
+>>> results = fit_chunk(plan, chunk.crossproducts, chunk.data, 100, draws.index, draws.names)
+>>> [r.estimate.shape for r in results], results[1].df.tolist()[:2]
+([(50,), (50,)], [97.0, 97.0])
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from dataclasses import dataclass
+
+import numpy as np
+
+from workbench.engine.design import design_mask
+from workbench.engine.fitplan import Fit, Plan
+from workbench.engine.logistic import design_matrix, fit_logit_batch
+from workbench.engine.ols import BatchFit, fit_crossproducts, fit_selected, masked_crossproducts
+from workbench.engine.robust import ols_hc3_batch
+from workbench.engine.standardize import standardized_contrast
+
+__all__ = ["FitResult", "fit_chunk"]
+
+
+@dataclass
+class FitResult:
+    """One fit's results on the replicates of a chunk (arrays over replicates, axis 0).
+
+    Attributes
+    ----------
+    estimate, se : ndarray of shape (r,)
+        The exposure's estimate and SE; NaN where the fit failed.
+    also_estimate, also_se : ndarray of shape (r, A)
+        The question's ``also`` variables; NaN where not adjusted for or failed.
+    vif : ndarray of shape (r,)
+        The exposure's variance inflation factor.
+    failed : ndarray of bool, shape (r,)
+    reasons : Counter
+        Failures counted by reason.
+    df : ndarray of shape (r,)
+        Degrees of freedom of classical OLS intervals in each replicate.
+    selected : ndarray of int, shape (r,)
+        The bit pattern of the candidates a selection rule kept; -1 otherwise.
+    retained : ndarray of shape (r,)
+        Units kept by a restriction or matching; NaN otherwise.
+    """
+
+    estimate: np.ndarray
+    se: np.ndarray
+    also_estimate: np.ndarray
+    also_se: np.ndarray
+    vif: np.ndarray
+    failed: np.ndarray
+    reasons: Counter
+    df: np.ndarray
+    selected: np.ndarray
+    retained: np.ndarray
+
+
+def _masked_fit(f: Fit, S: np.ndarray, kept: np.ndarray, y: int, regs: list[int], names, alpha: float):
+    """OLS (or a selection rule) on each replicate's kept units; replicates with fewer than ``p + 2`` such
+    units fail with a counted reason."""
+    R = S.shape[0]
+    need = len(regs) + 2
+    ok = kept >= need
+    coef = np.full((R, len(regs)), np.nan)
+    se = coef.copy()
+    vif = np.full(R, np.nan)
+    sigma2 = np.full(R, np.nan)
+    df = np.full(R, np.nan)
+    selected = np.full(R, -1, dtype=np.int64)
+    failed = ~ok
+    reasons: Counter = Counter()
+    if (~ok).any():
+        where = "inside the restriction" if not f.match else "after matching"
+        reasons[f"too few units {where} (fewer than {need})"] = int((~ok).sum())
+    rows = np.flatnonzero(ok)
+    if rows.size:
+        if f.selection is not None:
+            part = fit_selected(S[rows], kept[rows], y, regs[0], regs[1:], f.selection, alpha, names)
+            selected[rows] = part.selected
+        else:
+            part = fit_crossproducts(S[rows], kept[rows], y, regs, names)
+        coef[rows], se[rows], vif[rows], sigma2[rows] = part.coef, part.se, part.vif, part.residual_variance
+        df[rows] = part.df
+        failed[rows] = part.failed
+        reasons.update(part.reasons)
+    return BatchFit(coef, se, df, failed, reasons, vif, sigma2, selected if f.selection is not None else None)
+
+
+class _ChunkFitter:
+    """The shared work of one chunk: masked cross-products per design, logistic fits per regressor set."""
+
+    def __init__(self, plan: Plan, S, data, n: int, index: list[int], names, alpha: float):
+        self.plan, self.S, self.data, self.n = plan, S, data, n
+        self.index, self.names, self.alpha = index, names, alpha
+        self.y = index[plan.outcome]
+        self.masked = {}  # (restrict, match) -> (masked cross-products, rows kept)
+        self.logits = {}  # regressors -> (design, LogitFit)
+
+    def ols(self, f: Fit):
+        """The fit from cross-products: (BatchFit, units kept or None)."""
+        regs = [self.index[i] for i in f.regressors]
+        if f.masked:
+            key = (f.restrict, f.match)
+            if key not in self.masked:
+                mask = design_mask(self.data, self.plan.exposure, f.restrict, f.match)
+                self.masked[key] = masked_crossproducts(self.data, mask)
+            fit_S, kept = self.masked[key]
+            return _masked_fit(f, fit_S, kept, self.y, regs, self.names, self.alpha), kept
+        if f.selection is not None:
+            return fit_selected(
+                self.S, self.n, self.y, regs[0], regs[1:], f.selection, self.alpha, self.names
+            ), None
+        return fit_crossproducts(self.S, self.n, self.y, regs, self.names), None
+
+    def rows(self) -> np.ndarray:
+        """The chunk's data as (r, n, k) rows."""
+        return self.data.transpose(0, 2, 1)
+
+    def lpm(self, f: Fit, batch: BatchFit, reasons: Counter):
+        """The linear probability model with HC3 SEs: (coef, se, failed)."""
+        rows = self.rows()
+        X = design_matrix(rows, self.plan.exposure, list(f.regressors[1:]))
+        coef, se, hc3_failed = ols_hc3_batch(X, rows[:, :, self.plan.outcome])
+        extra = hc3_failed & ~batch.failed
+        if extra.any():
+            reasons["HC3 SE undefined: a row with leverage 1"] += int(extra.sum())
+        return coef[:, 1:], se[:, 1:], batch.failed | hc3_failed
+
+    def logit(self, f: Fit):
+        """Logistic regression, plain or standardised: (coef, se, failed, reasons)."""
+        if f.regressors not in self.logits:  # plain and standardised logit with one set share a fit
+            rows = self.rows()
+            X = design_matrix(rows, self.plan.exposure, list(f.regressors[1:]))
+            self.logits[f.regressors] = (X, fit_logit_batch(X, rows[:, :, self.plan.outcome]))
+        X, fit = self.logits[f.regressors]
+        failed = fit.failed
+        reasons = Counter(str(r) for r in fit.failure[failed])
+        coef = fit.coef[:, 1:]
+        se = fit.se[:, 1:]
+        if f.kind == "logit_std":
+            exposure_kind = "binary" if self.plan.binary_exposure else "continuous"
+            est, est_se = standardized_contrast(fit, X, 1, exposure_kind=exposure_kind, scale=f.scale)
+            coef = coef.copy()
+            se = se.copy()
+            coef[:, 0] = est
+            se[:, 0] = est_se
+        return coef, se, failed, reasons
+
+    def fit(self, f: Fit) -> FitResult:
+        """One fit of the plan on the chunk."""
+        batch, kept = self.ols(f)
+        R = self.S.shape[0]
+        reasons = Counter(batch.reasons)
+        if f.kind == "ols":
+            coef, se, failed = batch.coef, batch.se, batch.failed
+        elif f.kind == "lpm":
+            coef, se, failed = self.lpm(f, batch, reasons)
+        else:
+            coef, se, failed, reasons = self.logit(f)
+        return _result(
+            f,
+            coef,
+            se,
+            failed,
+            reasons,
+            batch,
+            df=np.broadcast_to(np.asarray(batch.df, dtype=float), (R,)).copy(),
+            selected=batch.selected if batch.selected is not None else np.full(R, -1, dtype=np.int64),
+            retained=kept.astype(float) if kept is not None else np.full(R, np.nan),
+        )
+
+
+def _result(f: Fit, coef, se, failed, reasons: Counter, batch: BatchFit, df, selected, retained) -> FitResult:
+    """A fit's results with non-finite exposure estimates or SEs counted as failures and failed replicates
+    blanked (NaN)."""
+    est = coef[:, 0]
+    est_se = se[:, 0]
+    bad = ~failed & ~(np.isfinite(est) & np.isfinite(est_se))
+    if bad.any():
+        reasons["non-finite estimate or SE"] += int(bad.sum())
+        failed = failed | bad
+    est = np.where(failed, np.nan, est)
+    est_se = np.where(failed, np.nan, est_se)
+    also_est = np.full((len(est), len(f.also)), np.nan)
+    also_se = np.full((len(est), len(f.also)), np.nan)
+    for a, pos in enumerate(f.also):
+        if pos >= 0:
+            also_est[:, a] = np.where(failed, np.nan, coef[:, pos])
+            also_se[:, a] = np.where(failed, np.nan, se[:, pos])
+    vif = np.where(failed, np.nan, batch.vif)
+    return FitResult(est, est_se, also_est, also_se, vif, failed, reasons, df, selected, retained)
+
+
+def fit_chunk(
+    plan: Plan,
+    S: np.ndarray,
+    data: np.ndarray | None,
+    n: int,
+    index: list[int],
+    names,
+    alpha: float = 0.05,
+) -> list[FitResult]:
+    """Fit every fit of ``plan`` on one chunk of replicates.
+
+    Parameters
+    ----------
+    plan : Plan
+    S : ndarray of shape (r, m, m)
+        The chunk's centred cross-products.
+    data : ndarray of shape (r, k, n) or None
+        The rows, needed when some fit needs them (:attr:`Plan.needs_rows`).
+    n : int
+        Units per replicate.
+    index : list of int
+        For each variable (file order) its row of ``S``.
+    names : list of str
+        The names of the rows of ``S`` (for failure reasons).
+    alpha : float
+        Level of a selection rule's tests.
+
+    Returns
+    -------
+    list of FitResult
+        In the order of ``plan.fits``.
+    """
+    fitter = _ChunkFitter(plan, S, data, n, index, names, alpha)
+    return [fitter.fit(f) for f in plan.fits]

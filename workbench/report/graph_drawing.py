@@ -1,0 +1,605 @@
+"""Drawing the causal graph as a Bokeh figure: positions, arrows, nodes coloured by role, labels, legend.
+
+:func:`graph_figure` draws in named steps: the positions (:func:`graph_layout`), the frame that maps them to
+pixels, the places of the names and effect labels (a greedy search for the least covered spot), the arrows
+(thick and dashed along a path a strategy leaves open, faded along a blocked one), the nodes (one glyph per
+role, latent variables hollow and dashed, the adjustment set ringed), the names and the legend below the
+drawing, where it never covers a node.
+
+Examples
+--------
+>>> from workbench import load_preset
+>>> fig = graph_figure(load_preset("common_cause"))
+>>> type(fig).__name__
+'figure'
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass
+
+import networkx as nx
+from bokeh.models import Arrow, ColumnDataSource, HoverTool, Legend, LegendItem, Range1d, VeeHead
+from bokeh.plotting import figure
+
+from workbench.report.style import EDGE_COLOUR, FONT, style_figure
+from workbench.scenario.model import Scenario
+
+__all__ = ["ROLE_STYLE", "primary_role", "graph_layout", "graph_figure"]
+
+#: Role -> (legend text, fill colour, marker). The order is the legend's order.
+ROLE_STYLE = {
+    "exposure": ("exposure", "#E69F00", "square"),
+    "outcome": ("outcome", "#CC79A7", "diamond"),
+    "confounder": ("confounder", "#D55E00", "circle"),
+    "mediator": ("mediator", "#56B4E9", "circle"),
+    "common_effect": ("common effect", "#F0E442", "circle"),
+    "instrument": ("instrument", "#0072B2", "circle"),
+    "outcome_cause": ("outcome cause", "#009E73", "circle"),
+    "other": ("other", "#999999", "circle"),
+}
+_ROLE_PRIORITY = ("confounder", "mediator", "common_effect", "instrument", "outcome_cause")
+_RADIUS_PX = 15.0
+"""A node's radius in pixels (the frame has a fixed pixel size, so arrow heads stop at the nodes' edges)."""
+
+Box = tuple[float, float, float, float]
+"""A box in pixels: (x_min, y_min, x_max, y_max)."""
+
+
+def primary_role(scenario: Scenario, name: str, roles: dict | None) -> str:
+    """The role that decides a variable's colour: exposure, outcome, then the first of confounder,
+    mediator, common effect, instrument, outcome cause that applies, else "other".
+
+    Examples
+    --------
+    >>> from workbench import load_preset
+    >>> sc = load_preset("common_cause")
+    >>> primary_role(sc, "fertiliser", {}), primary_role(sc, "soil_quality", {"soil_quality": [("confounder", "")]})
+    ('exposure', 'confounder')
+    """
+    q = scenario.question
+    if name == q.exposure:
+        return "exposure"
+    if name == q.outcome:
+        return "outcome"
+    found = {role for role, _ in (roles or {}).get(name, [])}
+    for role in _ROLE_PRIORITY:
+        if role in found:
+            return role
+    return "other"
+
+
+# ------------------------------------------------------------------------------------------------------
+# Positions
+# ------------------------------------------------------------------------------------------------------
+def graph_layout(scenario: Scenario) -> dict[str, tuple[float, float]]:
+    """Positions for drawing: the scenario's own when every variable has one; otherwise layered left to
+    right by topological generation, with the exposure and the outcome on the middle row.
+
+    Within a layer the other variables take rows above and below the middle one, ordered by the mean row of
+    their causes already placed (the barycentre heuristic of Sugiyama K., Tagawa S., Toda M. (1981).
+    Methods for visual understanding of hierarchical system structures. IEEE Transactions on Systems, Man,
+    and Cybernetics 11(2):109-125), which keeps arrows short and reduces crossings.
+
+    Examples
+    --------
+    >>> from workbench import load_preset
+    >>> graph_layout(load_preset("common_cause"))
+    {'soil_quality': (0.0, 1.0), 'fertiliser': (1.0, 0.0), 'wheat_yield': (2.0, 0.0)}
+    """
+    if all(v.position is not None for v in scenario.variables):
+        return {v.name: (float(v.position[0]), float(v.position[1])) for v in scenario.variables}
+    G = nx.DiGraph()
+    G.add_nodes_from(scenario.names)
+    G.add_edges_from((a.source, a.target) for a in scenario.arrows)
+    order = scenario.names.index
+    q = scenario.question
+    positions: dict[str, tuple[float, float]] = {}
+    for x, generation in enumerate(nx.topological_generations(G)):
+        members = sorted(generation, key=order)
+        main = [m for m in members if m in (q.exposure, q.outcome)]
+        rest = [m for m in members if m not in main]
+        for m in main:
+            positions[m] = (float(x), 0.0)
+        # rows 1, -1, 2, -2, ...: the ones nearest the middle first; then hand them out top to bottom in
+        # the order of each variable's barycentre (mean row of its placed causes; file order breaks ties)
+        rows = sorted(
+            (float((i // 2 + 1) * (1 if i % 2 == 0 else -1)) for i in range(len(rest))), reverse=True
+        )
+
+        def barycentre(m: str) -> float:
+            placed = [positions[p][1] for p in G.predecessors(m) if p in positions]
+            return sum(placed) / len(placed) if placed else 0.0
+
+        ranked = sorted(rest, key=lambda m: (-barycentre(m), order(m))) if x > 0 else rest
+        for m, y in zip(ranked, rows, strict=True):
+            positions[m] = (float(x), y)
+    return {name: positions[name] for name in scenario.names}
+
+
+@dataclass(frozen=True)
+class _Frame:
+    """The drawing's data ranges and its fixed pixel size; converts between data units and pixels."""
+
+    x0: float
+    x1: float
+    y0: float
+    y1: float
+    width: int
+    height: int
+
+    @property
+    def sx(self) -> float:
+        """Pixels per data unit across."""
+        return self.width / (self.x1 - self.x0)
+
+    @property
+    def sy(self) -> float:
+        """Pixels per data unit up."""
+        return self.height / (self.y1 - self.y0)
+
+    def to_pixels(self, point: tuple[float, float]) -> tuple[float, float]:
+        return (point[0] - self.x0) * self.sx, (point[1] - self.y0) * self.sy
+
+    def to_data(self, pixel: tuple[float, float]) -> tuple[float, float]:
+        return self.x0 + pixel[0] / self.sx, self.y0 + pixel[1] / self.sy
+
+    @property
+    def outside(self) -> tuple[float, float]:
+        """A point outside the view, where the legend's sample glyphs are drawn."""
+        return self.x0 - 10, self.y0 - 10
+
+
+def _frame(pos: dict[str, tuple[float, float]], width: int, height: int) -> _Frame:
+    """Data ranges with margins in pixels around the outermost nodes: room for a node and a name beside or
+    below it (a single row or column is centred)."""
+    xs = [p[0] for p in pos.values()]
+    ys = [p[1] for p in pos.values()]
+    longest = max((len(n) for n in pos), default=8)
+    left = right = max(60.0, 3.6 * longest + 24)
+    top, bottom = 34.0, 40.0
+    span_x, span_y = max(xs) - min(xs), max(ys) - min(ys)
+    sx = (width - left - right) / span_x if span_x > 0 else 200.0
+    sy = (height - top - bottom) / span_y if span_y > 0 else 120.0
+    x0, x1 = min(xs) - left / sx, max(xs) + right / sx
+    y0, y1 = min(ys) - bottom / sy, max(ys) + top / sy
+    if span_x == 0:
+        x0, x1 = min(xs) - width / (2 * sx), min(xs) + width / (2 * sx)
+    if span_y == 0:
+        y0, y1 = min(ys) - height / (2 * sy), min(ys) + height / (2 * sy)
+    return _Frame(x0, x1, y0, y1, width, height)
+
+
+# ------------------------------------------------------------------------------------------------------
+# Label placement
+# ------------------------------------------------------------------------------------------------------
+def _effect_text(effect: float) -> str:
+    """An arrow's label: at most three significant digits, no plus sign.
+
+    Examples
+    --------
+    >>> _effect_text(0.25), _effect_text(-0.08), _effect_text(1.0), _effect_text(0.123456)
+    ('0.25', '-0.08', '1', '0.123')
+    """
+    return f"{effect:.3g}"
+
+
+def _box_overlap(a: Box, b: Box) -> float:
+    """Overlapping area of two boxes."""
+    w = min(a[2], b[2]) - max(a[0], b[0])
+    h = min(a[3], b[3]) - max(a[1], b[1])
+    return w * h if w > 0 and h > 0 else 0.0
+
+
+def _points_inside(box: Box, points) -> int:
+    x_min, y_min, x_max, y_max = box
+    return sum(1 for x, y in points if x_min <= x <= x_max and y_min <= y <= y_max)
+
+
+def _box(centre: tuple[float, float], w: float, h: float) -> Box:
+    cx, cy = centre
+    return (cx - w / 2, cy - h / 2, cx + w / 2, cy + h / 2)
+
+
+@dataclass
+class _Obstacles:
+    """What a label should not cover: sample points along the arrows, the nodes' discs, the labels placed
+    so far, and the frame's edges."""
+
+    edge_points: list[tuple[float, float]]
+    discs: list[Box]
+    taken: list[Box]
+    width: float
+    height: float
+
+    def outside(self, box: Box) -> float:
+        """A penalty for the part of ``box`` beyond the frame's edges."""
+        return (
+            max(0.0, -box[0])
+            + max(0.0, box[2] - self.width)
+            + max(0.0, -box[1])
+            + max(0.0, box[3] - self.height)
+        ) * 40
+
+
+def _obstacles(pixels, arrows, radius: float, width: float, height: float) -> _Obstacles:
+    """Sample every drawn arrow (between the nodes' edges) and the nodes' discs, in pixels."""
+    edge_points: list[tuple[float, float]] = []
+    for a in arrows:
+        (ax, ay), (bx, by) = pixels[a.source], pixels[a.target]
+        length = math.hypot(bx - ax, by - ay) or 1.0
+        steps = max(4, int(length / 6))
+        cut = (radius + 4) / length
+        for k in range(steps + 1):
+            t = cut + (1 - 2 * cut) * k / steps
+            edge_points.append((ax + (bx - ax) * t, ay + (by - ay) * t))
+    discs = [(x - radius - 2, y - radius - 2, x + radius + 2, y + radius + 2) for x, y in pixels.values()]
+    return _Obstacles(edge_points, discs, [], width, height)
+
+
+def _place_names(pixels, obstacles: _Obstacles, radius: float) -> dict[str, tuple[float, float]]:
+    """Each variable's name below, above, right or left of its node, wherever it covers least (the earlier
+    candidates preferred)."""
+    name_char_px, line_px = 7.0, 15.0
+    names: dict[str, tuple[float, float]] = {}
+    gap = radius + 3
+    for name, (x, y) in pixels.items():
+        w, h = name_char_px * len(name) + 4, line_px
+        candidates = [
+            (x, y - gap - h / 2),  # below (pixel y grows upwards here)
+            (x, y + gap + h / 2),  # above
+            (x + gap + w / 2, y),  # right
+            (x - gap - w / 2, y),  # left
+        ]
+        best, best_score = candidates[0], math.inf
+        for rank, centre in enumerate(candidates):
+            box = _box(centre, w, h)
+            score = (
+                8 * _points_inside(box, obstacles.edge_points)
+                + sum(_box_overlap(box, d) for d in obstacles.discs) / 4
+                + sum(_box_overlap(box, t) for t in obstacles.taken) / 2
+                + obstacles.outside(box)
+                + 3 * rank
+            )
+            if score < best_score:
+                best, best_score = centre, score
+        names[name] = best
+        obstacles.taken.append(_box(best, w, h))
+    return names
+
+
+def _place_effects(pixels, arrows, obstacles: _Obstacles) -> list[tuple[float, float]]:
+    """Each arrow's effect label along the middle part of the arrow, wherever it covers least (the middle
+    preferred)."""
+    char_px, line_px = 6.3, 15.0
+    labels: list[tuple[float, float]] = []
+    for a in arrows:
+        (ax, ay), (bx, by) = pixels[a.source], pixels[a.target]
+        w, h = char_px * len(_effect_text(a.effect)) + 6, line_px - 1
+        best, best_score = None, math.inf
+        for t in (0.5, 0.42, 0.58, 0.35, 0.65, 0.28, 0.72):
+            centre = (ax + (bx - ax) * t, ay + (by - ay) * t)
+            box = _box(centre, w, h)
+            score = (
+                sum(_box_overlap(box, d) for d in obstacles.discs)
+                + sum(_box_overlap(box, o) for o in obstacles.taken)
+                + obstacles.outside(box)
+                + 20 * abs(t - 0.5)
+            )
+            if score < best_score:
+                best, best_score = centre, score
+        labels.append(best)
+        obstacles.taken.append(_box(best, w, h))
+    return labels
+
+
+def _place_labels(
+    pixels: dict[str, tuple[float, float]],
+    arrows,
+    *,
+    radius: float,
+    width: float,
+    height: float,
+) -> tuple[dict[str, tuple[float, float]], list[tuple[float, float]]]:
+    """Where to write the variables' names and the arrows' effects, in pixels, so that they overlap the
+    arrows, the nodes and each other as little as possible (a greedy search over a few candidate places:
+    below, above, right or left of a node; along the middle part of an arrow).
+
+    Returns the centre of each name's box and of each arrow label's box.
+    """
+    obstacles = _obstacles(pixels, arrows, radius, width, height)
+    names = _place_names(pixels, obstacles, radius)
+    return names, _place_effects(pixels, arrows, obstacles)
+
+
+# ------------------------------------------------------------------------------------------------------
+# Drawing
+# ------------------------------------------------------------------------------------------------------
+def _path_edges(paths: Iterable) -> set[tuple[str, str]]:
+    """The arrows (source, target) that make up ``paths``."""
+    edges = set()
+    for p in paths:
+        for a, b, arrow in zip(p.nodes, p.nodes[1:], p.arrows, strict=False):
+            edges.add((a, b) if arrow == "->" else (b, a))
+    return edges
+
+
+def _blank_figure(frame: _Frame, title: str | None):
+    """A figure of the frame's fixed pixel size with no axes and no grid."""
+    fig = figure(
+        frame_width=frame.width,
+        frame_height=frame.height,
+        x_range=Range1d(frame.x0, frame.x1),
+        y_range=Range1d(frame.y0, frame.y1),
+        tools="save",
+        toolbar_location=None,
+        title=title,
+    )
+    style_figure(fig)
+    fig.axis.visible = False
+    fig.grid.visible = False
+    return fig
+
+
+def _arrow_data(scenario: Scenario, pos, frame: _Frame, verdict, label_at) -> tuple[dict, dict]:
+    """The arrows' geometry and style (cut short of the nodes' edges; open paths thick and dashed, the
+    rest faded when a verdict is shown) and their effect labels' places and text."""
+    open_edges: set[tuple[str, str]] = set()
+    blocked_edges: set[tuple[str, str]] = set()
+    if verdict is not None:
+        open_edges = _path_edges(verdict.open_paths)
+        blocked_edges = _path_edges(verdict.blocked_paths) - open_edges
+    sx, sy = frame.sx, frame.sy
+    arrows: dict[str, list] = {k: [] for k in ("x0", "y0", "x1", "y1", "width", "alpha", "dash", "colour")}
+    labels: dict[str, list] = {k: [] for k in ("x", "y", "text", "alpha")}
+    for a, at in zip(scenario.arrows, label_at, strict=True):
+        (ax, ay), (bx, by) = pos[a.source], pos[a.target]
+        dx, dy = (bx - ax) * sx, (by - ay) * sy
+        length = math.hypot(dx, dy) or 1.0
+        cut = (_RADIUS_PX + 5.0) / length
+        edge = (a.source, a.target)
+        is_open = edge in open_edges
+        faded = edge in blocked_edges or (verdict is not None and not is_open)
+        arrows["x0"].append(ax + (bx - ax) * cut)
+        arrows["y0"].append(ay + (by - ay) * cut)
+        arrows["x1"].append(bx - (bx - ax) * cut)
+        arrows["y1"].append(by - (by - ay) * cut)
+        arrows["width"].append(4.0 if is_open else 1.8)
+        arrows["alpha"].append(0.25 if faded else 1.0)
+        arrows["dash"].append("dashed" if is_open else "solid")
+        arrows["colour"].append("#000000" if is_open else EDGE_COLOUR)
+        lx, ly = frame.to_data(at)
+        labels["x"].append(lx)
+        labels["y"].append(ly)
+        labels["text"].append(_effect_text(a.effect))
+        labels["alpha"].append(0.35 if faded else 1.0)
+    return arrows, labels
+
+
+def _draw_arrows(fig, arrows: dict, labels: dict) -> None:
+    """The arrows (under the nodes) and their effect labels on a white background."""
+    fig.add_layout(
+        Arrow(
+            end=VeeHead(
+                size=11, line_color="colour", fill_color="colour", line_alpha="alpha", fill_alpha="alpha"
+            ),
+            x_start="x0",
+            y_start="y0",
+            x_end="x1",
+            y_end="y1",
+            source=ColumnDataSource(arrows),
+            line_width="width",
+            line_alpha="alpha",
+            line_dash="dash",
+            line_color="colour",
+            level="underlay",
+        )
+    )
+    fig.text(
+        "x",
+        "y",
+        "text",
+        source=ColumnDataSource(labels),
+        text_font_size=FONT,
+        text_align="center",
+        text_baseline="middle",
+        text_alpha="alpha",
+        background_fill_color="#ffffff",
+        background_fill_alpha=0.9,
+        padding=1,
+        text_color="#333333",
+    )
+
+
+def _node_groups(scenario: Scenario, roles: dict | None, pos, adjusted: set[str]) -> dict:
+    """The nodes grouped by (role, observed), one group per legend entry, with their hover text and ring
+    (thick black for the adjustment set)."""
+    groups: dict[tuple[str, bool], dict[str, list]] = {}
+    for v in scenario.variables:
+        role = primary_role(scenario, v.name, roles)
+        reasons = "; ".join(f"{r}: {why}" for r, why in (roles or {}).get(v.name, []))
+        group = groups.setdefault(
+            (role, v.observed),
+            {k: [] for k in ("x", "y", "name", "label", "kind", "roles", "ring", "ring_colour")},
+        )
+        x, y = pos[v.name]
+        group["x"].append(x)
+        group["y"].append(y)
+        group["name"].append(v.name)
+        group["label"].append(v.display)
+        group["kind"].append(f"{v.type}{'' if v.observed else ', latent'}")
+        group["roles"].append(reasons or role)
+        group["ring"].append(3.5 if v.name in adjusted else (2.0 if not v.observed else 1.2))
+        group["ring_colour"].append(
+            "#000000" if v.name in adjusted else ROLE_STYLE[role][1] if not v.observed else "#333333"
+        )
+    return groups
+
+
+def _draw_nodes(fig, groups: dict, frame: _Frame) -> tuple[list, list[LegendItem]]:
+    """One scatter renderer per group in the legend's order (latent variables hollow and dashed); the
+    legend shows a small copy of each drawn outside the view (the nodes themselves are too big for it).
+
+    Returns the node renderers (for the hover tool) and the legend items.
+    """
+    far_x, far_y = frame.outside
+    items, renderers = [], []
+    for role in ROLE_STYLE:
+        for observed in (True, False):
+            data = groups.get((role, observed))
+            if not data:
+                continue
+            text, colour, marker = ROLE_STYLE[role]
+            renderers.append(
+                fig.scatter(
+                    "x",
+                    "y",
+                    source=ColumnDataSource(data),
+                    marker=marker,
+                    size=2 * _RADIUS_PX + (4 if marker == "diamond" else 0),
+                    fill_color=colour,
+                    fill_alpha=1.0 if observed else 0.0,
+                    line_color="ring_colour",
+                    line_width="ring",
+                    line_dash="solid" if observed else "dashed",
+                )
+            )
+            sample = fig.scatter(
+                [far_x],
+                [far_y],
+                marker=marker,
+                size=13 + (2 if marker == "diamond" else 0),
+                fill_color=colour,
+                fill_alpha=1.0 if observed else 0.0,
+                line_color="#333333" if observed else colour,
+                line_width=1.2 if observed else 1.8,
+                line_dash="solid" if observed else "dashed",
+            )
+            items.append(LegendItem(label=text if observed else f"{text} (latent)", renderers=[sample]))
+    return renderers, items
+
+
+def _draw_names(fig, name_at: dict[str, tuple[float, float]], frame: _Frame, adjusted: set[str]) -> None:
+    """The variables' names at their chosen places, bold for the adjustment set."""
+    points = [frame.to_data(at) for at in name_at.values()]
+    names = ColumnDataSource(
+        {
+            "x": [p[0] for p in points],
+            "y": [p[1] for p in points],
+            "text": list(name_at),
+            "weight": ["bold" if n in adjusted else "normal" for n in name_at],
+        }
+    )
+    fig.text(
+        "x",
+        "y",
+        "text",
+        source=names,
+        text_font_size="12px",
+        text_font_style="weight",
+        text_align="center",
+        text_baseline="middle",
+        text_color="#111111",
+        background_fill_color="#ffffff",
+        background_fill_alpha=0.8,
+        padding=1,
+    )
+
+
+def _marking_items(fig, frame: _Frame, adjusted: set[str], verdict) -> list[LegendItem]:
+    """Legend entries for the ring of the adjustment set and the open and blocked paths (samples drawn
+    outside the view)."""
+    far_x, far_y = frame.outside
+    items = []
+    if adjusted:
+        ring = fig.scatter(
+            [far_x], [far_y], marker="circle", size=14, fill_alpha=0, line_color="#000000", line_width=3
+        )
+        items.append(LegendItem(label="adjusted for (bold name)", renderers=[ring]))
+    if verdict is not None:
+        xs, ys = [frame.x0 - 10, frame.x0 - 9], [far_y, far_y]
+        open_line = fig.line(xs, ys, line_width=4, line_dash="dashed", line_color="#000000")
+        faded_line = fig.line(xs, ys, line_width=1.8, line_color=EDGE_COLOUR, line_alpha=0.25)
+        items.append(LegendItem(label="path left open", renderers=[open_line]))
+        items.append(LegendItem(label="path blocked", renderers=[faded_line]))
+    return items
+
+
+def _add_legend_and_hover(fig, items: list[LegendItem], node_renderers: list) -> None:
+    """The legend below the drawing (up to five entries a row) and the nodes' hover text."""
+    legend = Legend(
+        items=items,
+        label_text_font_size=FONT,
+        glyph_height=22,
+        glyph_width=22,
+        spacing=12,
+        padding=4,
+        margin=4,
+        border_line_color=None,
+        orientation="horizontal",
+        ncols=min(5, max(1, len(items))),
+        label_standoff=4,
+    )
+    fig.add_layout(legend, "below")
+    fig.add_tools(
+        HoverTool(
+            renderers=node_renderers,
+            tooltips=[("variable", "@name"), ("label", "@label"), ("type", "@kind"), ("role", "@roles")],
+        )
+    )
+
+
+def graph_figure(
+    scenario: Scenario,
+    roles: dict | None = None,
+    verdict=None,
+    *,
+    adjust: Sequence[str] = (),
+    width: int = 760,
+    height: int = 430,
+    title: str | None = None,
+):
+    """The causal graph: nodes coloured by role, arrows labelled with effects, optional path highlight.
+
+    Names and effect labels are placed where they cover the fewest arrows and nodes; the legend sits below
+    the drawing so that it never covers a node.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    roles : dict, optional
+        :func:`workbench.graph.roles.find_roles` output; without it every covariate is drawn as "other".
+    verdict : Verdict, optional
+        A strategy's verdict: the paths it leaves open are drawn thick and dashed, those it blocks faded.
+    adjust : sequence of str
+        The strategy's adjustment set (drawn with a thick black ring).
+    width, height : int
+        Size of the plotting area in pixels (fixed so that arrow heads stop at the nodes' edges).
+
+    Returns
+    -------
+    bokeh.plotting.figure
+
+    Examples
+    --------
+    >>> from workbench.graph import find_roles, judge
+    >>> from workbench import load_preset
+    >>> sc = load_preset("common_cause")
+    >>> fig = graph_figure(sc, find_roles(sc), judge(sc, []))
+    >>> [item.label.value for item in fig.legend[0].items][-2:]
+    ['path left open', 'path blocked']
+    """
+    pos = graph_layout(scenario)
+    frame = _frame(pos, width, height)
+    fig = _blank_figure(frame, title)
+    pixels = {n: frame.to_pixels(p) for n, p in pos.items()}
+    name_at, label_at = _place_labels(pixels, scenario.arrows, radius=_RADIUS_PX, width=width, height=height)
+    _draw_arrows(fig, *_arrow_data(scenario, pos, frame, verdict, label_at))
+    adjusted = set(adjust)
+    node_renderers, items = _draw_nodes(fig, _node_groups(scenario, roles, pos, adjusted), frame)
+    _draw_names(fig, name_at, frame, adjusted)
+    items += _marking_items(fig, frame, adjusted, verdict)
+    _add_legend_and_hover(fig, items, node_renderers)
+    return fig

@@ -1,0 +1,114 @@
+"""The look shared by every figure: the palette, fonts, axes and legends.
+
+Colours follow the colour-blind-safe palette of Okabe M., Ito K. (2008). Color Universal Design (CUD): How
+to make figures and presentations that are friendly to colorblind people. Strategies take colours in a
+fixed order (:func:`strategy_colours`), so one strategy has the same colour in every figure; the graph's
+roles have their own fixed colours (:data:`workbench.report.graph_drawing.ROLE_STYLE`).
+
+Examples
+--------
+>>> from bokeh.plotting import figure
+>>> fig = figure(width=300, height=200)
+>>> style_figure(fig)
+>>> fig.toolbar.logo is None, fig.outline_line_color is None
+(True, True)
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable, Sequence
+
+from bokeh.models import FixedTicker, Legend
+
+__all__ = ["OKABE_ITO", "EDGE_COLOUR", "FONT", "strategy_colours", "style_figure", "n_axis", "legend_above"]
+
+#: The eight Okabe-Ito colours.
+OKABE_ITO = ("#000000", "#E69F00", "#56B4E9", "#009E73", "#F0E442", "#0072B2", "#D55E00", "#CC79A7")
+
+#: The order in which strategies take the Okabe-Ito colours (blue and vermillion first, then a grey).
+_STRATEGY_COLOURS = ("#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#000000", "#999999")
+
+#: The colour of an arrow or a line that is not highlighted.
+EDGE_COLOUR = "#4d4d4d"
+
+#: The font size of tick labels, legends and small labels.
+FONT = "11px"
+
+
+def strategy_colours(names: Sequence[str]) -> dict[str, str]:
+    """A colour per strategy, in the order given (cycling through eight Okabe-Ito colours).
+
+    Examples
+    --------
+    >>> strategy_colours(["unadjusted", "adjusted"])
+    {'unadjusted': '#0072B2', 'adjusted': '#D55E00'}
+    """
+    return {name: _STRATEGY_COLOURS[i % len(_STRATEGY_COLOURS)] for i, name in enumerate(names)}
+
+
+def style_figure(fig) -> None:
+    """Give a Bokeh figure the house style: no logo, a bold small title, small axis labels, no outline.
+
+    Examples
+    --------
+    >>> from bokeh.plotting import figure
+    >>> fig = figure(title="Power", width=300, height=200)
+    >>> style_figure(fig)
+    >>> fig.title.text_font_style, fig.xaxis[0].major_label_text_font_size
+    ('bold', '11px')
+    """
+    fig.toolbar.logo = None
+    if fig.title is not None:
+        fig.title.text_font_size = "13px"
+        fig.title.text_font_style = "bold"
+    for axis in (*fig.xaxis, *fig.yaxis):
+        axis.axis_label_text_font_size = "12px"
+        axis.axis_label_text_font_style = "normal"
+        axis.major_label_text_font_size = FONT
+    fig.outline_line_color = None
+    fig.background_fill_color = "#ffffff"
+
+
+def n_axis(fig, sizes: Iterable[float]) -> None:
+    """Label a log-scaled sample-size axis at the sizes simulated (at most nine labels).
+
+    Examples
+    --------
+    >>> from bokeh.plotting import figure
+    >>> fig = figure(x_axis_type="log", width=300, height=200)
+    >>> n_axis(fig, range(10, 200, 10))
+    >>> fig.xaxis[0].ticker.ticks
+    [10, 40, 70, 100, 130, 160, 190]
+    """
+    ticks = sorted({int(n) for n in sizes})
+    if len(ticks) > 9:
+        step = math.ceil(len(ticks) / 9)
+        ticks = ticks[::step]
+    fig.xaxis.ticker = FixedTicker(ticks=ticks, minor_ticks=[])
+
+
+def legend_above(fig, items) -> None:
+    """Put a horizontal legend with ``items`` (``LegendItem``) above the plot, where it covers no data.
+
+    Examples
+    --------
+    >>> from bokeh.models import LegendItem
+    >>> from bokeh.plotting import figure
+    >>> fig = figure(width=300, height=200)
+    >>> legend_above(fig, [LegendItem(label="a", renderers=[fig.line([0, 1], [0, 1])])])
+    >>> fig.above[0].orientation
+    'horizontal'
+    """
+    fig.add_layout(
+        Legend(
+            items=items,
+            label_text_font_size=FONT,
+            border_line_color=None,
+            orientation="horizontal",
+            padding=2,
+            margin=2,
+            spacing=8,
+        ),
+        "above",
+    )

@@ -1,0 +1,426 @@
+"""Editing a scenario: the changes that must follow a name everywhere it is used.
+
+A scenario names its variables in many places: the variables table, the arrows, the question (exposure,
+outcome, ``also``), and each strategy's adjustment set, restriction and matching. Renaming, removing or hiding
+a variable, changing its type or changing the question must keep every one of those consistent, or the file
+no longer parses. The functions here do that on the TOML-ready tables of
+:func:`workbench.scenario.write.scenario_to_dict` (the form the dashboard edits). They are pure: each returns
+an :class:`Edited` with a new table and a one-line note of what it changed along the way (``''`` when
+nothing), and never changes its argument. They do not validate the result: parse it to check it
+(:func:`workbench.scenario_from_dict` gives the one-line error of a bad edit).
+
+Examples
+--------
+>>> from workbench import load_preset, scenario_from_dict, scenario_to_dict
+>>> data = scenario_to_dict(load_preset("common_cause"))
+>>> edited = remove_variable(data, "soil_quality")
+>>> edited.note
+'removed soil_quality from strategies: adjust_soil'
+>>> scenario_from_dict(edited.data).names
+['fertiliser', 'wheat_yield']
+>>> "soil_quality" in data["variables"]  # the argument is unchanged
+True
+"""
+
+from __future__ import annotations
+
+import copy
+import tomllib
+from collections.abc import Iterable
+from typing import Any, NamedTuple
+
+from workbench.errors import ScenarioError
+
+__all__ = [
+    "Edited",
+    "QUESTION_FIELDS",
+    "prune_variables",
+    "rename_variable",
+    "remove_variable",
+    "set_observed",
+    "set_variable_type",
+    "set_question",
+    "add_adjustment_sets",
+    "restriction_toml",
+    "parse_restriction",
+]
+
+#: The question fields :func:`set_question` may change.
+QUESTION_FIELDS = ("exposure", "outcome", "target", "scale")
+
+
+class Edited(NamedTuple):
+    """The result of an edit: the new TOML-ready tables and a note of what else changed ('' when nothing).
+
+    Examples
+    --------
+    >>> data, note = Edited({"title": "x"}, "")
+    >>> data
+    {'title': 'x'}
+    """
+
+    data: dict
+    note: str = ""
+
+
+def _variable(data: dict, name: str) -> dict:
+    """The variable's table, or a ScenarioError naming the variable."""
+    if name not in data["variables"]:
+        raise ScenarioError(f"no variable '{name}'", where="variables")
+    return data["variables"][name]
+
+
+def _prune_strategy(table: dict, names: set[str]) -> bool:
+    """Remove ``names`` from one strategy's table in place; True when anything was removed."""
+    adjust = [v for v in table.get("adjust", []) if v not in names]
+    restrict = {k: v for k, v in (table.get("restrict") or {}).items() if k not in names}
+    match = [v for v in table.get("match", []) if v not in names]
+    changed = (
+        len(adjust) != len(table.get("adjust", []))
+        or len(restrict) != len(table.get("restrict") or {})
+        or len(match) != len(table.get("match", []))
+    )
+    table["adjust"] = adjust
+    for key, value in (("match", match), ("restrict", restrict)):
+        if key in table:
+            if value:
+                table[key] = value
+            else:
+                del table[key]
+    if not adjust:
+        table.pop("selection", None)  # a selection rule needs candidates
+    return changed
+
+
+def _prune_in_place(data: dict, names: set[str]) -> str:
+    """:func:`prune_variables` on ``data`` itself."""
+    removed = [table["name"] for table in data.get("strategies", []) if _prune_strategy(table, names)]
+    also = data["question"].get("also")
+    if also:
+        data["question"]["also"] = [v for v in also if v not in names]
+        if not data["question"]["also"]:
+            del data["question"]["also"]
+    if removed:
+        return f"removed {', '.join(sorted(names))} from strategies: {', '.join(removed)}"
+    return ""
+
+
+def prune_variables(data: dict, names: Iterable[str]) -> Edited:
+    """Remove ``names`` from every strategy's adjustment set, restriction and matching, and from
+    ``question.also``. A selection rule left with no candidate is dropped (the strategy adjusts for nothing).
+
+    Parameters
+    ----------
+    data : dict
+        TOML-ready tables of a scenario.
+    names : iterable of str
+        Variables no strategy may use any more (latent ones, the exposure and the outcome).
+
+    Returns
+    -------
+    Edited
+        The note names the strategies changed.
+
+    Examples
+    --------
+    >>> from workbench import load_preset, scenario_to_dict
+    >>> data = scenario_to_dict(load_preset("common_cause"))
+    >>> edited = prune_variables(data, {"soil_quality"})
+    >>> [s["adjust"] for s in edited.data["strategies"]], edited.note
+    ([[], []], 'removed soil_quality from strategies: adjust_soil')
+    """
+    data = copy.deepcopy(data)
+    return Edited(data, _prune_in_place(data, set(names)))
+
+
+def rename_variable(data: dict, old: str, new: str) -> Edited:
+    """Rename a variable in the variables table, the arrows, the question and every strategy.
+
+    Parameters
+    ----------
+    data : dict
+        TOML-ready tables of a scenario.
+    old, new : str
+        The current and the new name (whether ``new`` is a valid name is left to the parser).
+
+    Raises
+    ------
+    ScenarioError
+        When ``old`` is no variable or ``new`` is taken.
+
+    Examples
+    --------
+    >>> from workbench import load_preset, scenario_to_dict
+    >>> data = scenario_to_dict(load_preset("common_cause"))
+    >>> edited = rename_variable(data, "soil_quality", "soil")
+    >>> list(edited.data["variables"]), edited.data["arrows"][0]["from"]
+    (['soil', 'fertiliser', 'wheat_yield'], 'soil')
+    >>> rename_variable(data, "soil_quality", "fertiliser")
+    Traceback (most recent call last):
+    ...
+    workbench.errors.ScenarioError: variables.fertiliser: there is already a variable 'fertiliser'
+    """
+    _variable(data, old)
+    new = new.strip()
+    if new == old:
+        return Edited(copy.deepcopy(data))
+    if new in data["variables"]:
+        raise ScenarioError(f"there is already a variable '{new}'", where=f"variables.{new}")
+    data = copy.deepcopy(data)
+
+    def swap(name: str) -> str:
+        return new if name == old else name
+
+    data["variables"] = {swap(k): v for k, v in data["variables"].items()}
+    for arrow in data["arrows"]:
+        arrow["from"], arrow["to"] = swap(arrow["from"]), swap(arrow["to"])
+    q = data["question"]
+    q["exposure"], q["outcome"] = swap(q["exposure"]), swap(q["outcome"])
+    if "also" in q:
+        q["also"] = [swap(v) for v in q["also"]]
+    for table in data.get("strategies", []):
+        table["adjust"] = [swap(v) for v in table["adjust"]]
+        if "match" in table:
+            table["match"] = [swap(v) for v in table["match"]]
+        if table.get("restrict"):
+            table["restrict"] = {swap(k): v for k, v in table["restrict"].items()}
+    return Edited(data)
+
+
+def remove_variable(data: dict, name: str) -> Edited:
+    """Remove a variable, its arrows, and its uses in the strategies (see :func:`prune_variables`).
+
+    Raises
+    ------
+    ScenarioError
+        When ``name`` is no variable, or is the exposure or the outcome.
+
+    Examples
+    --------
+    >>> from workbench import load_preset, scenario_to_dict
+    >>> data = scenario_to_dict(load_preset("common_cause"))
+    >>> len(remove_variable(data, "soil_quality").data["arrows"])
+    1
+    >>> remove_variable(data, "fertiliser")
+    Traceback (most recent call last):
+    ...
+    workbench.errors.ScenarioError: variables.fertiliser: 'fertiliser' is the exposure; choose another exposure first
+    """
+    _variable(data, name)
+    q = data["question"]
+    if name in (q["exposure"], q["outcome"]):
+        role = "exposure" if name == q["exposure"] else "outcome"
+        raise ScenarioError(f"'{name}' is the {role}; choose another {role} first", where=f"variables.{name}")
+    data = copy.deepcopy(data)
+    del data["variables"][name]
+    data["arrows"] = [a for a in data["arrows"] if name not in (a["from"], a["to"])]
+    return Edited(data, _prune_in_place(data, {name}))
+
+
+def set_observed(data: dict, name: str, observed: bool) -> Edited:
+    """Make a variable observed or latent; a latent one leaves every strategy (see :func:`prune_variables`).
+
+    Examples
+    --------
+    >>> from workbench import load_preset, scenario_to_dict
+    >>> data = scenario_to_dict(load_preset("common_cause"))
+    >>> edited = set_observed(data, "soil_quality", False)
+    >>> edited.data["variables"]["soil_quality"]["observed"], edited.note
+    (False, 'removed soil_quality from strategies: adjust_soil')
+    """
+    _variable(data, name)
+    data = copy.deepcopy(data)
+    data["variables"][name]["observed"] = bool(observed)
+    return Edited(data, "" if observed else _prune_in_place(data, {name}))
+
+
+def _drop_type_dependent_keys(data: dict, name: str, new_type: str) -> None:
+    """Remove, in place, what a type change of ``name`` makes meaningless in the strategies: a restriction's
+    form depends on the type (a value or an interval); exact matching needs a binary variable; selection
+    rules apply to continuous outcomes only."""
+    binary_outcome = new_type == "binary" and name == data["question"]["outcome"]
+    for table in data.get("strategies", []):
+        (table.get("restrict") or {}).pop(name, None)
+        if "restrict" in table and not table["restrict"]:
+            del table["restrict"]
+        if name in table.get("match", []):
+            table["match"] = [v for v in table["match"] if v != name]
+            if not table["match"]:
+                del table["match"]
+        if binary_outcome:
+            table.pop("selection", None)
+
+
+def set_variable_type(data: dict, name: str, new_type: str) -> Edited:
+    """Change a variable's type (``continuous`` or ``binary``) and what depends on it.
+
+    A new binary variable has proportion 0.5; a continuous one the default noise and baseline. Its
+    observed flag, label and position stay. When the outcome becomes binary, a ``direct`` target becomes
+    ``total``; when it becomes continuous, the scale is the difference and every strategy is fitted by OLS.
+    Restrictions and matching on the variable and (for the outcome) selection rules are dropped.
+
+    Examples
+    --------
+    >>> from workbench import load_preset, scenario_to_dict
+    >>> data = scenario_to_dict(load_preset("common_cause"))
+    >>> set_variable_type(data, "soil_quality", "binary").data["variables"]["soil_quality"]["proportion"]
+    0.5
+    >>> set_variable_type(data, "wheat_yield", "binary").data["question"]["target"]
+    'total'
+    """
+    table = _variable(data, name)
+    if new_type == table.get("type"):
+        return Edited(copy.deepcopy(data))
+    data = copy.deepcopy(data)
+    q = data["question"]
+    keep = {k: table[k] for k in ("observed", "label", "position") if k in table}
+    _drop_type_dependent_keys(data, name, new_type)
+    if new_type == "binary":
+        data["variables"][name] = {"type": "binary", "proportion": 0.5, **keep}
+        if name == q["outcome"] and q.get("target") == "direct":
+            q["target"] = "total"
+            return Edited(data, "the target is now the total effect (a binary outcome has no direct target)")
+        return Edited(data)
+    data["variables"][name] = {"type": str(new_type), **keep}
+    if name != q["outcome"]:
+        return Edited(data)
+    q["scale"] = "difference"
+    for strategy in data.get("strategies", []):
+        strategy["model"] = "ols"
+        strategy.pop("standardize", None)
+    return Edited(data, "a continuous outcome is fitted by OLS; strategies set to model = ols")
+
+
+def set_question(data: dict, **fields: Any) -> Edited:
+    """Change the exposure, outcome, target or scale; the exposure and outcome leave every strategy.
+
+    Raises
+    ------
+    ScenarioError
+        For a field other than :data:`QUESTION_FIELDS`.
+
+    Examples
+    --------
+    >>> from workbench import load_preset, scenario_to_dict
+    >>> data = scenario_to_dict(load_preset("common_cause"))
+    >>> edited = set_question(data, exposure="soil_quality")
+    >>> edited.data["question"]["exposure"], edited.note
+    ('soil_quality', 'removed soil_quality, wheat_yield from strategies: adjust_soil')
+    """
+    for key in fields:
+        if key not in QUESTION_FIELDS:
+            raise ScenarioError(f"cannot edit '{key}'", where="question")
+    data = copy.deepcopy(data)
+    q = data["question"]
+    q.update(fields)
+    return Edited(data, _prune_in_place(data, {q["exposure"], q["outcome"]}))
+
+
+def _fresh_name(label: str, taken: set[str]) -> str:
+    """``label``, or ``label_2``, ``label_3``, ... when taken."""
+    chosen, k = label, 2
+    while chosen in taken:
+        chosen, k = f"{label}_{k}", k + 1
+    return chosen
+
+
+def add_adjustment_sets(
+    data: dict, sets: Iterable[tuple[str, Iterable[str]]], *, model: str = "ols", standardize: bool = False
+) -> Edited:
+    """Add a fixed-set strategy for each ``(name, adjustment set)`` not already listed with the same model.
+
+    A name already taken gets a suffix (``optimal_2``). Strategies with a selection rule or a restriction
+    do not count as listing their set. The note names the strategies added ('' when none).
+
+    Examples
+    --------
+    >>> from workbench import load_preset, scenario_to_dict
+    >>> data = scenario_to_dict(load_preset("common_cause"))
+    >>> edited = add_adjustment_sets(data, [("minimal_1", ["soil_quality"]), ("empty", [])])
+    >>> edited.note, len(edited.data["strategies"])
+    ('', 2)
+    >>> add_adjustment_sets(data, [("unadjusted", ["fertiliser"])]).note
+    'added unadjusted_2'
+    """
+    data = copy.deepcopy(data)
+    present = {
+        frozenset(s["adjust"])
+        for s in data["strategies"]
+        if s.get("model", "ols") == model and not s.get("selection") and not s.get("restrict")
+    }
+    taken = {s["name"] for s in data["strategies"]}
+    added = []
+    for label, adjust in sets:
+        members = frozenset(adjust)
+        if members in present:
+            continue
+        chosen = _fresh_name(label, taken)
+        table = {"name": chosen, "adjust": sorted(members), "model": model}
+        if standardize:
+            table["standardize"] = True
+        data["strategies"].append(table)
+        present.add(members)
+        taken.add(chosen)
+        added.append(chosen)
+    return Edited(data, f"added {', '.join(added)}" if added else "")
+
+
+def restriction_toml(restrict: Any) -> str:
+    """A strategy's restriction as the text an editor shows, in the file's own form
+    (``shift = 0, distance = [10, 50]``: the inside of a TOML inline table; see :func:`parse_restriction`).
+
+    Parameters
+    ----------
+    restrict : dict or tuple of (name, value) pairs
+        As in the TOML tables or in :attr:`workbench.scenario.model.Strategy.restrict`.
+
+    Examples
+    --------
+    >>> restriction_toml((("shift", 0), ("distance", (10.0, 50.0))))
+    'shift = 0, distance = [10, 50]'
+    >>> restriction_toml(())
+    ''
+    """
+    items = restrict.items() if isinstance(restrict, dict) else (restrict or ())
+    parts = []
+    for name, value in items:
+        if isinstance(value, list | tuple):
+            parts.append(f"{name} = [{value[0]:g}, {value[1]:g}]")
+        else:
+            parts.append(f"{name} = {value}")
+    return ", ".join(parts)
+
+
+def parse_restriction(value: Any, *, where: str) -> dict:
+    """A restriction typed as text (``shift = 0, distance = [10, 50]``) or given as a table, as a table.
+
+    The text is read as the inside of a TOML inline table: parsed, never evaluated. Whether the names and
+    values make sense is left to the scenario parser.
+
+    Raises
+    ------
+    ScenarioError
+        When the text is not of that form.
+
+    Examples
+    --------
+    >>> parse_restriction("shift = 0, distance = [10, 50]", where="strategies.a.restrict")
+    {'shift': 0, 'distance': [10, 50]}
+    >>> parse_restriction("", where="strategies.a.restrict")
+    {}
+    >>> parse_restriction("shift == 0", where="strategies.a.restrict")
+    Traceback (most recent call last):
+    ...
+    workbench.errors.ScenarioError: strategies.a.restrict: write the units to keep as 'name = 0' or 'name = [low, high]', got 'shift == 0'
+    """
+    if isinstance(value, dict):
+        return dict(value)
+    text = str(value or "").strip().strip("{}").strip()
+    if not text:
+        return {}
+    try:
+        return tomllib.loads(f"restrict = {{ {text} }}")["restrict"]
+    except tomllib.TOMLDecodeError:
+        raise ScenarioError(
+            f"write the units to keep as 'name = 0' or 'name = [low, high]', got '{text}'", where=where
+        ) from None
