@@ -14,8 +14,6 @@ from workbench.app.widgets import (
     JobProgress,
     TabView,
     html_pane,
-    placeholder,
-    result_banner,
 )
 from workbench.formatting.numbers import fmt_mcse
 from workbench.report import figures, tables
@@ -77,17 +75,7 @@ class EstimatesView(TabView):
 
     def refresh(self):
         """Show the simulation's result (or what to do to get one)."""
-        wb = self.workbench
-        job = wb.simulation
-        result = job.result
-        self.banner.object = result_banner(wb, job) if result is not None else ""
-        if result is not None and result is self._shown:
-            return
-        self._shown = result
-        if result is None:
-            self.body.objects = [placeholder(self._waiting_text())]
-            return
-        self.body.objects = [self.banner, *self._result_panes(result)]
+        self.show_result(self.workbench.simulation, self._result_panes)
 
     def _waiting_text(self) -> str:
         job = self.workbench.simulation

@@ -14,8 +14,6 @@ from workbench.app.widgets import (
     JobProgress,
     TabView,
     html_pane,
-    placeholder,
-    result_banner,
 )
 from workbench.report import figures, tables
 
@@ -54,17 +52,9 @@ class SampleSizeView(TabView):
 
     def refresh(self):
         """Show the plan's result (or what to do to get one)."""
-        wb = self.workbench
-        job = wb.planning
-        result = job.result
-        self.banner.object = result_banner(wb, job) if result is not None else ""
-        if result is not None and result is self._shown:
-            return
-        self._shown = result
-        if result is None:
-            self.body.objects = [placeholder(self._waiting_text())]
-            return
-        self.body.objects = [self.banner, *self._curves(result), *self._separation(result)]
+        self.show_result(
+            self.workbench.planning, lambda result: [*self._curves(result), *self._separation(result)]
+        )
 
     def _waiting_text(self) -> str:
         wb = self.workbench

@@ -214,6 +214,20 @@ class TabView(pn.viewable.Viewer):
         """Names of the rebuild steps waiting for the tab to be shown."""
         return list(self._waiting)
 
+    def show_result(self, job: BackgroundJob, panes) -> None:
+        """Show ``job``'s result as ``[banner, *panes(result)]`` in ``self.body`` (rebuilt once per result),
+        or, without a result, the view's ``_waiting_text()``. The subclass provides ``body``, ``banner`` and
+        ``_shown`` (the result on show)."""
+        result = job.result
+        self.banner.object = result_banner(self.workbench, job) if result is not None else ""
+        if result is not None and result is self._shown:
+            return
+        self._shown = result
+        if result is None:
+            self.body.objects = [placeholder(self._waiting_text())]
+            return
+        self.body.objects = [self.banner, *panes(result)]
+
     @param.depends("active", watch=True)
     def _catch_up(self) -> None:
         if not self.active or not self._waiting:
