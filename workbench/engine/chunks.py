@@ -31,11 +31,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from workbench.engine.factored import FactoredCrossproducts
 from workbench.engine.fitplan import Plan, used_covariance
 from workbench.engine.generate import PIECE, draw_noise, evaluate, noise_pieces, structure
 from workbench.engine.ols import crossproducts
 from workbench.engine.streams import BLOCK, block_seed
-from workbench.engine.wishart import bartlett_draws, bartlett_matrices, square_root
+from workbench.engine.wishart import bartlett_draws, bartlett_factors, square_root
 from workbench.scenario.model import Scenario
 
 __all__ = [
@@ -97,8 +98,9 @@ class BlockStream:
         yield from noise_pieces(self.rng, k, n, rows)
         self._advance(1)
 
-    def wishart(self, r: int, sigma: np.ndarray, df: int) -> np.ndarray:
-        """The next r replicates' Wishart draws; r must cover whole blocks (or end the run)."""
+    def wishart(self, r: int, sigma: np.ndarray, df: int) -> FactoredCrossproducts:
+        """The next r replicates' Wishart draws, as their factors; r must cover whole blocks (or end the
+        run)."""
         k = sigma.shape[0]
         chi = np.empty((r, k))
         normals = np.empty((r, k * (k - 1) // 2))
@@ -110,7 +112,7 @@ class BlockStream:
             chi[pos : pos + take], normals[pos : pos + take] = bartlett_draws(k, df, take, self.rng)
             pos += take
             self._advance(take)
-        return bartlett_matrices(square_root(sigma), chi, normals)
+        return FactoredCrossproducts(bartlett_factors(square_root(sigma), chi, normals))
 
 
 def raw_bytes_per_replicate(n: int, k: int, plan: Plan) -> int:
@@ -189,14 +191,15 @@ class Chunk:
     ----------
     size : int
         Replicates in the chunk.
-    crossproducts : ndarray of shape (size, m, m)
-        Centred cross-products of the variables: the used ones (exact engine) or all of them (raw engine).
+    crossproducts : ndarray or FactoredCrossproducts of shape (size, m, m)
+        Centred cross-products of the variables: the used ones, as their Bartlett factors (exact engine), or
+        all of them (raw engine).
     data : ndarray of shape (size, k, n) or None
         The rows (raw engine, not piecewise); a view of a buffer reused by the next chunk.
     """
 
     size: int
-    crossproducts: np.ndarray
+    crossproducts: np.ndarray | FactoredCrossproducts
     data: np.ndarray | None
 
 

@@ -38,6 +38,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from workbench.engine.design import design_mask
+from workbench.engine.factored import FactoredCrossproducts
 from workbench.engine.fitplan import Fit, Plan
 from workbench.engine.logistic import design_matrix, fit_logit_batch
 from workbench.engine.ols import BatchFit, fit_crossproducts, fit_selected, masked_crossproducts
@@ -82,6 +83,11 @@ class FitResult:
     retained: np.ndarray
 
 
+def _wanted(f: Fit) -> list[int]:
+    """The regressors whose coefficients a fit reports: the exposure and the question's ``also`` variables."""
+    return [0] + [pos for pos in f.also if pos >= 0]
+
+
 def _masked_fit(f: Fit, S: np.ndarray, kept: np.ndarray, y: int, regs: list[int], names, alpha: float):
     """OLS (or a selection rule) on each replicate's kept units; replicates with fewer than ``p + 2`` such
     units fail with a counted reason."""
@@ -105,7 +111,7 @@ def _masked_fit(f: Fit, S: np.ndarray, kept: np.ndarray, y: int, regs: list[int]
             part = fit_selected(S[rows], kept[rows], y, regs[0], regs[1:], f.selection, alpha, names)
             selected[rows] = part.selected
         else:
-            part = fit_crossproducts(S[rows], kept[rows], y, regs, names)
+            part = fit_crossproducts(S[rows], kept[rows], y, regs, names, wanted=_wanted(f))
         coef[rows], se[rows], vif[rows], sigma2[rows] = part.coef, part.se, part.vif, part.residual_variance
         df[rows] = part.df
         failed[rows] = part.failed
@@ -117,11 +123,16 @@ class _ChunkFitter:
     """The shared work of one chunk: masked cross-products per design, logistic fits per regressor set."""
 
     def __init__(self, plan: Plan, S, data, n: int, index: list[int], names, alpha: float):
-        self.plan, self.S, self.data, self.n = plan, S, data, n
+        self.plan, self.source, self.data, self.n = plan, S, data, n
         self.index, self.names, self.alpha = index, names, alpha
         self.y = index[plan.outcome]
         self.masked = {}  # (restrict, match) -> (masked cross-products, rows kept)
         self.logits = {}  # regressors -> (design, LogitFit)
+
+    @property
+    def S(self) -> np.ndarray:
+        """The whole cross-product matrices (formed from the factors once, if the chunk holds factors)."""
+        return self.source.full() if isinstance(self.source, FactoredCrossproducts) else self.source
 
     def ols(self, f: Fit):
         """The fit from cross-products: (BatchFit, units kept or None)."""
@@ -137,7 +148,11 @@ class _ChunkFitter:
             return fit_selected(
                 self.S, self.n, self.y, regs[0], regs[1:], f.selection, self.alpha, self.names
             ), None
-        return fit_crossproducts(self.S, self.n, self.y, regs, self.names), None
+        if isinstance(self.source, FactoredCrossproducts):
+            fit = self.source.fit(self.n, self.y, regs, _wanted(f))
+            if fit is not None:
+                return fit, None
+        return fit_crossproducts(self.S, self.n, self.y, regs, self.names, wanted=_wanted(f)), None
 
     def rows(self) -> np.ndarray:
         """The chunk's data as (r, n, k) rows."""
@@ -176,7 +191,7 @@ class _ChunkFitter:
     def fit(self, f: Fit) -> FitResult:
         """One fit of the plan on the chunk."""
         batch, kept = self.ols(f)
-        R = self.S.shape[0]
+        R = self.source.shape[0]
         reasons = Counter(batch.reasons)
         if f.kind == "ols":
             coef, se, failed = batch.coef, batch.se, batch.failed
@@ -232,7 +247,7 @@ def fit_chunk(
     Parameters
     ----------
     plan : Plan
-    S : ndarray of shape (r, m, m)
+    S : ndarray or FactoredCrossproducts of shape (r, m, m)
         The chunk's centred cross-products.
     data : ndarray of shape (r, k, n) or None
         The rows, needed when some fit needs them (:attr:`Plan.needs_rows`).

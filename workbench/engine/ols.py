@@ -36,6 +36,7 @@ __all__ = [
     "crossproducts",
     "masked_crossproducts",
     "fit_crossproducts",
+    "cholesky_fit",
     "select_covariates",
     "fit_selected",
     "selected_names",
@@ -116,6 +117,7 @@ def fit_crossproducts(
     names=None,
     *,
     tolerance: float = PIVOT_TOLERANCE,
+    wanted=None,
 ) -> BatchFit:
     """Fit ``outcome ~ 1 + regressors`` by OLS in every replicate from centred cross-products.
 
@@ -133,6 +135,10 @@ def fit_crossproducts(
         Variable names by index, for the failure reasons.
     tolerance : float
         Smallest accepted pivot on the correlation scale.
+    wanted : sequence of int, optional
+        Positions in ``regressors`` whose coefficients and SEs are needed (the exposure, position 0, is
+        always included). Given, the fit takes the batched Cholesky path (:func:`cholesky_fit`), and the
+        other columns of ``coef`` and ``se`` are NaN; by default every coefficient, by the sweep.
 
     Returns
     -------
@@ -158,6 +164,10 @@ def fit_crossproducts(
     (1.93, 198)
     """
     regressors = list(regressors)
+    if wanted is not None:
+        fit = cholesky_fit(S, n, outcome, regressors, wanted, names, tolerance=tolerance)
+        if fit is not None:
+            return fit
     m = len(regressors)
     R = S.shape[0]
     cols = regressors + [outcome]
@@ -208,6 +218,90 @@ def fit_crossproducts(
         inverse_diag = -np.diagonal(A, axis1=1, axis2=2)[:, :m]
         se = np.sqrt(sigma2[:, None] * inverse_diag / (d[:, :m] ** 2))
         vif = inverse_diag[:, 0].copy()
+    coef[failed] = np.nan
+    se[failed] = np.nan
+    vif[failed] = np.nan
+    sigma2 = np.where(failed, np.nan, sigma2)
+    return BatchFit(coef, se, df, failed, reasons, vif, sigma2)
+
+
+def cholesky_fit(S, n, outcome: int, regressors, wanted, names=None, *, tolerance: float = PIVOT_TOLERANCE):
+    """OLS of the ``wanted`` coefficients only, in every replicate, by one batched Cholesky factorisation.
+
+    The block of ``S`` is ordered [other regressors, wanted regressors, exposure, outcome]; its Cholesky
+    factor ``L`` gives everything reported: the squared last diagonal entry is the residual sum of squares,
+    the squared diagonal entry of a regressor over its diagonal entry of ``S`` is its pivot (the share of its
+    variance not explained by the regressors before it, as in the sweep; the factor of the unit-diagonal
+    scaled block is ``D^-1 L``, so no scaling is needed), and the trailing
+    triangle ``T`` of the wanted regressors gives their coefficients ``T^-T l`` (``l`` the outcome's row of
+    ``L`` under ``T``) and the diagonal of the inverse cross-product matrix (the squared column norms of
+    ``T^-1``), so nothing of size (regressors x regressors) is inverted. The exposure's VIF is
+    ``S_xx / L_xx^2``.
+
+    Returns
+    -------
+    BatchFit or None
+        None when some replicate's block is not numerically positive definite (rank deficiency): the
+        caller then fits by the sweep, which names the offending regressor.
+
+    References
+    ----------
+    Golub G.H., Van Loan C.F. (2013). Matrix Computations, 4th ed. Johns Hopkins, sec. 4.2 (Cholesky) and
+    5.3 (least squares by the normal equations).
+
+    Examples
+    --------
+    >>> rng = np.random.default_rng(0)
+    >>> d = rng.standard_normal((2, 3, 100))
+    >>> d[:, 2] += 0.5 * d[:, 0] - d[:, 1]
+    >>> S = crossproducts(d)
+    >>> a, b = cholesky_fit(S, 100, 2, [0, 1], [0]), fit_crossproducts(S, 100, 2, [0, 1])
+    >>> bool(np.allclose(a.coef[:, 0], b.coef[:, 0])), bool(np.allclose(a.se[:, 0], b.se[:, 0]))
+    (True, True)
+    >>> bool(np.isnan(a.coef[:, 1]).all())
+    True
+    """
+    regressors = list(regressors)
+    m = len(regressors)
+    R = S.shape[0]
+    tail = [j for j in dict.fromkeys(wanted) if j != 0 and 0 <= j < m] + [0]
+    order = [j for j in range(m) if j not in tail] + tail
+    cols = np.array([regressors[j] for j in order] + [outcome])
+    A = S[:, cols[:, None], cols]
+    diag = np.diagonal(A, axis1=1, axis2=2)
+    if not (diag > 0.0).all():
+        return None  # a constant column: the sweep names it
+    try:
+        L = np.linalg.cholesky(A)  # chol(D^-1 A D^-1) = D^-1 chol(A): no need to scale first
+    except np.linalg.LinAlgError:
+        return None
+    squares = np.diagonal(L, axis1=1, axis2=2) ** 2
+    if not (squares[:, :m] > tolerance * diag[:, :m]).all():
+        return None
+    t = len(tail)
+    T = L[:, m - t : m, m - t : m]
+    l = L[:, m, m - t : m]
+    Tinv = 1.0 / T if t == 1 else np.linalg.inv(T)
+    beta = np.einsum("rji,rj->ri", Tinv, l)
+    inverse_diag = np.einsum("rij,rij->rj", Tinv, Tinv)
+    rss = squares[:, m]
+    if np.ndim(n):
+        df = np.asarray(n) - (m + 1)
+        failed = ~(df > 0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sigma2 = rss / np.where(failed, np.nan, df)
+    else:
+        df = n - (m + 1)
+        failed = np.zeros(R, dtype=bool)
+        sigma2 = rss / df if df > 0 else np.full(R, np.nan)
+    reasons: Counter = Counter()
+    if failed.any():
+        reasons[f"too few rows for {m + 1} coefficients"] = int(failed.sum())
+    coef = np.full((R, m), np.nan)
+    se = np.full((R, m), np.nan)
+    coef[:, tail] = beta
+    se[:, tail] = np.sqrt(sigma2[:, None] * inverse_diag)
+    vif = inverse_diag[:, -1] * diag[:, m - 1]
     coef[failed] = np.nan
     se[failed] = np.nan
     vif[failed] = np.nan

@@ -62,6 +62,7 @@ from workbench.engine.fitting import FitResult, fit_chunk
 from workbench.engine.metrics import performance
 from workbench.engine.ols import selected_names, t_inference
 from workbench.engine.streams import seed_entropy, seed_sequence
+from workbench.engine.threads import blas_threads
 from workbench.errors import SimulationError
 from workbench.scenario.constraints import check_setting
 from workbench.scenario.model import Scenario, minimum_study_size
@@ -442,12 +443,13 @@ def run_replicates(
     draws = ChunkDraws(scenario, plan, engine, n, replicates, root, chunk_size, progress is not None)
     store = _Collector(replicates, len(plan.fits), len(plan.also_names))
     done = 0
-    for chunk in draws:
-        results = fit_chunk(plan, chunk.crossproducts, chunk.data, n, draws.index, draws.names, alpha)
-        store.put(done, chunk.size, results)
-        done += chunk.size
-        if progress is not None:
-            progress(done, replicates)
+    with blas_threads():
+        for chunk in draws:
+            results = fit_chunk(plan, chunk.crossproducts, chunk.data, n, draws.index, draws.names, alpha)
+            store.put(done, chunk.size, results)
+            done += chunk.size
+            if progress is not None:
+                progress(done, replicates)
     df = _interval_df(plan, n, store)
     return _replicate_arrays(
         plan, store, df, engine=engine, n=n, replicates=replicates, seed=seed_entropy(root), alpha=alpha

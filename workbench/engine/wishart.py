@@ -19,7 +19,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["draw_wishart", "bartlett_draws", "bartlett_matrices", "square_root"]
+__all__ = ["draw_wishart", "bartlett_draws", "bartlett_factors", "bartlett_matrices", "square_root"]
 
 
 def square_root(sigma: np.ndarray) -> np.ndarray:
@@ -93,6 +93,28 @@ def bartlett_draws(k: int, df: float, size: int, rng: np.random.Generator) -> tu
     return chi, normals
 
 
+def bartlett_factors(L: np.ndarray, chi: np.ndarray, normals: np.ndarray) -> np.ndarray:
+    """The upper-triangular factors ``U = (L A)^T`` of Bartlett draws (``W = U^T U``), shape (size, k, k).
+
+    ``A^T`` is filled in place, and ``A^T L^T`` for every replicate is one matrix product of the stacked rows,
+    so the factors come out contiguous with no transposed copy.
+
+    Examples
+    --------
+    >>> bartlett_factors(np.eye(2), np.array([[4.0, 1.0]]), np.array([[0.5]]))[0]
+    array([[2. , 0.5],
+           [0. , 1. ]])
+    """
+    size, k = chi.shape
+    At = np.zeros((size, k, k))
+    diag = np.arange(k)
+    At[:, diag, diag] = np.sqrt(chi)
+    if k > 1:
+        rows, cols = np.tril_indices(k, -1)
+        At[:, cols, rows] = normals
+    return (At.reshape(size * k, k) @ L.T).reshape(size, k, k)
+
+
 def bartlett_matrices(L: np.ndarray, chi: np.ndarray, normals: np.ndarray) -> np.ndarray:
     """Wishart matrices ``L A A^T L^T`` from Bartlett draws (see :func:`bartlett_draws`), shape (size, k, k).
 
@@ -103,12 +125,5 @@ def bartlett_matrices(L: np.ndarray, chi: np.ndarray, normals: np.ndarray) -> np
     array([[4.  , 1.  ],
            [1.  , 1.25]])
     """
-    size, k = chi.shape
-    A = np.zeros((size, k, k))
-    diag = np.arange(k)
-    A[:, diag, diag] = np.sqrt(chi)
-    if k > 1:
-        rows, cols = np.tril_indices(k, -1)
-        A[:, rows, cols] = normals
-    LA = np.matmul(L, A)
-    return np.matmul(LA, LA.transpose(0, 2, 1))
+    U = bartlett_factors(L, chi, normals)
+    return np.matmul(U.transpose(0, 2, 1), U)
