@@ -261,7 +261,7 @@ def test_ctrl_c_ends_a_long_run_cleanly():
     import time
 
     process = subprocess.Popen(
-        ["workbench", "run", "--preset", "binary_outcome", "--replicates", "500000"],
+        ["workbench", "run", "--preset", "binary_outcome", "--replicates", "500000", "--allow-long"],
         stdout=subprocess.PIPE,
         stderr=subprocess.PIPE,
         text=True,
@@ -284,7 +284,7 @@ def test_ctrl_c_during_start_up_exits_130_with_one_line(delay):
     import time
 
     process = subprocess.Popen(
-        ["workbench", "run", "--preset", "binary_outcome", "--replicates", "500000"],
+        ["workbench", "run", "--preset", "binary_outcome", "--replicates", "500000", "--allow-long"],
         stdout=subprocess.PIPE,
         stderr=subprocess.PIPE,
         text=True,

@@ -205,7 +205,7 @@ def test_simulation_job_runs_and_caches():
     first = job.result
     assert first.table.set_index("name").loc["adjust_soil", "mean"] == pytest.approx(0.25, abs=0.03)
     job.start(sc, background=False)
-    assert job.result is first and job.message == "simulation: from the cache"
+    assert job.result is first and job.message.startswith("simulation: the result of the run at ")
 
 
 def test_a_cancelled_run_publishes_nothing():
@@ -336,3 +336,91 @@ def test_study_inputs_follow_the_scenario_and_are_checked_by_the_one_rule(state)
     state.preset = "mediator"
     assert plan.target_power == state.scenario.study.target_power
     assert study.seed == load_preset("mediator").study.seed
+
+
+# --- issue 10: uploads, refused field values, the session's own status, the cost before Run -----------------
+
+
+def test_each_kind_of_bad_upload_has_its_own_message(state):
+    """Common practice, no source: an empty, binary, non-UTF-8, oversized or refused-in-the-browser file
+    each says what is wrong with it, naming the file; the scenario in effect stays."""
+    before = state.scenario
+    cases = {
+        b"": "the file is empty",
+        b"  \n": "the file is empty",
+        b"title = 'x'\x00\x01": "a binary file, not TOML text",
+        b"\xff\xfe\x00t": "a binary file, not TOML text",
+        "titre = 'é'".encode("latin-1"): "not UTF-8 text",
+        b"#" * (MAX_UPLOAD_BYTES + 1): f"{MAX_UPLOAD_BYTES + 1:,} bytes is over the limit",
+    }
+    for content, expected in cases.items():
+        assert not state.upload(content, "mine.toml")
+        assert state.error.startswith("upload mine.toml: ") and expected in state.error, state.error
+        assert "\n" not in state.error
+        assert state.scenario is before
+    assert not state.refuse_upload("huge.toml", 3 * 2**20)
+    assert state.error == f"upload huge.toml: 3,145,728 bytes is over the limit of {MAX_UPLOAD_BYTES:,}"
+
+
+def test_the_same_bytes_under_a_new_name_say_so_and_clear_the_old_message(state):
+    text = preset_text("mediator").encode()
+    assert state.upload(text, "first.toml")
+    assert not state.upload(b"", "broken.toml")
+    assert state.upload(text, "second.toml")
+    assert state.error == ""
+    assert state.note == "upload second.toml: the same scenario as the one in effect"
+
+
+def test_a_refused_study_value_blocks_run_until_it_is_corrected():
+    """Common practice, no source: a value the check refuses is never silently replaced by the old one."""
+    from workbench.app.settings import StudySettings
+
+    wb = Workbench(preset="common_cause", live=False, background=False)
+    study = StudySettings(state=wb.scenario_state)
+    study.n = -5
+    assert wb.scenario.study.n == load_preset("common_cause").study.n
+    assert wb.scenario_state.invalid_messages() == ["study.n: must be an integer of at least 1, got -5"]
+    assert not wb.run()
+    assert wb.notice.startswith("Not run: study.n: must be an integer of at least 1, got -5")
+    assert wb.simulation.status == "idle"
+    wb.scenario_state.set_arrow(0, effect=0.7)  # another valid edit resets the field, and says so
+    assert study.n == wb.scenario.study.n and wb.scenario_state.invalid == {}
+    assert "study.n shows 200 again (-5 was not applied)" in wb.scenario_state.note
+    study.n = -5
+    study.n = 300
+    assert wb.scenario_state.invalid == {} and wb.notice == ""
+    assert wb.run() and wb.simulation.result.n == 300
+
+
+def test_plan_sizes_in_another_order_are_not_a_refused_value():
+    from workbench.app.settings import PlanSettings
+
+    state = ScenarioState(preset="common_cause")
+    plan = PlanSettings(state=state)
+    plan.sample_sizes = "800, 400,200 100 50"  # the preset's sizes, reordered
+    assert state.invalid == {}
+    plan.sample_sizes = "100, x"
+    assert state.invalid_messages() == ["study.sample_sizes: 'x' is not a whole number"]
+
+
+def test_the_cost_is_shown_before_run_and_a_run_over_the_budget_needs_a_second_press():
+    """The estimate is :func:`workbench.analysis.budget.estimate_cost`'s (common practice, no source: a
+    10^6 x 10^5 raw-engine run takes hours on any machine)."""
+    wb = Workbench(preset="binary_outcome", live=False, background=False)
+    assert wb.cost.startswith("Run: simulation about ") and not wb.over_budget
+    assert wb.scenario_state.set_study(n=10**6, replicates=10**5)
+    assert wb.over_budget
+    assert not wb.run() and "Press Run again" in wb.notice
+    assert wb.simulation.status == "idle" and wb.planning.status == "idle"
+    assert wb.scenario_state.set_study(n=200, replicates=200)
+    assert not wb.over_budget
+
+
+def test_a_result_shown_again_says_it_was_computed_in_this_session():
+    wb = Workbench(preset="common_cause", live=True, background=False)
+    wb.scenario_state.preset = "mediator"
+    wb.scenario_state.preset = "common_cause"
+    assert wb.simulation.message.startswith("simulation: the result of the run at ")
+    assert "this session" in wb.simulation.message
+    fresh = Workbench(preset="common_cause", live=False, background=False)
+    assert fresh.simulation.message == ""  # nothing run in a new session: nothing claimed

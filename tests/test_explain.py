@@ -28,7 +28,8 @@ def test_without_a_run_the_stories_use_the_graph_and_the_closed_form(common_caus
     report, _ = common_cause
     unadjusted, adjusted = explain(report)
     assert not unadjusted.valid and adjusted.valid
-    assert "leaves the non-causal path fertiliser <- soil_quality -> wheat_yield open" in unadjusted.text()
+    assert "path fertiliser <- soil_quality -> wheat_yield (left open) carries" in unadjusted.text()
+    assert "(blocked by adjusting for soil_quality)" in adjusted.text()
     assert "bias +0.221" in unadjusted.text()
     assert adjusted.recommendation.startswith("Recommended")
 
@@ -123,3 +124,63 @@ def test_a_restricted_analysis_says_which_units_it_keeps():
     assert story.valid
     assert "only units with night_shift = 0" in story.title
     assert f"On average {kept:.0f} of the {sc.study.n:,} units were kept." in story.text()
+
+
+def test_paths_closed_at_a_collider_and_opened_by_adjusting_for_it():
+    """d-separation (Pearl 2009, Def. 1.2.3): a path with a collider is closed unless the collider (or a
+    consequence of it) is adjusted for; the stories say which, instead of calling it blocked."""
+    unadjusted, adjusted = explain(check(load_preset("common_effect")))
+    assert "padding -> complaints <- breakage (closed at the collider complaints)" in unadjusted.text()
+    assert "It blocks" not in unadjusted.text()
+    assert "(opened by adjusting for the collider complaints)" in adjusted.text()
+
+
+def test_a_comparison_names_both_strategies():
+    """Common practice, no source: "X's SE is R% larger than Y's", with R the ratio of the large-sample SE
+    factors of the two strategies (closed form, Henckel et al. 2022 for which is smaller)."""
+    report = check(load_preset("larger_graph"))
+    stories = {s.name: s for s in explain(report)}
+    se = {c.name: c.large_sample_se_factor for c in report.checks}
+    share = 100 * (se["adjust_confounders"] / se["adjust_optimal"] - 1)
+    assert (
+        f"adjust_confounders's standard error is {share:.0f}% larger than adjust_optimal's"
+        in stories["adjust_confounders"].recommendation
+    )
+
+
+def test_estimates_of_the_wrong_sign_are_said_and_counted():
+    """Gelman & Carlin (2014), type S errors: a strategy whose estimates point the wrong way is said so,
+    and the share of studies with a significant estimate of the wrong sign is counted from the run's own
+    replicates."""
+    import numpy as np
+
+    sc = load_preset("common_effect")  # adjusting for the collider turns -0.2 into about -0.28; flip it
+    sc = wb_with_effect(sc, ("padding", "breakage"), 0.05)
+    report, result = check(sc), simulate(sc, replicates=300, seed=5)
+    story = {s.name: s for s in explain(report, result)}["adjust_complaints"]
+    row = result.table.set_index("name").loc["adjust_complaints"]
+    assert row["mean"] < 0 < row["truth"]
+    assert "had the wrong sign on average" in story.text()
+    j = list(result.arrays.strategies).index("adjust_complaints")
+    est, p = result.arrays.estimate[:, j], result.arrays.p_value[:, j]
+    wrong = float(np.mean((p < result.alpha) & (est < 0)))
+    assert f"of the wrong sign in {wrong:.0%}" in story.text()
+
+
+def wb_with_effect(sc, arrow, effect):
+    """The scenario with one arrow's effect changed."""
+    arrows = tuple(
+        a if (a.source, a.target) != arrow else type(a)(a.source, a.target, effect) for a in sc.arrows
+    )
+    return sc.replace(arrows=arrows)
+
+
+def test_a_valid_set_with_a_misspecified_model_is_not_recommended():
+    """A linear probability model with a continuous confounder is misspecified for the marginal risk
+    difference (the LPM converges to a variance-weighted average of conditional differences; Angrist &
+    Pischke 2009, sec. 3.3, from memory), while the standardised logistic model estimates it."""
+    stories = {s.name: s for s in explain(check(load_preset("lpm_misspecified")))}
+    lpm = stories["lpm_adjust_wear"]
+    assert lpm.valid and "misspecified" in lpm.text()
+    assert lpm.recommendation.startswith("Not recommended")
+    assert stories["standardised_adjust_wear"].recommendation.startswith("Recommended")

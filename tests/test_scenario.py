@@ -296,7 +296,7 @@ def test_limits_themselves_are_allowed():
 # --------------------------------------------------------------------------------------------------------
 NAMES = st.text(string.ascii_lowercase, min_size=1, max_size=6).map(lambda s: "v_" + s)
 FINITE = st.floats(min_value=-1e6, max_value=1e6, allow_nan=False, allow_infinity=False)
-LABEL = st.none() | st.text(max_size=20)
+LABEL = st.none() | st.text(max_size=20).filter(str.isprintable)  # control characters are refused
 
 
 @st.composite
@@ -349,12 +349,12 @@ def scenario_dicts(draw):
         "arrows": arrows,
     }
     if draw(st.booleans()):
-        doc["summary"] = draw(st.text(max_size=60))
+        doc["summary"] = draw(st.text(max_size=60).filter(lambda s: s.replace("\n", "").isprintable()))
     if draw(st.booleans()):  # else the default strategies are filled in from the graph
         strategies = []
         for index in range(draw(st.integers(1, 3))):
             adjust = draw(st.lists(st.sampled_from(adjustable), unique=True)) if adjustable else []
-            table = {"name": f"strategy {index + 1}", "adjust": adjust}
+            table = {"name": f"strategy_{index + 1}", "adjust": adjust}
             if outcome_binary and draw(st.booleans()):
                 table["model"] = "logit"
                 table["standardize"] = draw(st.booleans())

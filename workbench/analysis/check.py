@@ -2,8 +2,15 @@
 
 :func:`check` gathers the graph analysis of :mod:`workbench.graph` and, for linear-Gaussian graphs, the
 closed-form algebra of :mod:`workbench.graph.linear` (true effect; each strategy's large-sample estimate, bias and
-SE factor), so users see the answer the simulation should reproduce. Graphs with binary variables have no
-closed form: their large-sample figures come from one simulated data set of :data:`LARGE_SAMPLE_N` units.
+SE factor), so users see the answer the simulation should reproduce. Graphs with binary variables (and
+strategies that restrict or match) have no closed form: their large-sample figures come from a large
+simulation in batches, with a Monte Carlo SE (:mod:`workbench.analysis.large_sample`).
+
+Every strategy gets two verdicts: ``set_valid`` (the graph's: does the adjustment set identify the target?)
+and ``model_ok`` (does the fitted model, with that set, converge to the target? False when
+misspecified, as a linear probability model is for a risk difference with a continuous confounder). Every
+observed covariate gets the consequence of adjusting for it, alone and on top of the optimal set
+(:mod:`workbench.graph.controls`).
 
 Each strategy's findings are a :class:`StrategyCheck`; the :class:`CheckReport` holds them and renders them as
 text (:meth:`CheckReport.as_text`), HTML (:meth:`CheckReport.as_html`, shown by notebooks) and JSON
@@ -22,9 +29,15 @@ True
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from functools import lru_cache
 from typing import Any
 
+from workbench.analysis.large_sample import (
+    LARGE_SAMPLE_N,
+    LARGE_SAMPLE_SEED,
+    model_verdict,
+    se_note,
+    simulated_large_sample,
+)
 from workbench.engine.truth import estimand, model_kind, true_effect
 from workbench.formatting.jsonable import to_jsonable
 from workbench.formatting.phrases import strategy_text
@@ -51,6 +64,7 @@ from workbench.graph import (
     optimal_set,
     with_default_strategies,
 )
+from workbench.graph.controls import Consequence, consequences
 from workbench.scenario.model import CHANGE_THRESHOLD, Scenario, Strategy
 
 __all__ = [
@@ -68,10 +82,6 @@ ASSUMPTION = (
     "The graph and its effect sizes are assumptions. Everything here shows the consequences of those "
     "assumptions, not facts about the world."
 )
-LARGE_SAMPLE_N = 200_000
-"""Units in the one simulated data set behind the large-sample figures of a graph with binary variables."""
-LARGE_SAMPLE_SEED = 20261202
-"""Its seed (fixed, so that :func:`check` is deterministic)."""
 
 
 @dataclass(frozen=True)
@@ -104,6 +114,14 @@ class StrategyCheck:
         For a selection rule, the set it keeps in large samples.
     large_sample_mcse, strategy_truth : float or None
         For a simulated large-sample figure: its Monte Carlo SE, and the truth on the strategy's own scale.
+    large_sample_bias_mcse : float or None
+        The Monte Carlo SE of the simulated large-sample bias (estimate and truth).
+    large_sample_se_ratio : float or None
+        Classical over empirical (sandwich) SE in large samples, for a classical OLS fit on a simulated graph.
+    model_ok : bool or None
+        The model verdict (:func:`workbench.analysis.large_sample.model_verdict`); None when not judged.
+    model_reason : str
+        Why, in words.
     """
 
     name: str
@@ -128,6 +146,15 @@ class StrategyCheck:
     large_sample_selected: tuple[str, ...] | None = None
     large_sample_mcse: float | None = None
     strategy_truth: float | None = None
+    large_sample_bias_mcse: float | None = None
+    large_sample_se_ratio: float | None = None
+    model_ok: bool | None = None
+    model_reason: str = ""
+
+    @property
+    def set_valid(self) -> bool:
+        """The adjustment-set verdict (the same as :attr:`valid`, kept for compatibility)."""
+        return self.valid
 
     @property
     def simulated(self) -> bool:
@@ -149,6 +176,9 @@ class StrategyCheck:
                 list(self.large_sample_selected) if self.large_sample_selected is not None else None
             ),
             "valid": self.valid,
+            "set_valid": self.valid,
+            "model_ok": self.model_ok,
+            "model_reason": self.model_reason,
             "reasons": list(self.reasons),
             "notes": list(self.notes),
             "open_paths": list(self.open_paths),
@@ -163,6 +193,8 @@ class StrategyCheck:
         }
         if self.simulated:
             out["large_sample_mcse"] = self.large_sample_mcse
+            out["large_sample_bias_mcse"] = self.large_sample_bias_mcse
+            out["large_sample_se_ratio"] = self.large_sample_se_ratio
             out["strategy_truth"] = self.strategy_truth
         return out
 
@@ -176,7 +208,11 @@ class StrategyCheck:
     def details(self) -> list[str]:
         """The strategy's findings, one line each: reasons, precision notes, estimand, open paths and the
         large-sample figures in words."""
-        lines = list(self.reasons)
+        lines = [f"adjustment set {'valid' if self.valid else 'invalid'}: " + "; ".join(self.reasons)]
+        lines.append(f"model: {self.model_reason}")
+        flag = se_note(self.large_sample_se_ratio)
+        if flag:
+            lines.append(f"model SE: {flag}")
         lines += [f"precision: {note}" for note in self.notes]
         lines.append(f"estimates: {self.estimand}")
         if self.estimand_note:
@@ -191,9 +227,19 @@ class StrategyCheck:
 # ---- the report's tables, each specified once ------------------------------------------------------------
 ROLES_TABLE = TableSpec((Column("variable", "variable"), Column("role", "role"), Column("reason", "reason")))
 PATHS_TABLE = TableSpec((Column("kind", "path kind"), Column("path", "path")))
+CONTROLS_TABLE = TableSpec(
+    (
+        Column("variable", "variable"),
+        Column("alone", "alone"),
+        Column("alone_why", "why"),
+        Column("with_optimal", "on top of the optimal set"),
+        Column("with_optimal_why", "why"),
+    )
+)
 STRATEGIES_TABLE = TableSpec(
     (
-        Column("verdict", "verdict"),
+        Column("verdict", "set"),
+        Column("model_verdict", "model verdict"),
         Column("name", "strategy"),
         Column("model", "model"),
         Column("how", "adjusts for"),
@@ -209,12 +255,13 @@ STRATEGIES_TABLE = TableSpec(
 def _strategy_record(c: StrategyCheck) -> dict[str, Any]:
     return {
         "verdict": "VALID" if c.valid else "INVALID",
+        "model_verdict": {True: "ok", False: "MISSPECIFIED", None: "-"}[c.model_ok],
         "name": c.name,
         "model": c.model + (" (standardised)" if c.standardize else ""),
         "how": strategy_text(c.adjust, c.selection, c.restrict, c.match),
         "large_sample_estimate": c.large_sample_estimate,
         "large_sample_bias": c.large_sample_bias,
-        "large_sample_mcse": c.large_sample_mcse,
+        "large_sample_mcse": c.large_sample_bias_mcse or c.large_sample_mcse,
         "large_sample_se_factor": c.large_sample_se_factor,
         "vif": c.vif,
         "large_sample_method": c.large_sample_method,
@@ -243,6 +290,9 @@ class CheckReport:
     intercepts : dict of str to float
         The calibrated intercepts of binary variables.
     notes : list of str
+    adjust_consequences : dict of str to dict
+        Per observed covariate, ``{"alone": Consequence, "with_optimal": Consequence or None}``
+        (:func:`workbench.graph.controls.consequences`): good, neutral or bad, and why.
     """
 
     scenario: Scenario
@@ -257,6 +307,12 @@ class CheckReport:
     direct_effect: float | None = None
     intercepts: dict[str, float] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
+    adjust_consequences: dict[str, dict[str, Consequence | None]] = field(default_factory=dict)
+
+    def _consequence_json(self, key: str) -> dict[str, Any]:
+        return {
+            v: (c[key].to_dict() if c[key] is not None else None) for v, c in self.adjust_consequences.items()
+        }
 
     @property
     def strategies(self) -> list[dict[str, Any]]:
@@ -277,6 +333,8 @@ class CheckReport:
                 "scale": q.scale,
                 "roles": {v: [r for r, _ in roles] for v, roles in self.roles.items()},
                 "role_reasons": {v: [reason for _, reason in roles] for v, roles in self.roles.items()},
+                "adjust_alone": self._consequence_json("alone"),
+                "adjust_with_optimal": self._consequence_json("with_optimal"),
                 "paths": [{"path": p.text, "causal": p.causal} for p in self.paths],
                 "strategies": [c.to_dict() for c in self.checks],
                 "minimal_sets": [list(m) for m in self.minimal_sets],
@@ -305,15 +363,27 @@ class CheckReport:
             for i, (role, reason) in enumerate(items)
         ]
         paths = [{"kind": "causal" if p.causal else "non-causal", "path": p.text} for p in self.paths]
+        controls = [
+            {
+                "variable": v,
+                "alone": c["alone"].label,
+                "alone_why": c["alone"].why,
+                "with_optimal": c["with_optimal"].label if c["with_optimal"] else "-",
+                "with_optimal_why": c["with_optimal"].why if c["with_optimal"] else "no observed valid set",
+            }
+            for v, c in self.adjust_consequences.items()
+        ]
         parts: list = [
             Heading(sc.title),
             Paragraph(tuple(intro)),
             Table(ROLES_TABLE, tuple(roles), "Roles"),
             Table(PATHS_TABLE, tuple(paths), "Paths between exposure and outcome"),
+            Table(CONTROLS_TABLE, tuple(controls), "Adjusting for each covariate: good, neutral or bad"),
             Table(STRATEGIES_TABLE, tuple(_strategy_record(c) for c in self.checks), "Strategies"),
         ]
         for c in self.checks:
-            title = f"{'VALID' if c.valid else 'INVALID'} {c.name}: " + strategy_text(
+            model = " (model MISSPECIFIED)" if c.model_ok is False else ""
+            title = f"{'VALID' if c.valid else 'INVALID'} {c.name}{model}: " + strategy_text(
                 c.adjust, c.selection, c.restrict, c.match
             )
             parts.append(Bullets(tuple(c.details()), title))
@@ -419,32 +489,6 @@ def _intercepts(scenario: Scenario) -> dict[str, float]:
     return dict(calibrate_intercepts(scenario))
 
 
-@lru_cache(maxsize=64)
-def _simulated_large_sample(scenario: Scenario) -> dict[str, dict[str, Any]]:
-    """Per strategy, the fit on one simulated data set of :data:`LARGE_SAMPLE_N` units (graphs with binary
-    variables, which have no closed form): estimate, its SE (the Monte Carlo error of this large-sample
-    figure), SE x sqrt(n), and the truth on the strategy's own scale."""
-    # the simulation engine is loaded only for graphs with binary variables (``workbench check`` on a
-    # linear-Gaussian graph starts without it)
-    from workbench.analysis.estimate import estimate
-    from workbench.engine.generate import draw
-
-    data = draw(scenario, LARGE_SAMPLE_N, seed=LARGE_SAMPLE_SEED)
-    fits = estimate(scenario, data).set_index("strategy")
-    binary = scenario.outcome.is_binary
-    out = {}
-    for s in scenario.strategies:
-        _, scale, _ = estimand(model_kind(s, binary), scenario, s.adjust)
-        row = fits.loc[s.name]
-        out[s.name] = {
-            "estimate": float(row["estimate"]),
-            "mcse": float(row["se"]),
-            "se_factor": float(row["se"]) * LARGE_SAMPLE_N**0.5,
-            "truth": float(true_effect(scenario, scale).value),
-        }
-    return out
-
-
 def _truth(scenario: Scenario) -> tuple[float | None, str, float | None]:
     q = scenario.question
     direct = next((a.effect for a in scenario.arrows if (a.source, a.target) == (q.exposure, q.outcome)), 0.0)
@@ -465,34 +509,46 @@ def _bias(estimate: float | None, truth: float | None) -> float | None:
     return 0.0 if abs(bias) < 1e-12 * max(1.0, abs(truth)) else bias
 
 
-def _large_sample_figures(s: Strategy, truth, closed: dict | None, simulated: dict | None) -> dict[str, Any]:
-    """The large-sample fields of one :class:`StrategyCheck`: from the closed form, a simulated data set,
-    or none."""
-    if simulated is not None:
+def _large_sample_figures(s: Strategy, truth, closed: dict | None, simulated) -> dict[str, Any]:
+    """The large-sample fields of one :class:`StrategyCheck`: from the closed form, the large simulation
+    (:class:`workbench.analysis.large_sample.LargeSample`), or none."""
+    if closed is not None:
+        selected = closed.get("selected")
         return {
-            "large_sample_estimate": simulated["estimate"],
-            "large_sample_bias": _bias(simulated["estimate"], simulated["truth"]),
-            "large_sample_se_factor": simulated["se_factor"],
-            "large_sample_method": f"one simulated data set of {LARGE_SAMPLE_N:,} units",
-            "large_sample_mcse": simulated["mcse"],
-            "strategy_truth": simulated["truth"],
+            "large_sample_estimate": closed["estimate"],
+            "large_sample_bias": _bias(closed["estimate"], truth),
+            "large_sample_se_factor": closed["se_factor"],
+            "vif": closed["vif"],
+            "large_sample_method": "closed form",
+            "large_sample_selected": tuple(selected) if selected is not None else None,
         }
-    if closed is None:
+    if simulated is None:
         return {}
-    selected = closed.get("selected")
     return {
-        "large_sample_estimate": closed["estimate"],
-        "large_sample_bias": _bias(closed["estimate"], truth),
-        "large_sample_se_factor": closed["se_factor"],
-        "vif": closed["vif"],
-        "large_sample_method": "closed form",
-        "large_sample_selected": tuple(selected) if selected is not None else None,
+        "large_sample_estimate": simulated.estimate,
+        "large_sample_bias": _bias(simulated.estimate, simulated.truth),
+        "large_sample_se_factor": simulated.se_factor,
+        "large_sample_method": (
+            f"simulation of {LARGE_SAMPLE_N:,} units in batches (seed {LARGE_SAMPLE_SEED})"
+        ),
+        "large_sample_mcse": simulated.mcse,
+        "large_sample_bias_mcse": simulated.bias_mcse,
+        "large_sample_se_ratio": simulated.se_ratio,
+        "strategy_truth": simulated.truth,
     }
 
 
 def _strategy_check(scenario: Scenario, s: Strategy, truth, closed, simulated) -> StrategyCheck:
     verdict = judge_strategy(scenario, s)
     words, _, estimand_note = estimand(model_kind(s, scenario.outcome.is_binary), scenario, s.adjust)
+    figures = _large_sample_figures(s, truth, closed, simulated)
+    model_ok, model_reason = model_verdict(
+        verdict.valid,
+        figures.get("large_sample_bias"),
+        figures.get("large_sample_bias_mcse"),
+        figures.get("strategy_truth", truth),
+        closed is not None,
+    )
     return StrategyCheck(
         name=s.name,
         adjust=tuple(s.adjust),
@@ -508,7 +564,9 @@ def _strategy_check(scenario: Scenario, s: Strategy, truth, closed, simulated) -
         blocked_paths=tuple(verdict.blocked_paths),
         estimand=words,
         estimand_note=estimand_note,
-        **_large_sample_figures(s, truth, closed, simulated),
+        model_ok=model_ok,
+        model_reason=model_reason,
+        **figures,
     )
 
 
@@ -556,7 +614,8 @@ def check(scenario: Scenario) -> CheckReport:
     paths = list_paths(scenario)
     truth, method, direct = _truth(scenario)
     closed = large_sample_rows(scenario)
-    simulated = {} if closed or truth is None else _simulated_large_sample(scenario)
+    needs_simulation = truth is not None and any(s.name not in closed for s in scenario.strategies)
+    simulated = simulated_large_sample(scenario) if needs_simulation else {}
     checks = tuple(
         _strategy_check(scenario, s, truth, closed.get(s.name), simulated.get(s.name))
         for s in scenario.strategies
@@ -577,4 +636,5 @@ def check(scenario: Scenario) -> CheckReport:
         direct_effect=direct,
         intercepts=intercepts,
         notes=_report_notes(scenario, paths, minimal),
+        adjust_consequences=consequences(scenario),
     )

@@ -273,9 +273,13 @@ class PlanResult:
         """The result as JSON text (see :meth:`to_dict`); NaN is written as ``null``."""
         return json.dumps(self.to_dict(), indent=indent, allow_nan=False)
 
-    def to_csv(self, path) -> None:
-        """Write :attr:`table` as CSV, atomically (temporary file and rename)."""
+    def to_csv(self, path=None) -> str | None:
+        """Write :attr:`table` as CSV, atomically (temporary file and rename); with ``path=None`` return the
+        CSV text instead."""
+        if path is None:
+            return self.table.to_csv(index=False)
         write_text_atomically(path, self.table.to_csv(index=False))
+        return None
 
     # ---- rendering ---------------------------------------------------------------------------------------
     def _settings_lines(self) -> tuple[str, ...]:

@@ -26,6 +26,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from workbench.analysis.large_sample import model_word, with_model_verdicts
 from workbench.engine.fitplan import fit_plan, is_valid_set, strategy_is_valid
 from workbench.engine.ols import selected_names
 from workbench.engine.replicates import ReplicateArrays, check_arguments, run_replicates
@@ -61,6 +62,10 @@ TABLE_COLUMNS = [
     "model",
     "standardize",
     "valid",
+    "set_valid",
+    "model_ok",
+    "large_sample_estimate",
+    "large_sample_bias",
     "estimand",
     "target",
     "truth",
@@ -151,6 +156,7 @@ def _digits(record) -> int:
 PERFORMANCE_COLUMNS = (
     Column("name", "strategy"),
     Column("verdict", "valid"),
+    Column("model_verdict", "model"),
     Column("estimand", "estimand"),
     Column("truth", "truth", align="right", digits=_digits),
     Column("mean", "mean", align="right", digits=_digits),
@@ -369,8 +375,8 @@ class SimulationResult:
         """:meth:`to_dict` as JSON text (NaN as null)."""
         return json.dumps(self.to_dict(), indent=indent, allow_nan=False)
 
-    def to_csv(self, path) -> None:
-        """Write the per-strategy table as CSV, atomically."""
+    def to_csv(self, path=None) -> str | None:
+        """Write the per-strategy table as CSV, atomically; with ``path=None`` return the CSV text instead."""
         table = self.table.copy()
         table["adjust"] = [" ".join(a) for a in table["adjust"]]
         table["failure_reasons"] = [
@@ -381,7 +387,10 @@ class SimulationResult:
             "; ".join(f"{k} = {v}" for k, v in d.items()) if d else "" for d in table["restrict"]
         ]
         table["match"] = [" ".join(m) for m in table["match"]]
+        if path is None:
+            return table.to_csv(index=False)
         write_text_atomically(path, table.to_csv(index=False))
+        return None
 
     # ---- rendering ---------------------------------------------------------------------------------------
     def _settings_lines(self) -> tuple[str, ...]:
@@ -414,7 +423,10 @@ class SimulationResult:
     def parts(self) -> list:
         """The result as parts (:mod:`workbench.formatting.tables`), the one source of :meth:`as_text` and
         :meth:`as_html`: settings, the performance table, notes, the ``also`` table, the reminder."""
-        records = tuple({**r, "verdict": verdict_word(r)} for r in self.table.to_dict(orient="records"))
+        records = tuple(
+            {**r, "verdict": verdict_word(r), "model_verdict": model_word(r)}
+            for r in self.table.to_dict(orient="records")
+        )
         spec = PERFORMANCE_TABLE if self.scenario.outcome.is_binary else PERFORMANCE_TABLE_SAME_TARGET
         notes = [note for r in records for note in _strategy_notes(r, self.n)]
         return [
@@ -657,7 +669,7 @@ def simulate(
         truth_mcse=float(truth.mcse),
         truth_method=truth.method,
         truth_description=truth.description,
-        table=score_table(scenario, arrays),
+        table=with_model_verdicts(scenario, score_table(scenario, arrays)),
         arrays=arrays,
         conditional_log_odds_ratio=conditional_log_odds_ratio(scenario) if plan.binary_outcome else None,
     )

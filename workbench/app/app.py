@@ -9,8 +9,6 @@ styles themselves, and the text uses the system's fonts.
 
 from __future__ import annotations
 
-import html
-
 import panel as pn
 import param
 
@@ -22,6 +20,7 @@ from workbench.app.graph_tab import graph_tab
 from workbench.app.plan_tab import SampleSizeView
 from workbench.app.sidebar import Sidebar
 from workbench.app.state import Workbench
+from workbench.formatting.markup import text_html
 
 __all__ = ["App", "create_app", "GLOBAL_CSS"]
 
@@ -71,9 +70,9 @@ class App(pn.viewable.Viewer):
 
     def _header(self, *_):
         sc = self.workbench.scenario
-        summary = html.escape(sc.summary or "")
+        summary = text_html(sc.summary or "")
         self.header.object = (
-            f"<div style='font-size:18px;font-weight:700;color:#111'>{html.escape(sc.title)}</div>"
+            f"<div style='font-size:18px;font-weight:700;color:#111'>{text_html(sc.title)}</div>"
             f"<div style='font-size:13px;color:#444;max-width:1060px;line-height:1.4'>{summary}</div>"
             f"<div style='font-size:11px;color:#777'>workbench {__version__}. The graph is an assumption: "
             "the results show its consequences, not facts about the world.</div>"

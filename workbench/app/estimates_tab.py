@@ -4,8 +4,6 @@ estimates and of the SEs, the ranked intervals of the first replicates, and the 
 
 from __future__ import annotations
 
-import html
-
 import panel as pn
 
 from workbench.app.widgets import (
@@ -15,6 +13,7 @@ from workbench.app.widgets import (
     TabView,
     html_pane,
 )
+from workbench.formatting.markup import text_html, text_markdown
 from workbench.formatting.numbers import fmt_mcse
 from workbench.report import figures, tables
 
@@ -24,7 +23,7 @@ __all__ = ["EstimatesView", "simulation_summary_html", "FLAG_LEGEND", "SIGNALS_N
 #: the word "Flagged" shown in the flag's colour.
 FLAG_LEGEND = (
     "<div style='font-size:12px;color:#444'>"
-    + html.escape(tables.FLAG_NOTE).replace(
+    + text_html(tables.FLAG_NOTE).replace(
         "Flagged", "<span style='background:#F0E442;padding:0 4px'>Flagged</span>", 1
     )
     + "</div>"
@@ -54,7 +53,7 @@ def simulation_summary_html(result) -> str:
     return (
         f"<div style='font-size:13px'><b>True effect:</b> <span class='wb-sim-truth'>{truth}</span> &nbsp; "
         f"<b>n</b> = {result.n:,} &nbsp; <b>replicates</b> = {result.replicates:,} &nbsp; <b>seed</b> = "
-        f"{result.seed} &nbsp; <b>engine</b> = {result.engine}</div>"
+        f"{result.seed} &nbsp; <b>engine</b> = {text_html(result.engine)}</div>"
     )
 
 
@@ -81,7 +80,7 @@ class EstimatesView(TabView):
         job = self.workbench.simulation
         if job.status == "running":
             return "Running the simulation ..."
-        failed = f"  \n{job.message}" if job.status == "failed" else ""
+        failed = f"  \n{text_markdown(job.message)}" if job.status == "failed" else ""
         return "Press **Run** in the sidebar to simulate the study with the settings shown there." + failed
 
     @staticmethod

@@ -8,6 +8,7 @@ from __future__ import annotations
 import panel as pn
 
 from workbench.app.widgets import MAIN_WIDTH, NOTE_STYLE, TabView, placeholder
+from workbench.formatting.markup import text_html, text_markdown
 from workbench.report.dataset_figures import dataset_groups, dataset_scatter
 from workbench.report.explain import ASSUMPTION_NOTE, explain
 
@@ -32,7 +33,7 @@ def story_html(story) -> str:
     return (
         f"<div style='border-left:4px solid {colour};padding:4px 12px;margin:4px 0;font-size:13px;"
         f"line-height:1.45;max-width:1000px'><div style='font-weight:700;font-size:14px'>"
-        f"{story.title}</div>{story.html()}</div>"
+        f"{text_html(story.title)}</div>{story.html()}</div>"
     )
 
 
@@ -66,7 +67,7 @@ class ExplainView(TabView):
         report = wb.scenario_state.report
         result = wb.simulation.result if wb.simulation.is_current(wb.scenario) else None
         if report is None:
-            self.stories.objects = [placeholder(wb.scenario_state.report_error)]
+            self.stories.objects = [placeholder(text_markdown(wb.scenario_state.report_error))]
             return
         cards = [
             pn.pane.HTML(story_html(story), sizing_mode="stretch_width", css_classes=["wb-story"])
@@ -89,7 +90,7 @@ class ExplainView(TabView):
         self.covariate.value = sample.covariate
         data = sample.data
         if data is None:
-            self.plots.objects = [placeholder(sample.message or "No dataset drawn.")]
+            self.plots.objects = [placeholder(text_markdown(sample.message) or "No dataset drawn.")]
             return
         q = wb.scenario.question
         objects = [pn.pane.Bokeh(dataset_scatter(data, q.exposure, q.outcome, sample.covariate, width=570))]
@@ -98,7 +99,7 @@ class ExplainView(TabView):
         self.plots.objects = objects
         latent = ", ".join(data.attrs.get("latent", [])) or "none"
         colour = f", coloured by {sample.covariate}" if sample.covariate else ""
-        self.caption.object = (
+        self.caption.object = text_markdown(
             f"One dataset of n = {len(data):,} drawn from the scenario: {q.outcome} against "
             f"{q.exposure}{colour}. Latent variables (simulated, never seen in practice): "
             f"{latent}."

@@ -5,8 +5,6 @@ verdict, and under them the four scenario editors (:mod:`workbench.app.editors`,
 
 from __future__ import annotations
 
-import html
-
 import panel as pn
 import param
 
@@ -14,6 +12,8 @@ from workbench.app.editors import ArrowsEditor, TomlEditor, VariablesEditor
 from workbench.app.state import ScenarioState
 from workbench.app.strategies_editor import StrategiesEditor
 from workbench.app.widgets import ErrorBox
+from workbench.formatting.markup import text_html
+from workbench.report.explain import consequences_html
 from workbench.report.graph_drawing import graph_figure
 
 __all__ = ["GraphView", "graph_tab", "verdict_html"]
@@ -42,14 +42,14 @@ def verdict_html(name: str, verdict) -> str:
         if verdict.valid
         else "<span style='color:#A33C00;font-weight:700'>invalid</span>"
     )
-    reasons = "".join(f"<li>{html.escape(r)}</li>" for r in verdict.reasons + verdict.notes)
+    reasons = "".join(f"<li>{text_html(r)}</li>" for r in verdict.reasons + verdict.notes)
     open_paths = "".join(
-        f"<li>{html.escape(p.text)}{' (causal)' if p.causal else ''}</li>" for p in verdict.open_paths
+        f"<li>{text_html(p.text)}{' (causal)' if p.causal else ''}</li>" for p in verdict.open_paths
     )
-    blocked = "".join(f"<li>{html.escape(p.text)}</li>" for p in verdict.blocked_paths)
+    blocked = "".join(f"<li>{text_html(p.text)}</li>" for p in verdict.blocked_paths)
     items = "style='padding-left:16px;margin:2px 0'"
     return (
-        f"<div style='font-size:12px'><b>{html.escape(name)}</b>: {badge}"
+        f"<div style='font-size:12px'><b>{text_html(name)}</b>: {badge}"
         f"<ul style='padding-left:16px;margin:4px 0'>{reasons}</ul>"
         f"<b>Open paths</b><ul {items}>{open_paths or '<li>none</li>'}</ul>"
         f"<b>Blocked paths</b><ul {items}>{blocked or '<li>none</li>'}</ul></div>"
@@ -86,6 +86,7 @@ class GraphView(pn.viewable.Viewer):
         self.highlight.param.watch(self._highlight_chosen, "value")
         self.verdict = pn.pane.HTML("", width=300, css_classes=["wb-verdict"])
         self.truth = pn.pane.HTML("", width=300, css_classes=["wb-truth"])
+        self.controls = pn.pane.HTML("", width=300, css_classes=["wb-controls"])
         self.state.param.watch(self._refresh, ["scenario", "selected_strategy", "report"])
         self._refresh()
 
@@ -113,6 +114,7 @@ class GraphView(pn.viewable.Viewer):
         self._show_question()
         self.truth.object = self._truth_html()
         self.verdict.object = verdict_html(state.selected_strategy, verdict)
+        self.controls.object = consequences_html(report, state.selected_strategy)
 
     def _show_question(self) -> None:
         """Set the selectors to the scenario's question and strategies."""
@@ -137,8 +139,8 @@ class GraphView(pn.viewable.Viewer):
         truth = report.truth if report is not None else None
         truth_text = f"{truth:.4g}" if truth is not None else "computed by the simulation"
         return (
-            f"<div style='font-size:13px'><b>Question:</b> the {q.target} effect of <b>{q.exposure}</b> on "
-            f"<b>{q.outcome}</b> ({q.scale.replace('_', ' ')}).<br><b>True effect under this graph:</b> "
+            f"<div style='font-size:13px'><b>Question:</b> the {q.target} effect of <b>{text_html(q.exposure)}</b> "
+            f"on <b>{text_html(q.outcome)}</b> ({q.scale.replace('_', ' ')}).<br><b>True effect under this graph:</b> "
             f"<span class='wb-truth-value'>{truth_text}</span></div>"
         )
 
@@ -150,6 +152,7 @@ class GraphView(pn.viewable.Viewer):
             ErrorBox(state=self.state, sections=["question"], width=300),
             self.highlight,
             self.verdict,
+            self.controls,
             width=320,
         )
         return pn.Row(self.pane, side, margin=0)

@@ -15,6 +15,7 @@ from workbench.app.widgets import (
     TabView,
     html_pane,
 )
+from workbench.formatting.markup import text_markdown
 from workbench.report import figures, tables
 
 __all__ = ["SampleSizeView"]
@@ -40,6 +41,8 @@ class SampleSizeView(TabView):
             width=210,
             css_classes=["wb-target-halfwidth"],
         )
+        for field in (self.target_power, self.target_halfwidth):
+            field.param.update(start=None, end=None)  # the state checks every value (see the sidebar)
         self.body = pn.Column(margin=0, css_classes=["wb-sample-size"])
         self.banner = pn.pane.HTML("", margin=(0, 5))
         self._shown = None
@@ -61,7 +64,7 @@ class SampleSizeView(TabView):
         job = wb.planning
         if job.status == "running":
             return "Computing the sample-size plan ..."
-        failed = f"  \n{job.message}" if job.status == "failed" else ""
+        failed = f"  \n{text_markdown(job.message)}" if job.status == "failed" else ""
         return (
             "Press **Run** in the sidebar to compute power and precision over the sample sizes "
             f"{sizes_text(wb.scenario.study.sample_sizes)}." + failed

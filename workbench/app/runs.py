@@ -2,7 +2,8 @@
 
 A :class:`BackgroundJob` runs one computation on a scenario in a worker thread, with progress, cancel, and a
 cache keyed by the scenario's TOML text (which holds the study settings and the seed), so going back to an
-earlier scenario shows its results at once. :class:`SimulationJob` runs :func:`workbench.simulate` and
+earlier scenario shows its results at once. The cache belongs to one job, and so to one browser session: a
+result shown from it is one this session computed, and its message says when. :class:`SimulationJob` runs :func:`workbench.simulate` and
 :class:`PlanJob` runs :func:`workbench.plan`, both with the scenario's own study seed passed explicitly: the
 dashboard shows exactly the run the file describes (the library's ``seed=None`` would mean fresh entropy).
 
@@ -19,8 +20,8 @@ Examples
 >>> job.status, job.result.seed == sc.study.seed
 ('done', True)
 >>> job.start(sc, background=False)
->>> job.message
-'simulation: from the cache'
+>>> job.message.startswith("simulation: the result of the run at ")
+True
 """
 
 from __future__ import annotations
@@ -92,12 +93,13 @@ class BackgroundJob(param.Parameterized):
         if key not in self._cache:
             return False
         self._cache.move_to_end(key)
+        result, finished = self._cache[key]
         with param.parameterized.batch_call_watchers(self):
             self.result_key = key
-            self.result = self._cache[key]
+            self.result = result
             self.status = "done"
             self.progress = 1.0
-            self.message = f"{self.label}: from the cache"
+            self.message = f"{self.label}: the result of the run at {finished} (this session, same settings)"
         return True
 
     def clear(self) -> None:
@@ -200,7 +202,7 @@ class BackgroundJob(param.Parameterized):
         if cancel.is_set():
             return
         key = self.key(scenario)
-        self._cache[key] = result
+        self._cache[key] = (result, time.strftime("%H:%M:%S"))
         while len(self._cache) > CACHE_SIZE:
             self._cache.popitem(last=False)
         seconds = time.monotonic() - started

@@ -1,9 +1,13 @@
 """Serve the dashboard: ``workbench serve`` calls :func:`serve`.
 
 The server binds the loopback address unless told otherwise (with a printed warning, since the page lets a
-visitor run computations), accepts websocket connections only from the address it serves, limits the size of
-messages (uploads are at most 256 KiB of TOML), and serves every script and style itself: the page makes no
-request to any other host.
+visitor run computations). It answers a request (the page, a script, a websocket handshake) only when its
+Host header names an address it serves (the loopback names by default, the ``--address`` given, and any
+``--allow-host`` names) and its Origin, when sent, names one too: a page on another site cannot reach the
+dashboard by making its own name resolve to the loopback address (DNS rebinding). It limits the size of
+websocket messages (:data:`MAX_MESSAGE_BYTES`: an upload up to :data:`BROWSER_UPLOAD_LIMIT` arrives and is
+refused with a message; a larger one is stopped in the browser), and serves every script and style itself:
+the page makes no request to any other host.
 """
 
 from __future__ import annotations
@@ -12,35 +16,145 @@ import argparse
 import socket
 import sys
 
-__all__ = ["serve", "main", "LOOPBACK"]
+__all__ = [
+    "serve",
+    "main",
+    "LOOPBACK",
+    "BROWSER_UPLOAD_LIMIT",
+    "MAX_MESSAGE_BYTES",
+    "allowed_hosts",
+    "request_allowed",
+    "guard_hosts",
+]
 
 LOOPBACK = ("127.0.0.1", "localhost", "::1")
-_MAX_MESSAGE_BYTES = 2 * 1024 * 1024
+#: The largest file the page sends to the server at all; a larger one is refused in the browser, before a
+#: byte of it is sent (the server's own check, :data:`workbench.app.state.MAX_UPLOAD_BYTES`, is smaller).
+BROWSER_UPLOAD_LIMIT = 2 * 1024 * 1024
+#: The largest websocket message the server reads: an upload of :data:`BROWSER_UPLOAD_LIMIT` bytes travels
+#: as base64 (4/3 of its size) inside a JSON message, so it fits with room to spare, and reaches the
+#: session's own size check with its one-line message instead of closing the connection.
+MAX_MESSAGE_BYTES = 4 * 1024 * 1024
 
 
-def _origins(address: str, port: int) -> list[str]:
-    """Allowed websocket origins: the host and port served, nothing else.
+def _host_name(address: str) -> str:
+    """An address as it appears in a Host header: IPv6 in brackets, lower case."""
+    address = address.strip().lower()
+    return f"[{address}]" if ":" in address and not address.startswith("[") else address
 
-    On loopback both loopback names are allowed; on a wildcard address (all interfaces) the machine's own
-    names; otherwise the address given.
+
+def allowed_hosts(address: str, port: int, extra=()) -> list[str]:
+    """The ``host:port`` values a request's Host header (and Origin, when sent) may name.
+
+    On loopback the three loopback names; on a wildcard address (all interfaces) the machine's own names and
+    the loopback ones; otherwise the address given. ``extra`` adds names (``--allow-host``), each with the
+    port served unless it names its own.
 
     Examples
     --------
-    >>> _origins("127.0.0.1", 5006)
-    ['127.0.0.1:5006', 'localhost:5006']
-    >>> _origins("10.0.0.7", 8000)
-    ['10.0.0.7:8000']
+    >>> allowed_hosts("127.0.0.1", 5006)
+    ['127.0.0.1:5006', 'localhost:5006', '[::1]:5006']
+    >>> allowed_hosts("10.0.0.7", 8000, extra=["lab-box", "proxy.example:443"])
+    ['10.0.0.7:8000', 'lab-box:8000', 'proxy.example:443']
     """
     if address in LOOPBACK:
-        return [f"127.0.0.1:{port}", f"localhost:{port}"]
-    if address in ("0.0.0.0", "::", ""):
-        names = dict.fromkeys([socket.gethostname(), socket.getfqdn(), "127.0.0.1", "localhost"])
-        return [f"{name}:{port}" for name in names if name]
-    host = f"[{address}]" if ":" in address else address
-    return [f"{host}:{port}"]
+        names = list(LOOPBACK)
+    elif address in ("0.0.0.0", "::", ""):
+        names = [socket.gethostname(), socket.getfqdn(), *LOOPBACK]
+    else:
+        names = [address]
+    out = [f"{_host_name(name)}:{port}" for name in names if name]
+    out += [_extra_host(name, port) for name in extra]
+    return list(dict.fromkeys(out))
 
 
-def serve(preset: str | None = None, port: int = 5006, address: str = "127.0.0.1", show: bool = True):
+def _extra_host(name: str, port: int) -> str:
+    """An ``--allow-host`` value as ``host:port``: ``name``, ``name:port``, ``[v6]`` or ``[v6]:port``.
+
+    Examples
+    --------
+    >>> _extra_host("Lab-Box", 80), _extra_host("lab:8080", 80), _extra_host("::1", 80), _extra_host("[::1]:9", 80)
+    ('lab-box:80', 'lab:8080', '[::1]:80', '[::1]:9')
+    """
+    name = name.strip().lower()
+    head, _, tail = name.rpartition(":")
+    if tail.isdigit() and head and (head.count(":") == 0 or head.endswith("]")):
+        return name
+    return f"{_host_name(name)}:{port}"
+
+
+def _with_port(netloc: str, default_port: int) -> str:
+    """``host[:port]`` with the port made explicit (a browser leaves out the scheme's default port)."""
+    netloc = netloc.strip().lower()
+    if netloc.endswith("]") or ":" not in netloc:
+        return f"{netloc}:{default_port}"
+    return netloc
+
+
+def request_allowed(host: str | None, origin: str | None, allowed) -> bool:
+    """Whether a request may be served: its Host header names an allowed ``host:port``, and its Origin
+    header, when sent, names one too. A page from another site that resolves its own name to the loopback
+    address (DNS rebinding) sends its own name in both, and is refused.
+
+    Common practice, no source: the Host-header allowlist web frameworks use against DNS rebinding.
+
+    Examples
+    --------
+    >>> ok = allowed_hosts("127.0.0.1", 5006)
+    >>> request_allowed("127.0.0.1:5006", None, ok), request_allowed("localhost:5006", "http://localhost:5006", ok)
+    (True, True)
+    >>> request_allowed("evil.example:5006", "http://evil.example:5006", ok)
+    False
+    >>> request_allowed("127.0.0.1:5006", "http://evil.example:5006", ok), request_allowed(None, None, ok)
+    (False, False)
+    """
+    allowed = set(allowed)
+    if not host or _with_port(host, 80) not in allowed:
+        return False
+    if origin is None:
+        return True
+    from urllib.parse import urlsplit
+
+    parts = urlsplit(origin.strip())
+    if parts.scheme not in ("http", "https") or not parts.netloc:
+        return False
+    return _with_port(parts.netloc, 443 if parts.scheme == "https" else 80) in allowed
+
+
+def guard_hosts(tornado_app, allowed) -> None:
+    """Make ``tornado_app`` (the Bokeh server's Tornado application) answer 403 Forbidden to every request,
+    page, script or websocket handshake alike, that :func:`request_allowed` refuses, before any handler
+    (and so any session) is made for it.
+
+    Examples
+    --------
+    >>> import tornado.web
+    >>> app = tornado.web.Application([])
+    >>> guard_hosts(app, allowed_hosts("127.0.0.1", 5006))
+    >>> app.find_handler.__name__
+    'find_guarded_handler'
+    """
+    import tornado.web
+
+    allowed = frozenset(allowed)
+    find_handler = tornado_app.find_handler
+
+    def find_guarded_handler(request, **kwargs):
+        headers = request.headers
+        if request_allowed(headers.get("Host"), headers.get("Origin"), allowed):
+            return find_handler(request, **kwargs)
+        return tornado_app.get_handler_delegate(request, tornado.web.ErrorHandler, {"status_code": 403})
+
+    tornado_app.find_handler = find_guarded_handler
+
+
+def serve(
+    preset: str | None = None,
+    port: int = 5006,
+    address: str = "127.0.0.1",
+    show: bool = True,
+    allow_host=(),
+):
     """Start the dashboard server and block until it is stopped.
 
     Parameters
@@ -53,6 +167,9 @@ def serve(preset: str | None = None, port: int = 5006, address: str = "127.0.0.1
         Address to bind; the loopback address by default. Any other address is served with a warning.
     show : bool
         Open the page in the default web browser.
+    allow_host : sequence of str
+        Further names the page may be reached by (a proxy's or the machine's name on the network), each
+        ``name`` (with ``port``) or ``name:port``; requests naming any other host are refused (403).
 
     Raises
     ------
@@ -77,22 +194,33 @@ def serve(preset: str | None = None, port: int = 5006, address: str = "127.0.0.1
             "computations on this machine. Use the default 127.0.0.1 to keep it private.",
             file=sys.stderr,
         )
-    host = f"[{address}]" if ":" in address else address
-    print(f"workbench dashboard: http://{host}:{port}/  (Ctrl-C to stop)", flush=True)
-    pn.serve(
+    hosts = allowed_hosts(address, port, allow_host)
+    server = pn.serve(
         {"/": lambda: create_app(preset)},
         port=port,
         address=address,
-        websocket_origin=_origins(address, port),
-        show=show,
+        websocket_origin=[h for h in hosts if not h.startswith("[")],  # Bokeh's list takes no IPv6
+        show=False,
+        start=False,
         title="workbench",
-        websocket_max_message_size=_MAX_MESSAGE_BYTES,
+        websocket_max_message_size=MAX_MESSAGE_BYTES,
         verbose=False,
     )
+    # Bokeh checks a websocket's Origin only; the page, its scripts and the handshake's Host are checked here
+    guard_hosts(server._tornado, hosts)
+    print(f"workbench dashboard: http://{_host_name(address)}:{server.port}/  (Ctrl-C to stop)", flush=True)
+    if show:
+        server.io_loop.add_callback(server.show, "/")
+    server.start()
+    try:
+        server.io_loop.start()
+    except RuntimeError:  # the loop was stopped by Ctrl-C
+        pass
 
 
 def main(argv: list[str] | None = None) -> int:
-    """``python -m workbench.app.serve [--preset NAME] [--port 5006] [--address 127.0.0.1] [--no-show]``
+    """``python -m workbench.app.serve [--preset NAME] [--port 5006] [--address 127.0.0.1] [--allow-host NAME]
+    [--no-show]``
 
     Examples
     --------
@@ -104,10 +232,17 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--preset", default=None)
     parser.add_argument("--port", type=int, default=5006)
     parser.add_argument("--address", default="127.0.0.1")
+    parser.add_argument("--allow-host", action="append", default=[], metavar="NAME[:PORT]")
     parser.add_argument("--show", action=argparse.BooleanOptionalAction, default=True)
     args = parser.parse_args(argv)
     try:
-        serve(preset=args.preset, port=args.port, address=args.address, show=args.show)
+        serve(
+            preset=args.preset,
+            port=args.port,
+            address=args.address,
+            show=args.show,
+            allow_host=args.allow_host,
+        )
     except WorkbenchError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return 2

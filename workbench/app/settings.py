@@ -79,13 +79,46 @@ class _BoundSettings(param.Parameterized):
         return {name: getattr(study, name) for name in self.fields}
 
     def _follow_scenario(self, *_events) -> None:
-        self.param.update(**self.study_values())
+        values = self.study_values()
+        refused = self.state.invalid.get(self.section, {})
+        reset = [
+            f"{self.section}.{k} shows {values[k]} again ({getattr(self, k)!r} was not applied)"
+            for k in refused
+        ]
+        self.param.update(**values)
+        self._record_invalid({})
+        if reset:  # say that a refused value was replaced, so it does not vanish unseen
+            self.state.note = "; ".join([t for t in (self.state.note,) if t] + reset)
 
     def _edited(self, *events) -> None:
         current = self.study_values()
-        changed = {e.name: e.new for e in events if e.new != current[e.name]}
+        changed = {e.name: e.new for e in events if not self.same(e.name, e.new, current[e.name])}
+        refused = {}
         if changed or self.state.error_section == self.section:
-            self.send(changed)  # with nothing changed, this clears the error of a value typed before
+            # with nothing changed, this clears the error of a value typed before
+            if not self.send(changed):
+                refused = {name: self.state.error for name in changed}
+        self._record_invalid(refused)
+
+    def same(self, name: str, typed, value) -> bool:
+        """Whether the typed value of ``name`` says the same as the scenario's ``value``."""
+        return typed == value
+
+    def _record_invalid(self, refused: dict[str, str]) -> None:
+        """Tell the state which fields still hold a value that is not in effect, with their messages
+        (a field refused earlier keeps its message until it is corrected or the scenario resets it)."""
+        current = self.study_values()
+        before = self.state.invalid.get(self.section, {})
+        messages = {}
+        for name in self.fields:
+            if self.same(name, getattr(self, name), current[name]):
+                continue
+            messages[name] = (
+                refused.get(name)
+                or before.get(name)
+                or (f"{self.section}.{name}: the value typed is not in effect")
+            )
+        self.state.set_invalid(self.section, messages)
 
     def send(self, changed: dict) -> bool:
         """Send changed values to the state (as :meth:`ScenarioState.set_study`)."""
@@ -149,6 +182,25 @@ class PlanSettings(_BoundSettings):
             "target_power": study.target_power,
             "target_halfwidth": study.target_halfwidth,
         }
+
+    def same(self, name: str, typed, value) -> bool:
+        """Sizes say the same in any order and spacing; a half-width of 0 or none says no target.
+
+        Examples
+        --------
+        >>> from workbench.app.state import ScenarioState
+        >>> plan = PlanSettings(state=ScenarioState(preset="common_cause"))
+        >>> plan.same("sample_sizes", "400,100 200", "100, 200, 400"), plan.same("target_halfwidth", 0, None)
+        (True, True)
+        """
+        if name == "sample_sizes":
+            words = (typed or "").replace(",", " ").split()
+            if all(word.isdigit() for word in words):
+                return sizes_text(sorted(int(word) for word in words)) == value
+            return False
+        if name == "target_halfwidth":
+            return (typed or None) == value
+        return typed == value
 
     def send(self, changed: dict) -> bool:
         """Send changed values to the state: the sizes as text, a half-width of 0 as none."""

@@ -14,7 +14,9 @@ import param
 
 from workbench.app.settings import StudySettings
 from workbench.app.state import MAX_UPLOAD_BYTES, Workbench
+from workbench.app.upload import UploadInput
 from workbench.app.widgets import SIDEBAR_WIDTH, ErrorBox, slug
+from workbench.formatting.markup import text_markdown
 from workbench.scenario.presets import list_presets
 
 __all__ = ["Sidebar"]
@@ -49,10 +51,13 @@ class Sidebar(pn.viewable.Viewer):
         )
         self.preset.param.watch(self._preset_chosen, "value")
         state.param.watch(self._source_changed, "source")
-        self.upload = pn.widgets.FileInput(
-            accept=".toml", multiple=False, css_classes=["wb-upload"], width=SIDEBAR_WIDTH - 20
+        self.upload = UploadInput(
+            on_file=state.upload,
+            on_refused=state.refuse_upload,
+            css_classes=["wb-upload"],
+            width=SIDEBAR_WIDTH - 20,
+            height=30,
         )
-        self.upload.param.watch(self._uploaded, "value")
         self.download = pn.widgets.FileDownload(
             callback=self._toml_file,
             filename="scenario.toml",
@@ -78,6 +83,10 @@ class Sidebar(pn.viewable.Viewer):
         self.alpha = pn.widgets.FloatInput.from_param(
             settings.alpha, label="Alpha", width=125, css_classes=["wb-alpha"]
         )
+        for field in (self.n, self.replicates, self.seed, self.alpha):
+            # no bounds in the browser: an input with bounds silently refuses a value outside them and
+            # keeps showing it; every value goes to the state, which names what is wrong beside the field
+            field.param.update(start=None, end=None)
         self.live = pn.widgets.Checkbox.from_param(
             self.workbench.param.live,
             label="Re-run at once on every change (linear-Gaussian graphs)",
@@ -106,6 +115,16 @@ class Sidebar(pn.viewable.Viewer):
         )
         for job in (wb.simulation, wb.planning):
             job.param.watch(self._job_changed, ["status", "progress", "message"])
+        wb.param.watch(self._job_changed, "notice")
+        self.cost = pn.pane.Markdown(
+            "",
+            css_classes=["wb-cost"],
+            styles={"font-size": "12px"},
+            width=SIDEBAR_WIDTH - 20,
+            margin=(0, 10),
+        )
+        wb.param.watch(self._cost_changed, ["cost", "over_budget"])
+        self._cost_changed()
         self._job_changed()
 
     # --- events ------------------------------------------------------------------------------------
@@ -133,14 +152,16 @@ class Sidebar(pn.viewable.Viewer):
         finally:
             self._rewriting_presets = False
 
-    def _uploaded(self, event):
-        if event.new is not None:
-            self.workbench.scenario_state.upload(event.new, self.upload.filename)
-
     def _toml_file(self):
         state = self.workbench.scenario_state
         self.download.filename = f"{slug(state.scenario.title)}.toml"
         return io.StringIO(state.download_text())
+
+    def _cost_changed(self, *_):
+        """The estimate of what Run costs, in a warning colour when over the budget."""
+        wb = self.workbench
+        self.cost.object = text_markdown(wb.cost)
+        self.cost.styles = {"font-size": "12px", "color": "#A33C00" if wb.over_budget else "#555"}
 
     def _job_changed(self, *_):
         sim, plan = self.workbench.simulation, self.workbench.planning
@@ -151,7 +172,8 @@ class Sidebar(pn.viewable.Viewer):
             self.progress.value = int(round(100 * running[0].progress))
         else:
             self.progress.value = 100 if sim.status == "done" else 0
-        self.status.object = "  \n".join(job.message for job in (sim, plan) if job.message)
+        lines = [self.workbench.notice] + [job.message for job in (sim, plan)]
+        self.status.object = "  \n".join(text_markdown(line) for line in lines if line)
 
     def __panel__(self):
         state = self.workbench.scenario_state
@@ -177,6 +199,7 @@ class Sidebar(pn.viewable.Viewer):
             ErrorBox(state=state, sections=["study"], width=None),
             self.live,
             pn.Row(self.run, self.cancel, margin=(8, 0)),
+            self.cost,
             self.progress,
             self.status,
             width=SIDEBAR_WIDTH,

@@ -33,14 +33,15 @@ from typing import Any
 
 import param
 
+from workbench.analysis import budget
 from workbench.analysis.check import check
 from workbench.app.dataset import SampleState
-from workbench.app.runs import PlanJob, SimulationJob
+from workbench.app.edits import check_study_values, strategy_table_change, variable_change
+from workbench.app.runs import BackgroundJob, PlanJob, SimulationJob
 from workbench.errors import ScenarioError, WorkbenchError
 from workbench.graph import judge
 from workbench.graph.defaults import load_preset, loads_scenario, scenario_from_dict
 from workbench.scenario import edit
-from workbench.scenario.constraints import STUDY_SETTINGS, check_setting
 from workbench.scenario.model import Scenario
 from workbench.scenario.presets import DEFAULT_PRESET, list_presets
 from workbench.scenario.write import dumps_scenario, scenario_to_dict
@@ -49,106 +50,11 @@ __all__ = ["MAX_UPLOAD_BYTES", "ScenarioState", "Workbench", "check_study_values
 
 #: Largest scenario file or text accepted, in bytes.
 MAX_UPLOAD_BYTES = 256 * 1024
-#: The variable fields :meth:`ScenarioState.set_variable` sets as given (numbers checked by the parser).
-_PLAIN_FIELDS = ("noise_sd", "baseline", "proportion")
-_SIZES = "sample_sizes"
 
 
-def check_study_values(fields: dict[str, Any]) -> dict[str, Any]:
-    """Check study settings typed in the dashboard with the one rule,
-    :func:`~workbench.scenario.constraints.check_setting`; return them as the TOML table holds them.
-
-    ``target_halfwidth=None`` means no target; ``sample_sizes`` is a sequence of sizes.
-
-    Raises
-    ------
-    ScenarioError
-        ``study.<name>: must be ..., got ...`` for the first bad value.
-
-    Examples
-    --------
-    >>> check_study_values({"n": 300, "sample_sizes": (100, 200)})
-    {'n': 300, 'sample_sizes': [100, 200]}
-    >>> check_study_values({"replicates": 0})
-    Traceback (most recent call last):
-    ...
-    workbench.errors.ScenarioError: study.replicates: must be an integer from 1 to 1,000,000, got 0
-    """
-    out: dict[str, Any] = {}
-    for key, value in fields.items():
-        if key == _SIZES:
-            out[key] = [
-                check_setting("sample_size", size, where=f"study.sample_sizes[{i}]")
-                for i, size in enumerate(value, start=1)
-            ]
-        elif key == "target_halfwidth" and value is None:
-            out[key] = None
-        elif key in STUDY_SETTINGS and key != "sample_size":
-            out[key] = check_setting(key, value, where=f"study.{key}")
-        else:
-            raise ScenarioError(f"cannot edit '{key}'", where="study")
-    return out
-
-
-def _variable_change(name: str, field: str, value: Any) -> Callable[[dict], edit.Edited]:
-    """The edit of one field of a variable (see :meth:`ScenarioState.set_variable`)."""
-
-    def change(data: dict) -> edit.Edited:
-        if name not in data["variables"]:
-            raise ScenarioError(f"no variable '{name}'", where="variables")
-        if field == "name":
-            return edit.rename_variable(data, name, str(value))
-        if field == "type":
-            return edit.set_variable_type(data, name, str(value))
-        if field == "observed":
-            return edit.set_observed(data, name, bool(value))
-        table = data["variables"][name]
-        if field == "label":
-            text = str(value or "").strip()
-            if text:
-                table["label"] = text
-            else:
-                table.pop("label", None)
-            return edit.Edited(data)
-        if field not in _PLAIN_FIELDS:
-            raise ScenarioError(f"cannot edit '{field}'", where=f"variables.{name}")
-        if field != "proportion" and table.get("type") == "binary":
-            raise ScenarioError(
-                "a binary variable is set by its proportion", where=f"variables.{name}.{field}"
-            )
-        if field == "proportion" and table.get("type") != "binary":
-            raise ScenarioError("only a binary variable has a proportion", where=f"variables.{name}.{field}")
-        table[field] = value
-        return edit.Edited(data)
-
-    return change
-
-
-def _strategy_table_change(table: dict, name: str, changes: dict[str, Any]) -> None:
-    """Apply the changes of :meth:`ScenarioState.set_strategy` to one strategy's table, in place."""
-    if changes.get("adjust") is not None:
-        table["adjust"] = list(changes["adjust"])
-    model = changes.get("model")
-    if model is not None:
-        table["model"] = model
-        if model != "logit":
-            table.pop("standardize", None)
-        else:
-            table.pop("selection", None)  # selection rules apply to OLS only
-    if changes.get("standardize") is not None:
-        table["standardize"] = bool(changes["standardize"])
-    selection = changes.get("selection")
-    if selection in ("", "fixed"):
-        table.pop("selection", None)
-    elif selection is not None:
-        table["selection"] = selection
-    if changes.get("restrict") is not None:
-        parsed = edit.parse_restriction(changes["restrict"], where=f"strategies.{name}.restrict")
-        table["restrict"] = parsed
-        if not parsed:
-            del table["restrict"]
-    if changes.get("new_name") is not None:
-        table["name"] = changes["new_name"]
+def _too_large(size: int) -> str:
+    """The message of an upload over :data:`MAX_UPLOAD_BYTES`."""
+    return f"{size:,} bytes is over the limit of {MAX_UPLOAD_BYTES:,}"
 
 
 class ScenarioState(param.Parameterized):
@@ -185,6 +91,10 @@ class ScenarioState(param.Parameterized):
     report_error = param.String(default="", doc="Why the check report is missing, '' when present.")
     revision = param.Integer(default=0, doc="Counts valid changes of the scenario.")
     source = param.String(default="preset", doc="Where the scenario in effect came from (the last section).")
+    invalid = param.Dict(
+        default={},
+        doc="Fields whose typed value was refused and is not in effect: section -> {field: message}.",
+    )
 
     SECTIONS = ("preset", "upload", "toml", "variables", "arrows", "question", "strategies", "study", "plan")
     """Where an edit can come from (the ``section`` of errors and notes)."""
@@ -237,6 +147,35 @@ class ScenarioState(param.Parameterized):
         self._commit(scenario, section, "; ".join(t for t in (edited.note, warned) if t))
         return True
 
+    def set_invalid(self, section: str, messages: dict[str, str]) -> None:
+        """Record the fields of ``section`` that hold a refused value (``{}``: none), for the error box
+        beside them and for :meth:`Workbench.run`, which refuses to run while any is recorded.
+
+        Examples
+        --------
+        >>> state = ScenarioState()
+        >>> state.set_invalid("study", {"n": "study.n: must be an integer of at least 1, got -5"})
+        >>> state.invalid_messages()
+        ['study.n: must be an integer of at least 1, got -5']
+        >>> state.set_invalid("study", {})
+        >>> state.invalid
+        {}
+        """
+        invalid = {k: v for k, v in self.invalid.items() if k != section}
+        if messages:
+            invalid[section] = dict(messages)
+        if invalid != self.invalid:
+            self.invalid = invalid
+
+    def invalid_messages(self, sections=None) -> list[str]:
+        """The messages of the refused field values (of ``sections``, default all)."""
+        return [
+            message
+            for section, fields in self.invalid.items()
+            if sections is None or section in sections
+            for message in fields.values()
+        ]
+
     # --- whole scenarios -------------------------------------------------------------------------------
     @param.depends("preset", watch=True)
     def _load_selected_preset(self) -> None:
@@ -270,6 +209,9 @@ class ScenarioState(param.Parameterized):
     def upload(self, content: bytes | None, filename: str | None) -> bool:
         """Open an uploaded scenario: TOML only, at most 256 KiB, parsed and never executed.
 
+        Each way an upload can fail has its own one-line message naming the file; an upload that holds the
+        scenario already in effect says so (a note), so no earlier file's message is left standing.
+
         Examples
         --------
         >>> state = ScenarioState()
@@ -277,6 +219,8 @@ class ScenarioState(param.Parameterized):
         False
         >>> state.error
         'upload broken.toml: line 1, column 9: TOML syntax error: Invalid value'
+        >>> state.upload(b"", "empty.toml"), state.error
+        (False, 'upload empty.toml: the file is empty')
         """
         label = f"upload {filename}" if filename else "upload"
         try:
@@ -287,8 +231,22 @@ class ScenarioState(param.Parameterized):
             scenario = loads_scenario(text)
         except ScenarioError as exc:
             return self._fail(ScenarioError(str(exc), where=label), "upload")
-        self._commit(scenario, "upload")
+        same = scenario == self.scenario
+        self._commit(scenario, "upload", f"{label}: the same scenario as the one in effect" if same else "")
         return True
+
+    def refuse_upload(self, filename: str | None, size: int) -> bool:
+        """Record an upload the browser refused to send (over its own limit): the same message as a file
+        over :data:`MAX_UPLOAD_BYTES` that arrived.
+
+        Examples
+        --------
+        >>> state = ScenarioState()
+        >>> state.refuse_upload("big.toml", 3 * 1024 * 1024), state.error
+        (False, 'upload big.toml: 3,145,728 bytes is over the limit of 262,144')
+        """
+        label = f"upload {filename}" if filename else "upload"
+        return self._fail(ScenarioError(_too_large(size), where=label), "upload")
 
     @staticmethod
     def _uploaded_text(content: bytes | None, filename: str | None, label: str) -> str:
@@ -298,13 +256,15 @@ class ScenarioState(param.Parameterized):
         if not (filename or "").lower().endswith(".toml"):
             raise ScenarioError("only .toml scenario files can be opened", where=label)
         if len(content) > MAX_UPLOAD_BYTES:
-            raise ScenarioError(
-                f"{len(content):,} bytes is over the limit of {MAX_UPLOAD_BYTES:,}", where=label
-            )
+            raise ScenarioError(_too_large(len(content)), where=label)
+        if not content.strip():
+            raise ScenarioError("the file is empty", where=label)
+        if b"\x00" in content:
+            raise ScenarioError("a binary file, not TOML text", where=label)
         try:
             return content.decode("utf-8")
         except UnicodeDecodeError:
-            raise ScenarioError("not UTF-8 text", where=label) from None
+            raise ScenarioError("not UTF-8 text (a binary file or another encoding)", where=label) from None
 
     def download_text(self) -> str:
         """The scenario in effect as TOML text, for saving."""
@@ -336,7 +296,7 @@ class ScenarioState(param.Parameterized):
         A new name follows the variable everywhere; a latent variable leaves the strategies; a type change
         drops what no longer fits (see :mod:`workbench.scenario.edit`).
         """
-        return self._edit("variables", _variable_change(name, field, value))
+        return self._edit("variables", variable_change(name, field, value))
 
     # --- arrows ----------------------------------------------------------------------------------------
     def add_arrow(self, source: str, target: str, effect: float = 0.5) -> bool:
@@ -485,7 +445,7 @@ class ScenarioState(param.Parameterized):
         def change(data):
             for table in data["strategies"]:
                 if table["name"] == name:
-                    return _strategy_table_change(table, name, changes)
+                    return strategy_table_change(table, name, changes)
             raise ScenarioError(f"no strategy '{name}'", where="strategies")
 
         ok = self._edit("strategies", change)
@@ -568,15 +528,43 @@ class Workbench(param.Parameterized):
     simulation = param.ClassSelector(class_=SimulationJob)
     planning = param.ClassSelector(class_=PlanJob)
     sample = param.ClassSelector(class_=SampleState)
+    notice = param.String(default="", doc="Why the last Run was refused, '' when it was not.")
+    cost = param.String(default="", doc="The estimated time and memory of Run (the simulation and the plan).")
+    over_budget = param.Boolean(default=False, doc="Whether that estimate is over the budget.")
 
     def __init__(self, preset: str | None = None, deferred: bool = False, **params):
         super().__init__(**params)
+        self._confirmed = ""
         self.scenario_state = ScenarioState(preset=preset or DEFAULT_PRESET)
         self.simulation = SimulationJob(deferred=deferred)
         self.planning = PlanJob(deferred=deferred)
         self.sample = SampleState()
         self.scenario_state.param.watch(self._scenario_changed, "scenario")
+        self.scenario_state.param.watch(self._fields_checked, "invalid")
         self._scenario_changed()
+
+    def _fields_checked(self, *_events) -> None:
+        if not self.scenario_state.invalid:
+            self.notice = ""
+
+    def _estimate(self) -> None:
+        """Estimate what Run will cost (:func:`workbench.analysis.budget.estimate_cost`) for the scenario in
+        effect, and whether it is over the budget of :func:`~workbench.analysis.budget.check_budget`."""
+        try:
+            costs = [budget.estimate_cost(self.scenario, verb=verb) for verb in ("run", "plan")]
+        except WorkbenchError as exc:
+            self.param.update(cost=f"Cost not estimated: {exc}", over_budget=False)
+            return
+        over = False
+        for cost in costs:
+            try:
+                budget.check_budget(cost)
+            except WorkbenchError:
+                over = True
+        run, plan = costs
+        text = f"Run: simulation {run.text} ({run.engine} engine), sample-size plan {plan.text}"
+        self.param.update(cost=text, over_budget=over)
+        self._confirmed = ""
 
     @property
     def scenario(self) -> Scenario:
@@ -591,9 +579,10 @@ class Workbench(param.Parameterized):
     def _scenario_changed(self, *_events) -> None:
         scenario = self.scenario
         self.sample.update(scenario)
+        self._estimate()
         replaced = self.scenario_state.source in ("preset", "upload")
         for job in (self.simulation, self.planning):
-            if self.runs_live:
+            if self.runs_live and not self.over_budget:
                 job.start(scenario, background=self.background)
             elif job.show_cached(scenario):
                 continue
@@ -602,10 +591,36 @@ class Workbench(param.Parameterized):
             elif job.status == "running":
                 job.cancel()
 
-    def run(self) -> None:
-        """Start the simulation and the sample-size plan for the scenario in effect."""
+    def run(self) -> bool:
+        """Start the simulation and the sample-size plan for the scenario in effect.
+
+        Refused (returns False, with :attr:`notice` saying why) while a settings field holds a value that
+        was refused: the run would otherwise use the earlier value without saying so.
+
+        Examples
+        --------
+        >>> wb = Workbench(preset="common_cause", live=False, background=False)
+        >>> wb.scenario_state.set_invalid("study", {"n": "study.n: must be an integer of at least 1, got -5"})
+        >>> wb.run(), wb.notice
+        (False, 'Not run: study.n: must be an integer of at least 1, got -5 (correct the field first)')
+        """
+        refused = self.scenario_state.invalid_messages()
+        if refused:
+            self.notice = f"Not run: {refused[0]} (correct the field first)"
+            return False
+        key = BackgroundJob.key(self.scenario)
+        if self.over_budget and self._confirmed != key:
+            self._confirmed = key  # the next Run of this very scenario starts it
+            self.notice = (
+                f"Not run yet: {self.cost}; over the budget of {budget.format_duration(budget.MAX_SECONDS)} "
+                f"or {budget.format_bytes(budget.MAX_BYTES)}. "
+                "Press Run again to start it anyway, or lower n or the replicates."
+            )
+            return False
+        self.notice = ""
         self.simulation.start(self.scenario, background=self.background)
         self.planning.start(self.scenario, background=self.background)
+        return True
 
     def cancel(self) -> None:
         """Cancel the running computations."""

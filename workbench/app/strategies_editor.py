@@ -5,13 +5,12 @@ and the buttons that add a strategy or the minimal and optimal valid sets.
 
 from __future__ import annotations
 
-import html
-
 import panel as pn
 import param
 
 from workbench.app.state import ScenarioState
 from workbench.app.widgets import MAIN_WIDTH, NOTE_STYLE, ErrorBox
+from workbench.formatting.markup import text_html
 from workbench.scenario.edit import restriction_toml
 
 __all__ = ["StrategiesEditor", "SELECTION_CHOICES", "verdict_badge", "valid_sets_html"]
@@ -49,8 +48,8 @@ def valid_sets_html(report) -> str:
     minimal = "; ".join("{" + ", ".join(m) + "}" for m in report.minimal_sets) or "none"
     optimal = "{" + ", ".join(report.optimal_set) + "}" if report.optimal_set is not None else "none"
     return (
-        f"<b>Minimal valid sets:</b> {html.escape(minimal)} &nbsp; <b>Optimal valid set:</b> "
-        f"{html.escape(optimal)} <span style='color:#777'>({html.escape(report.optimal_note)})</span>"
+        f"<b>Minimal valid sets:</b> {text_html(minimal)} &nbsp; <b>Optimal valid set:</b> "
+        f"{text_html(optimal)} <span style='color:#777'>({text_html(report.optimal_note)})</span>"
     )
 
 
@@ -99,7 +98,7 @@ class StrategiesEditor(pn.viewable.Viewer):
 
     def _row(self, row: dict) -> pn.Column:
         """One strategy: its controls in a row, its verdict and reasons below."""
-        reasons = html.escape("; ".join(row["reasons"]))
+        reasons = text_html("; ".join(row["reasons"]))
         verdict = pn.pane.HTML(
             f"<div style='font-size:12px;line-height:1.35;color:#333'>{verdict_badge(row['valid'])} {reasons}</div>",
             sizing_mode="stretch_width",

@@ -8,7 +8,6 @@ calls of its methods. Errors from an edit are shown next to the section the edit
 
 from __future__ import annotations
 
-import html
 import re
 
 import panel as pn
@@ -16,6 +15,7 @@ import param
 
 from workbench.app.runs import BackgroundJob
 from workbench.app.state import ScenarioState, Workbench
+from workbench.formatting.markup import text_html, text_markdown
 from workbench.report import tables
 
 __all__ = [
@@ -135,16 +135,20 @@ class ErrorBox(pn.viewable.Viewer):
             css_classes=["wb-note", f"wb-note-{name}"],
             **size,
         )
-        self.state.param.watch(self._update, ["error", "error_section", "note", "source"])
+        self.state.param.watch(self._update, ["error", "error_section", "note", "source", "invalid"])
         self._update()
 
     def _update(self, *_):
         mine = self.state.error and self.state.error_section in self.sections
-        self._error.object = f"**Not applied:** {self.state.error}" if mine else ""
-        self._error.visible = bool(mine)
+        # a refused field value stays refused after other edits: its message stays until it is corrected
+        messages = [self.state.error] if mine else []
+        messages += [m for m in self.state.invalid_messages(self.sections) if m not in messages]
+        self._error.object = "  \n".join(f"**Not applied:** {text_markdown(m)}" for m in messages)
+        self._error.visible = bool(messages)
+        mine = bool(messages)
         # a note belongs next to the edit that caused it (one place, not every box on the page)
         noted = self.state.source in self.sections
-        self._note.object = self.state.note
+        self._note.object = text_markdown(self.state.note)
         self._note.visible = bool(self.state.note) and not mine and noted
 
     def __panel__(self):
@@ -180,8 +184,8 @@ class JobProgress(pn.viewable.Viewer):
         if running:
             self._bar.value = int(round(100 * job.progress))
             self._text.object = (
-                f"<b>{html.escape(job.label.capitalize())} running</b> "
-                f"({html.escape(job.message.split(': ', 1)[-1])}); Cancel is in the sidebar."
+                f"<b>{text_html(job.label.capitalize())} running</b> "
+                f"({text_html(job.message.split(': ', 1)[-1])}); Cancel is in the sidebar."
             )
 
     def __panel__(self):

@@ -6,6 +6,10 @@ Options that set study values are checked against the same constraints as the sc
 table (:func:`workbench.scenario.constraints.check_setting`), with the option as the place:
 ``--replicates: must be an integer from 1 to 1,000,000, got 0``. A command run without ``--seed`` uses the
 scenario's seed, so the same file gives the same numbers.
+
+``run`` and ``plan`` then check the output paths (:func:`workbench.cli.outputs.check_outputs`) and estimate
+their time and memory (:mod:`workbench.analysis.budget`); over the budget (10 minutes or 2 GiB) they stop
+with the estimate in one line unless ``--allow-long`` is given. All of this happens before any work.
 """
 
 from __future__ import annotations
@@ -69,6 +73,24 @@ def _sizes(text: str) -> list[int]:
     return [check_setting("sample_size", size, where="--sizes", error=UsageError) for size in sizes]
 
 
+def _within_budget(args, scenario, verb: str, **settings) -> None:
+    """Estimate the run's time and memory before any work (:func:`workbench.analysis.budget.estimate_cost`)
+    and stop over the budget unless ``--allow-long``; a long accepted run says its estimate on stderr."""
+    import sys
+
+    from workbench.analysis import budget
+
+    if verb == "run":
+        settings["engine"] = args.engine
+    cost = budget.estimate_cost(scenario, verb=verb, **settings)
+    if not args.allow_long:
+        budget.check_budget(
+            cost, max_seconds=budget.MAX_SECONDS, max_bytes=budget.MAX_BYTES, where="--allow-long"
+        )
+    if cost.seconds >= 60:
+        print(f"workbench: {verb} estimated at {cost.text} ({cost.engine} engine)", file=sys.stderr)
+
+
 def presets(args) -> int:
     """``workbench presets``: the built-in scenarios, one per line, with their titles."""
     from workbench.scenario.presets import DEFAULT_PRESET, list_presets
@@ -98,6 +120,7 @@ def run(args) -> int:
     scenario = _scenario(args)
     options = _study_options(args)
     check_outputs(args)
+    _within_budget(args, scenario, "run", n=options.get("n"), replicates=options.get("replicates"))
     options.setdefault("seed", scenario.study.seed)
     bar = ProgressBar("simulating")
     try:
@@ -116,6 +139,7 @@ def plan(args) -> int:
     options = _study_options(args)
     sizes = _sizes(args.sizes) if args.sizes else None
     check_outputs(args)
+    _within_budget(args, scenario, "plan", replicates=options.get("replicates"), sizes=sizes)
     options.setdefault("seed", scenario.study.seed)
     bar = ProgressBar("planning")
     try:
@@ -136,7 +160,13 @@ def serve(args) -> int:
     from workbench.app.serve import serve as serve_dashboard
 
     try:
-        serve_dashboard(preset=args.preset, port=args.port, address=args.address, show=args.show)
+        serve_dashboard(
+            preset=args.preset,
+            port=args.port,
+            address=args.address,
+            show=args.show,
+            allow_host=getattr(args, "allow_host", ()),
+        )
     except OSError as exc:
         raise UsageError(
             f"cannot serve on {args.address}:{args.port}: {exc.strerror or exc} (is the port in use?)",

@@ -8,24 +8,66 @@ Options name their values only; their ranges are checked after parsing against t
 from __future__ import annotations
 
 import argparse
+import decimal
 
 from workbench.cli import EXIT_USER_ERROR
+from workbench.errors import shown
 
 __all__ = ["build_parser"]
 
 
+_LONGEST_NUMBER = 40
+"""Characters of a number option's text; a longer one is refused before it is converted."""
+
+
+def _too_long(text: str, what: str) -> None:
+    if len(text) > _LONGEST_NUMBER:
+        raise argparse.ArgumentTypeError(f"must be {what}, got a text of {len(text):,} characters")
+
+
 def _number(text: str) -> float:
+    """A real number: ``0.05``, ``5e-2``; the range is checked later (``inf`` and ``nan`` then fail).
+
+    Examples
+    --------
+    >>> _number("5e-2")
+    0.05
+    """
+    _too_long(text, "a number")
     try:
         return float(text)
     except ValueError:
-        raise argparse.ArgumentTypeError(f"must be a number, got '{text}'") from None
+        raise argparse.ArgumentTypeError(f"must be a number, got {shown(text)}") from None
 
 
 def _whole(text: str) -> int:
+    """A whole number, written as digits (``100000``, ``100_000``) or in exponent form when whole (``1e5``);
+    the range is checked later against the study constraints, so ``1e23`` reaches them as an integer.
+
+    Examples
+    --------
+    >>> _whole("2000"), _whole("1e5"), _whole("1e23") == 10**23
+    (2000, 100000, True)
+    >>> _whole("2.5")
+    Traceback (most recent call last):
+    ...
+    argparse.ArgumentTypeError: must be a whole number, got '2.5'
+    """
+    _too_long(text, "a whole number")
     try:
         return int(text)
     except ValueError:
-        raise argparse.ArgumentTypeError(f"must be a whole number, got '{text}'") from None
+        pass
+    try:
+        value = decimal.Decimal(text.strip())
+    except decimal.InvalidOperation:
+        value = None
+    if value is not None and value.is_finite():
+        if value.adjusted() >= 1000:
+            raise argparse.ArgumentTypeError(f"must be a whole number below 1e1000, got {shown(text)}")
+        if value == value.to_integral_value():
+            return int(value)
+    raise argparse.ArgumentTypeError(f"must be a whole number, got {shown(text)}")
 
 
 def _version() -> str:
@@ -57,10 +99,25 @@ def _add_source(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--preset", metavar="NAME", help="a built-in preset (see 'workbench presets')")
 
 
+_OUTPUT_NOTE = (
+    "Outputs (--json, --csv, --html): '-' is standard output (one output at most); files are checked "
+    "before any work and written atomically once every output is ready; a symbolic link is written through "
+    "to its target; a folder, device, FIFO or socket, the scenario file itself and two outputs to one file "
+    "are refused. Runs estimated over 10 minutes or 2 GiB stop first unless --allow-long is given."
+)
+
+
 def _add_outputs(parser: argparse.ArgumentParser, table: str) -> None:
     parser.add_argument("--json", metavar="OUT", help="write JSON to OUT ('-' for stdout)")
-    parser.add_argument("--csv", metavar="OUT", help=f"write {table} as CSV")
-    parser.add_argument("--html", metavar="OUT", help="write a standalone HTML report (opens with no server)")
+    parser.add_argument("--csv", metavar="OUT", help=f"write {table} as CSV to OUT ('-' for stdout)")
+    parser.add_argument(
+        "--html", metavar="OUT", help="write a standalone HTML report to OUT (opens with no server)"
+    )
+    parser.add_argument(
+        "--allow-long",
+        action="store_true",
+        help="run even when the estimated time or memory is over the budget (10 minutes, 2 GiB)",
+    )
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -89,7 +146,7 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("presets", help="list the built-in presets")
     p.set_defaults(func=commands.presets)
 
-    p = sub.add_parser("run", help="simulate repeated studies and score every strategy")
+    p = sub.add_parser("run", help="simulate repeated studies and score every strategy", epilog=_OUTPUT_NOTE)
     _add_source(p)
     p.add_argument("--n", type=_whole, help="units per simulated study")
     p.add_argument("--replicates", type=_whole, help="number of simulated studies (at most 1,000,000)")
@@ -99,7 +156,11 @@ def build_parser() -> argparse.ArgumentParser:
     _add_outputs(p, "the per-strategy table")
     p.set_defaults(func=commands.run)
 
-    p = sub.add_parser("plan", help="power and precision against sample size; the smallest n per strategy")
+    p = sub.add_parser(
+        "plan",
+        help="power and precision against sample size; the smallest n per strategy",
+        epilog=_OUTPUT_NOTE,
+    )
     _add_source(p)
     p.add_argument("--sizes", help="comma-separated sample sizes, e.g. 100,200,400")
     p.add_argument("--target-power", type=_number, help="power to reach (default from the scenario)")
@@ -113,6 +174,13 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--preset", metavar="NAME", help="preset to open (default: the default preset)")
     p.add_argument("--port", type=_whole, default=5006)
     p.add_argument("--address", default="127.0.0.1", help="address to bind (default: loopback only)")
+    p.add_argument(
+        "--allow-host",
+        action="append",
+        default=[],
+        metavar="NAME[:PORT]",
+        help="another name the page may be reached by (repeatable); requests naming other hosts are refused",
+    )
     p.add_argument("--show", action=argparse.BooleanOptionalAction, default=True, help="open a browser tab")
     p.set_defaults(func=commands.serve)
     return parser

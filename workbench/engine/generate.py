@@ -52,6 +52,7 @@ True
 from __future__ import annotations
 
 import functools
+import heapq
 from dataclasses import dataclass
 
 import numpy as np
@@ -149,8 +150,76 @@ def _bare_structure(variables: tuple, arrows: tuple) -> Structure:
     return Structure(names, tuple(order), tuple(parents), binary, intercept, noise_sd)
 
 
-def _share_gap(a: float, linear: np.ndarray, proportion: float) -> float:
-    return float(special.expit(a + linear).mean()) - proportion
+def _share_gap(a: float, linear: np.ndarray, proportion: float, scratch: np.ndarray) -> float:
+    np.add(linear, a, out=scratch)
+    special.expit(scratch, out=scratch)
+    return float(scratch.mean()) - proportion
+
+
+def _calibration_error(name: str, p: float, why: str) -> SimulationError:
+    return SimulationError(
+        f"cannot calibrate the intercept of '{name}' to proportion {p!r}: {why}",
+        where=f"variables.{name}.proportion",
+    )
+
+
+def _calibrate_one(name: str, p: float, linear: np.ndarray, has_causes: bool, scratch: np.ndarray) -> float:
+    """The intercept ``a`` with ``mean(logistic(a + linear)) = p`` (Brent's method), or a located error."""
+    with np.errstate(all="ignore"):
+        base = float(special.logit(p))
+        if not np.isfinite(base):
+            raise _calibration_error(name, p, "its log odds are not a finite number")
+        if not has_causes:
+            return base
+        top, bottom = float(linear.max()), float(linear.min())
+        if not (np.isfinite(top) and np.isfinite(bottom)):
+            raise _calibration_error(
+                name, p, "the effects of its causes overflow (their sum is not a finite number)"
+            )
+        if top == bottom:
+            return base - float(linear[0])
+        lo, hi = base - top - 1.0, base - bottom + 1.0
+        try:
+            a = optimize.brentq(_share_gap, lo, hi, args=(linear, p, scratch), xtol=1e-12)
+        except (ValueError, RuntimeError) as exc:
+            raise _calibration_error(
+                name, p, "no intercept gives that share of 1s in double precision"
+            ) from exc
+    if not np.isfinite(a):
+        raise _calibration_error(name, p, "no intercept gives that share of 1s in double precision")
+    return float(a)
+
+
+def _file_first_order(bare: Structure) -> tuple[int, ...]:
+    """A topological order that takes the lowest file index whenever it can: noise rows are drawn in file
+    order, so few rows wait for their variable (each variable depends only on its causes, so the order does
+    not change any number)."""
+    waiting = [len(bare.parents[j][0]) for j in range(bare.k)]
+    children: list[list[int]] = [[] for _ in range(bare.k)]
+    for j in range(bare.k):
+        for i in bare.parents[j][0]:
+            children[int(i)].append(j)
+    ready = [j for j in range(bare.k) if waiting[j] == 0]
+    heapq.heapify(ready)
+    order = []
+    while ready:
+        j = heapq.heappop(ready)
+        order.append(j)
+        for c in children[j]:
+            waiting[c] -= 1
+            if waiting[c] == 0:
+                heapq.heappush(ready, c)
+    return tuple(order)
+
+
+def _last_use(bare: Structure, order: tuple[int, ...]) -> dict[int, int]:
+    """For every variable, the position in ``order`` of the last child that reads its values."""
+    position = {j: t for t, j in enumerate(order)}
+    last = {j: position[j] for j in range(bare.k)}
+    for j in range(bare.k):
+        for i in bare.parents[j][0]:
+            last[int(i)] = max(last[int(i)], position[j])
+    return last
 
 
 @functools.lru_cache(maxsize=64)
@@ -158,6 +227,12 @@ def graph_structure(variables: tuple, arrows: tuple) -> Structure:
     """The structural equations of a graph given as a scenario's ``variables`` and ``arrows`` tuples, with
     calibrated binary intercepts (cached per graph: scenarios that differ only in their question or
     strategies share one).
+
+    The calibration draws :data:`CALIBRATION_DRAWS` standard normals per variable, variable after variable in
+    file order from :data:`CALIBRATION_SEED`. Memory stays bounded by the variables still needed: a noise
+    row is kept only until its variable is computed, a variable's values only until its last child is
+    (binary ones as booleans). A proportion or effects for which no finite intercept exists raise a
+    :class:`~workbench.errors.SimulationError` located at ``variables.<name>.proportion``.
 
     Examples
     --------
@@ -172,27 +247,38 @@ def graph_structure(variables: tuple, arrows: tuple) -> Structure:
     proportions = {v.name: v.proportion for v in variables if v.type == "binary"}
     intercept = bare.intercept.copy()
     rng = np.random.default_rng(CALIBRATION_SEED)
-    z = rng.standard_normal((bare.k, CALIBRATION_DRAWS))
-    values = np.empty_like(z)
+    order = _file_first_order(bare)
+    last = _last_use(bare, order)
+    noise: dict[int, np.ndarray] = {}  # rows drawn (file order) whose variable is not computed yet
+    values: dict[int, np.ndarray] = {}
+    drawn = 0
     linear = np.empty(CALIBRATION_DRAWS)
-    for j in bare.order:
+    scratch = np.empty(CALIBRATION_DRAWS)
+    for t, j in enumerate(order):
+        while j not in noise:
+            noise[drawn] = rng.standard_normal(CALIBRATION_DRAWS)
+            drawn += 1
+        z = noise.pop(j)
         idx, eff = bare.parents[j]
         linear.fill(0.0)
-        for i, e in zip(idx, eff, strict=True):
-            linear += e * values[i]
+        with np.errstate(all="ignore"):
+            for i, e in zip(idx, eff, strict=True):
+                linear += e * values[int(i)]
         if not bare.binary[j]:
-            np.multiply(z[j], bare.noise_sd[j], out=values[j])
-            values[j] += bare.intercept[j] + linear
-            continue
-        p = proportions[bare.names[j]]
-        base = float(special.logit(p))
-        if len(idx) == 0 or np.ptp(linear) == 0.0:
-            a = base - (float(linear[0]) if len(idx) else 0.0)
+            np.multiply(z, bare.noise_sd[j], out=z)
+            with np.errstate(all="ignore"):
+                z += bare.intercept[j] + linear
+            values[j] = z
         else:
-            lo, hi = base - float(linear.max()) - 1.0, base - float(linear.min()) + 1.0
-            a = optimize.brentq(_share_gap, lo, hi, args=(linear, p), xtol=1e-12)
-        intercept[j] = a
-        values[j] = special.ndtr(z[j]) < special.expit(a + linear)
+            name = bare.names[j]
+            a = _calibrate_one(name, proportions[name], linear, len(idx) > 0, scratch)
+            intercept[j] = a
+            with np.errstate(all="ignore"):
+                np.add(linear, a, out=scratch)
+                values[j] = special.ndtr(z) < special.expit(scratch, out=scratch)
+        for i in [*idx, j]:
+            if last[int(i)] <= t:
+                values.pop(int(i), None)
     return Structure(bare.names, bare.order, bare.parents, bare.binary, intercept, bare.noise_sd)
 
 

@@ -170,13 +170,26 @@ def simulated_effect(
     cross = np.zeros((2, 2))
     done = 0
     z = np.empty((_CHUNK, st.k))
-    values = np.empty_like(z)
+    # the equations run variable by variable: one contiguous row per variable (same numbers as the draws'
+    # (draws, variables) layout, elementwise, but without a strided pass per variable)
+    rows = np.empty((st.k, _CHUNK))
+    values = np.empty_like(rows)
     while done < TRUTH_DRAWS:
         rng.standard_normal(out=z)
+        np.copyto(rows, z.T)
         pair = []
         for world in worlds:
-            evaluate(st, z, intervention=world, exposure=exposure, out=values, probability=probability)
-            pair.append(values[:, y].copy())
+            with np.errstate(over="ignore", under="ignore"):
+                evaluate(
+                    st,
+                    rows,
+                    intervention=world,
+                    exposure=exposure,
+                    axis=0,
+                    out=values,
+                    probability=probability,
+                )
+            pair.append(values[y].copy())
         pair = np.array(pair)
         sums += pair.sum(axis=1)
         cross += pair @ pair.T

@@ -22,12 +22,12 @@ adjust_soil  -0.000
 
 from __future__ import annotations
 
-import html
 import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
+from workbench.formatting.markup import attr_html, text_html
 from workbench.formatting.numbers import estimate_decimals, fmt, fmt_mcse, is_pandas_missing
 
 __all__ = [
@@ -221,22 +221,22 @@ class TableSpec:
         """An HTML ``<table class="wb">`` (every header and cell escaped); numbers carry ``data-field``."""
         head = "".join(
             (
-                f"<th>{html.escape(c.header)}</th>"
+                f"<th>{text_html(c.header)}</th>"
                 if c.align == "right"
-                else f'<th class="text">{html.escape(c.header)}</th>'
+                else f'<th class="text">{text_html(c.header)}</th>'
             )
             for c in self.columns
         )
         body = []
         for row in self.cells(records):
             tds = "".join(
-                f'<td data-field="{html.escape(c.key)}">{html.escape(v)}</td>'
+                f'<td data-field="{attr_html(c.key)}">{text_html(v)}</td>'
                 if c.align == "right"
-                else f'<td class="text">{html.escape(v)}</td>'
+                else f'<td class="text">{text_html(v)}</td>'
                 for c, v in zip(self.columns, row, strict=True)
             )
             body.append(f"<tr>{tds}</tr>")
-        title = f"<caption>{html.escape(caption)}</caption>" if caption else ""
+        title = f"<caption>{text_html(caption)}</caption>" if caption else ""
         return (
             f'<table class="wb">{title}<thead><tr>{head}</tr></thead><tbody>{"".join(body)}</tbody></table>'
         )
@@ -317,13 +317,13 @@ def _has_content(part: Part) -> bool:
 
 def _html_part(part: Part) -> str:
     if isinstance(part, Heading):
-        return f"<h3>{html.escape(part.text)}</h3>"
+        return f"<h3>{text_html(part.text)}</h3>"
     if isinstance(part, Paragraph):
-        return "<p>" + "<br>".join(html.escape(line) for line in part.lines) + "</p>"
+        return "<p>" + "<br>".join(text_html(line) for line in part.lines) + "</p>"
     if isinstance(part, Table):
         return part.spec.as_html(part.records, caption=part.title)
-    title = f"<p>{html.escape(part.title)}</p>" if part.title else ""
-    return title + "<ul>" + "".join(f"<li>{html.escape(item)}</li>" for item in part.items) + "</ul>"
+    title = f"<p>{text_html(part.title)}</p>" if part.title else ""
+    return title + "<ul>" + "".join(f"<li>{text_html(item)}</li>" for item in part.items) + "</ul>"
 
 
 def render_html(parts: Sequence[Part]) -> str:

@@ -37,7 +37,11 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
+import networkx as nx
+import numpy as np
+
 from workbench.analysis.check import ASSUMPTION, CheckReport, StrategyCheck
+from workbench.analysis.large_sample import se_note
 from workbench.engine.metrics import coverage_is_off, is_biased
 from workbench.formatting.numbers import with_mcse
 from workbench.formatting.phrases import (
@@ -48,8 +52,9 @@ from workbench.formatting.phrases import (
     rule_sentence,
     selected_sets_text,
 )
+from workbench.graph.build import build_graph
 
-__all__ = ["ASSUMPTION_NOTE", "Story", "explain"]
+__all__ = ["ASSUMPTION_NOTE", "Story", "explain", "consequences_html"]
 
 #: The note shown beside every result: the graph is an assumption.
 ASSUMPTION_NOTE = ASSUMPTION
@@ -184,7 +189,10 @@ def _context(report: CheckReport, result) -> _Context:
     ctx.usable = [
         s.name
         for s in report.checks
-        if s.valid and not ctx.off_target(s.name) and not ctx.doubtful_selection(s)
+        if s.valid
+        and s.model_ok is not False
+        and not ctx.off_target(s.name)
+        and not ctx.doubtful_selection(s)
     ]
     for s in report.checks:
         if s.name not in ctx.usable:
@@ -254,21 +262,50 @@ def _method_paragraphs(s: StrategyCheck, q) -> list[str]:
     return paragraphs
 
 
-def _path_paragraphs(s: StrategyCheck, q, names) -> list[str]:
-    """The non-causal paths the strategy blocks or leaves open, causal paths it cuts, why it fails and
-    its precision notes."""
-    open_noncausal = [p.text for p in s.open_paths if not p.causal]
-    blocked_noncausal = [p.text for p in s.blocked_paths if not p.causal]
+def _conditioned(s: StrategyCheck) -> set[str]:
+    """What a strategy conditions on: its covariates, its restricted and its matched variables."""
+    return set(s.adjust) | {name for name, _ in s.restrict} | set(s.match)
+
+
+def _blocked_text(G: nx.DiGraph, path, zset: set[str]) -> str:
+    """A blocked path in words: blocked by adjusting for a non-collider on it, or closed at a collider."""
+    inner = range(1, len(path.nodes) - 1)
+    colliders = set(path.colliders())
+    blockers = [path.nodes[i] for i in inner if path.nodes[i] not in colliders and path.nodes[i] in zset]
+    if blockers:
+        return f"{path.text} (blocked by adjusting for {names_in_words(blockers)})"
+    shut = [c for c in path.colliders() if c not in zset and not nx.descendants(G, c) & zset]
+    return f"{path.text} (closed at the collider {shut[0]})" if shut else path.text
+
+
+def _open_text(G: nx.DiGraph, path, zset: set[str]) -> str:
+    """An open non-causal path in words: left open, or opened by adjusting for a collider on it."""
+    for c in path.colliders():
+        if c in zset:
+            return f"{path.text} (opened by adjusting for the collider {c})"
+        below = sorted(nx.descendants(G, c) & zset)
+        if below:
+            return f"{path.text} (opened by adjusting for {below[0]}, a consequence of the collider {c})"
+    return f"{path.text} (left open)"
+
+
+def _path_paragraphs(s: StrategyCheck, scenario) -> list[str]:
+    """The non-causal paths the strategy blocks, leaves closed at a collider, leaves open or opens, causal
+    paths it cuts, why it fails and its precision notes."""
+    q, names = scenario.question, scenario.names
+    G, zset = build_graph(scenario), _conditioned(s)
+    open_noncausal = [_open_text(G, p, zset) for p in s.open_paths if not p.causal]
+    blocked_noncausal = [_blocked_text(G, p, zset) for p in s.blocked_paths if not p.causal]
     blocked_causal = [p.text for p in s.blocked_paths if p.causal]
     paragraphs = []
     if blocked_noncausal:
-        word = "path" if len(blocked_noncausal) == 1 else "paths"
-        paragraphs.append(f"It blocks the non-causal {word} {'; '.join(blocked_noncausal)}.")
+        word = "This non-causal path is" if len(blocked_noncausal) == 1 else "These non-causal paths are"
+        paragraphs.append(f"{word} closed: {'; '.join(blocked_noncausal)}.")
     if open_noncausal:
-        word = "path" if len(open_noncausal) == 1 else "paths"
+        word, verb = ("path", "carries") if len(open_noncausal) == 1 else ("paths", "carry")
         paragraphs.append(
-            f"It leaves the non-causal {word} {'; '.join(open_noncausal)} open, so part of "
-            f"the association between {q.exposure} and {q.outcome} is not their effect."
+            f"The non-causal {word} {'; '.join(open_noncausal)} {verb} association between "
+            f"{q.exposure} and {q.outcome} that is not their effect."
         )
     if blocked_causal and q.target == "total":
         paragraphs.append(f"It cuts part of the effect itself by blocking {'; '.join(blocked_causal)}.")
@@ -276,6 +313,13 @@ def _path_paragraphs(s: StrategyCheck, q, names) -> list[str]:
         other = [r for r in s.reasons if not r.startswith("leaves the non-causal")]
         if other:
             paragraphs.append("Why it fails: " + "; ".join(other) + ".")
+    if s.valid and s.model_ok is False:
+        paragraphs.append(
+            f"The adjustment set is valid, but the model is not right for these data: {s.model_reason}."
+        )
+    flag = se_note(s.large_sample_se_ratio)
+    if flag:
+        paragraphs.append(_sentence(flag, names))
     paragraphs += [_sentence(note, names) for note in s.notes]
     return paragraphs
 
@@ -335,12 +379,36 @@ def _run_paragraphs(ctx: _Context, row: dict, names) -> list[str]:
         numbers.append(cov_text)
     if emp_se is not None:
         numbers.append(f"its estimates varied with a standard error of {emp_se:.3g}")
+    wrong = _wrong_sign(ctx, str(row.get("name")), row_truth)
+    mean = _number(row.get("mean"))
+    if mean is not None and row_truth and mean * row_truth < 0:
+        numbers.append(
+            f"its estimates had the wrong sign on average ({mean:+.3g} against a true effect of {row_truth:+.3g})"
+        )
     if power is not None:
-        numbers.append(f"it found an effect (p < {ctx.alpha:g}) in {power:.0%} of studies")
+        found = f"it found an effect (p < {ctx.alpha:g}) in {power:.0%} of studies"
+        if wrong is not None and wrong > 0:
+            found += f", of the wrong sign in {wrong:.0%}"
+        numbers.append(found)
     paragraphs = ["In the simulation, " + "; ".join(numbers) + "."] if numbers else []
     if row.get("note"):
         paragraphs.append(_sentence(str(row["note"]), names))
     return paragraphs
+
+
+def _wrong_sign(ctx: _Context, name: str, truth: float | None) -> float | None:
+    """The share of the run's studies that found an effect (p < alpha) of the wrong sign (Gelman & Carlin
+    2014's type S error, counted over all studies); None without a run or a non-zero truth."""
+    arrays = getattr(ctx.result, "arrays", None)
+    if arrays is None or not truth or name not in list(arrays.strategies):
+        return None
+    j = list(arrays.strategies).index(name)
+    estimate, p_value = arrays.estimate[:, j], arrays.p_value[:, j]
+    fitted = np.isfinite(estimate) & np.isfinite(p_value)
+    if not fitted.any():
+        return None
+    wrong = (p_value[fitted] < ctx.alpha) & (np.sign(estimate[fitted]) == -np.sign(truth))
+    return float(wrong.mean())
 
 
 def _large_sample_paragraphs(ctx: _Context, s: StrategyCheck) -> list[str]:
@@ -370,7 +438,12 @@ def _recommendation(ctx: _Context, s: StrategyCheck, row: dict | None) -> str:
             f"Not recommended: the set chosen from the data was valid in only {valid_share:.0%} of "
             "studies, and the reported intervals ignore the choice. Fix the set from the graph instead."
         )
-    if s.valid and ctx.off_target(name):
+    if s.valid and s.model_ok is False and not s.estimand_note:
+        return (
+            "Not recommended: the adjustment set is valid, but the model does not estimate the target "
+            "even in large samples (misspecified; see above)."
+        )
+    if s.valid and (ctx.off_target(name) or s.model_ok is False):
         return (
             "Not recommended for this question: the adjustment set is valid, but the simulated "
             "estimates miss the quantity asked for (see the note above)."
@@ -400,7 +473,7 @@ def _valid_recommendation(ctx: _Context, name: str) -> str:
         )
     ratio = ctx.precision.get(name, math.nan) / ctx.precision[best]
     extra = (
-        f" (its standard error is {100 * (ratio - 1):.0f}% larger)"
+        f" ({name}'s standard error is {100 * (ratio - 1):.0f}% larger than {best}'s)"
         if math.isfinite(ratio) and ratio > 1.005
         else ""
     )
@@ -435,7 +508,7 @@ def explain(report: CheckReport, result=None) -> list[Story]:
     >>> story.title
     'adjust_soil: adjusts for soil_quality (valid)'
     >>> print(story.paragraphs[1])
-    It blocks the non-causal path fertiliser <- soil_quality -> wheat_yield.
+    This non-causal path is closed: fertiliser <- soil_quality -> wheat_yield (blocked by adjusting for soil_quality).
     """
     ctx = _context(report, result)
     scenario = report.scenario
@@ -443,7 +516,7 @@ def explain(report: CheckReport, result=None) -> list[Story]:
     for s in report.checks:
         row = ctx.sim.get(s.name)
         paragraphs = _method_paragraphs(s, scenario.question)
-        paragraphs += _path_paragraphs(s, scenario.question, scenario.names)
+        paragraphs += _path_paragraphs(s, scenario)
         paragraphs += _choice_paragraphs(ctx, s, row)
         if row is not None:
             paragraphs += _run_paragraphs(ctx, row, scenario.names)
@@ -452,3 +525,52 @@ def explain(report: CheckReport, result=None) -> list[Story]:
         recommendation = _recommendation(ctx, s, row)
         stories.append(Story(s.name, s.valid, _title(s), paragraphs, recommendation))
     return stories
+
+
+_LABEL_COLOURS = {"good": "#00603F", "neutral": "#555555", "bad": "#A33C00"}
+
+
+def consequences_html(report: CheckReport | None, strategy: str = "") -> str:
+    """For the dashboard's Graph tab and the report: the chosen strategy's model verdict, then for every
+    observed covariate the consequence of adjusting for it alone and on top of the optimal set (good,
+    neutral or bad, and why), as an HTML fragment with every name escaped.
+
+    Examples
+    --------
+    >>> from workbench import load_preset
+    >>> from workbench.analysis.check import check
+    >>> text = consequences_html(check(load_preset("m_bias")), "adjust_rating")
+    >>> "show_rating" in text and ">bad<" in text and "Model:" in text
+    True
+    """
+    if report is None:
+        return ""
+    parts = []
+    chosen = next((c for c in report.checks if c.name == strategy), None)
+    if chosen is not None:
+        word = {True: "right", False: "MISSPECIFIED", None: "not judged"}[chosen.model_ok]
+        parts.append(
+            f"<p style='margin:4px 0'><b>Model:</b> {html.escape(word)} ({html.escape(chosen.model_reason)})</p>"
+        )
+    rows = []
+    for name, found in report.adjust_consequences.items():
+        cells = []
+        for key in ("alone", "with_optimal"):
+            c = found[key]
+            if c is None:
+                cells.append("<td>-</td>")
+                continue
+            colour = _LABEL_COLOURS.get(c.label, "#333333")
+            cells.append(
+                f"<td title='{html.escape(c.why, quote=True)}'><span style='color:{colour};font-weight:700'>"
+                f"{html.escape(c.label)}</span><br><span style='color:#555'>{html.escape(c.why)}</span></td>"
+            )
+        rows.append(f"<tr><td><b>{html.escape(name)}</b></td>{''.join(cells)}</tr>")
+    if rows:
+        parts.append(
+            "<b>Adjusting for each covariate</b><table style='font-size:11px;border-collapse:collapse'>"
+            "<tr><th>variable</th><th>alone</th><th>on top of the optimal set</th></tr>"
+            + "".join(rows)
+            + "</table>"
+        )
+    return "<div class='wb-consequences' style='font-size:12px'>" + "".join(parts) + "</div>"

@@ -3,8 +3,9 @@
 :func:`graph_figure` draws in named steps: the positions (:func:`graph_layout`), the frame that maps them to
 pixels, the places of the names and effect labels (a greedy search for the least covered spot), the arrows
 (thick and dashed along a path a strategy leaves open, faded along a blocked one), the nodes (one glyph per
-role, latent variables hollow and dashed, the adjustment set ringed), the names and the legend below the
-drawing, where it never covers a node.
+role, latent variables hollow and dashed, the adjustment set ringed; a variable's further roles as small
+badges beside it), the names and the legend below the drawing, where it never covers a node. Every role has
+its own colour and marker (:data:`workbench.report.style.ROLE_STYLE`) and a legend line.
 
 Examples
 --------
@@ -24,23 +25,27 @@ import networkx as nx
 from bokeh.models import Arrow, ColumnDataSource, HoverTool, Legend, LegendItem, Range1d, VeeHead
 from bokeh.plotting import figure
 
-from workbench.report.style import EDGE_COLOUR, FONT, style_figure
+from workbench.report.style import EDGE_COLOUR, FONT, ROLE_STYLE, style_figure
 from workbench.scenario.model import Scenario
 
 __all__ = ["ROLE_STYLE", "primary_role", "graph_layout", "graph_figure"]
 
-#: Role -> (legend text, fill colour, marker). The order is the legend's order.
-ROLE_STYLE = {
-    "exposure": ("exposure", "#E69F00", "square"),
-    "outcome": ("outcome", "#CC79A7", "diamond"),
-    "confounder": ("confounder", "#D55E00", "circle"),
-    "mediator": ("mediator", "#56B4E9", "circle"),
-    "common_effect": ("common effect", "#F0E442", "circle"),
-    "instrument": ("instrument", "#0072B2", "circle"),
-    "outcome_cause": ("outcome cause", "#009E73", "circle"),
-    "other": ("other", "#999999", "circle"),
-}
-_ROLE_PRIORITY = ("confounder", "mediator", "common_effect", "instrument", "outcome_cause")
+_ROLE_PRIORITY = (
+    "confounder",
+    "back_door_link",
+    "mediator",
+    "common_effect",
+    "collider_on_path",
+    "pre_exposure_collider",
+    "collider_descendant",
+    "mediator_descendant",
+    "outcome_descendant",
+    "exposure_descendant",
+    "instrument",
+    "outcome_cause",
+    "proxy_of_confounder",
+    "unrelated",
+)
 _RADIUS_PX = 15.0
 """A node's radius in pixels (the frame has a fixed pixel size, so arrow heads stop at the nodes' edges)."""
 
@@ -49,8 +54,9 @@ Box = tuple[float, float, float, float]
 
 
 def primary_role(scenario: Scenario, name: str, roles: dict | None) -> str:
-    """The role that decides a variable's colour: exposure, outcome, then the first of confounder,
-    mediator, common effect, instrument, outcome cause that applies, else "other".
+    """The role that decides a variable's colour and marker: exposure, outcome, then the first role of the
+    variable in the order of :data:`_ROLE_PRIORITY` (back-door roles, effect roles, colliders, descendants,
+    cause-only roles), else "other"; the others are shown as a badge under its name.
 
     Examples
     --------
@@ -481,6 +487,50 @@ def _draw_nodes(fig, groups: dict, frame: _Frame) -> tuple[list, list[LegendItem
     return renderers, items
 
 
+def _draw_badges(fig, scenario: Scenario, roles: dict | None, pos, frame: _Frame, shown: set[str]) -> list:
+    """A small marker at the upper right of a node for each of its roles after the first (its colour and
+    marker), and a legend entry for each such role the nodes do not already show."""
+    q = scenario.question
+    badges: dict[str, dict[str, list]] = {}
+    for name, found in (roles or {}).items():
+        if name in (q.exposure, q.outcome) or name not in pos:
+            continue
+        first = primary_role(scenario, name, roles)
+        extra = [r for r, _ in found if r != first and r in ROLE_STYLE]
+        px, py = frame.to_pixels(pos[name])
+        for i, role in enumerate(extra[:2]):
+            x, y = frame.to_data((px + _RADIUS_PX + 2 + 13 * i, py + _RADIUS_PX))
+            group = badges.setdefault(role, {"x": [], "y": []})
+            group["x"].append(x)
+            group["y"].append(y)
+    items = []
+    far_x, far_y = frame.outside
+    for role, data in badges.items():
+        text, colour, marker = ROLE_STYLE[role]
+        fig.scatter(
+            "x",
+            "y",
+            source=ColumnDataSource(data),
+            marker=marker,
+            size=12,
+            fill_color=colour,
+            line_color="#333333",
+            line_width=1.0,
+        )
+        if role not in shown:
+            sample = fig.scatter(
+                [far_x],
+                [far_y],
+                marker=marker,
+                size=13,
+                fill_color=colour,
+                line_color="#333333",
+                line_width=1.2,
+            )
+            items.append(LegendItem(label=f"{text} (badge)", renderers=[sample]))
+    return items
+
+
 def _draw_names(fig, name_at: dict[str, tuple[float, float]], frame: _Frame, adjusted: set[str]) -> None:
     """The variables' names at their chosen places, bold for the adjustment set."""
     points = [frame.to_data(at) for at in name_at.values()]
@@ -598,7 +648,9 @@ def graph_figure(
     name_at, label_at = _place_labels(pixels, scenario.arrows, radius=_RADIUS_PX, width=width, height=height)
     _draw_arrows(fig, *_arrow_data(scenario, pos, frame, verdict, label_at))
     adjusted = set(adjust)
-    node_renderers, items = _draw_nodes(fig, _node_groups(scenario, roles, pos, adjusted), frame)
+    groups = _node_groups(scenario, roles, pos, adjusted)
+    node_renderers, items = _draw_nodes(fig, groups, frame)
+    items += _draw_badges(fig, scenario, roles, pos, frame, {role for role, _ in groups})
     _draw_names(fig, name_at, frame, adjusted)
     items += _marking_items(fig, frame, adjusted, verdict)
     _add_legend_and_hover(fig, items, node_renderers)

@@ -38,7 +38,7 @@ from bokeh.resources import Resources
 from workbench import __version__
 from workbench.formatting.numbers import fmt_mcse
 from workbench.report import dataset_figures, figures, graph_drawing, tables
-from workbench.report.explain import ASSUMPTION_NOTE, explain
+from workbench.report.explain import ASSUMPTION_NOTE, consequences_html, explain
 from workbench.scenario.model import Scenario
 from workbench.scenario.write import dumps_scenario, write_text_atomically
 
@@ -97,6 +97,7 @@ def _graph_section(scenario: Scenario, report, models: dict) -> dict:
     models["graph"] = graph_drawing.graph_figure(scenario, report.roles, width=640, height=380)
     return {
         "strategies_table": tables.strategies_table(report.checks),
+        "consequences": consequences_html(report),
         "minimal": "; ".join("{" + ", ".join(m) + "}" for m in report.minimal_sets) or "none",
         "optimal": "{" + ", ".join(report.optimal_set) + "}" if report.optimal_set is not None else "none",
         "optimal_note": report.optimal_note,

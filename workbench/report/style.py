@@ -3,7 +3,9 @@
 Colours follow the colour-blind-safe palette of Okabe M., Ito K. (2008). Color Universal Design (CUD): How
 to make figures and presentations that are friendly to colorblind people. Strategies take colours in a
 fixed order (:func:`strategy_colours`), so one strategy has the same colour in every figure; the graph's
-roles have their own fixed colours (:data:`workbench.report.graph_drawing.ROLE_STYLE`).
+roles have their own fixed colour and marker each (:data:`ROLE_STYLE`): a family of roles shares a hue
+(back-door roles vermillion, effect roles blue, colliders yellow, descendants of the outcome pink, cause-only
+roles blue-green) and the marker tells the roles within a family apart, so no role relies on colour alone.
 
 Examples
 --------
@@ -21,13 +23,45 @@ from collections.abc import Iterable, Sequence
 
 from bokeh.models import FixedTicker, Legend
 
-__all__ = ["OKABE_ITO", "EDGE_COLOUR", "FONT", "strategy_colours", "style_figure", "n_axis", "legend_above"]
+__all__ = [
+    "OKABE_ITO",
+    "EDGE_COLOUR",
+    "FONT",
+    "ROLE_STYLE",
+    "strategy_colours",
+    "style_figure",
+    "n_axis",
+    "legend_above",
+]
 
 #: The eight Okabe-Ito colours.
 OKABE_ITO = ("#000000", "#E69F00", "#56B4E9", "#009E73", "#F0E442", "#0072B2", "#D55E00", "#CC79A7")
 
 #: The order in which strategies take the Okabe-Ito colours (blue and vermillion first, then a grey).
 _STRATEGY_COLOURS = ("#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#000000", "#999999")
+
+#: Role -> (legend text, fill colour, marker): every role of :data:`workbench.graph.roles.ROLES`, the
+#: exposure, the outcome and "other" (no role known). The order is the legend's order; lighter tints of the
+#: Okabe-Ito colours mark the second member of a family, and every (colour, marker) pair is unique.
+ROLE_STYLE = {
+    "exposure": ("exposure", "#E69F00", "square"),
+    "outcome": ("outcome", "#CC79A7", "diamond"),
+    "confounder": ("confounder", "#D55E00", "circle"),
+    "back_door_link": ("back-door link", "#F0A982", "hex"),
+    "proxy_of_confounder": ("proxy of a confounder", "#F0A982", "circle"),
+    "mediator": ("mediator", "#56B4E9", "circle"),
+    "mediator_descendant": ("descendant of a mediator", "#56B4E9", "inverted_triangle"),
+    "exposure_descendant": ("descendant of the exposure", "#A9D8F3", "inverted_triangle"),
+    "common_effect": ("common effect", "#F0E442", "triangle"),
+    "collider_on_path": ("collider on a path", "#F0E442", "star"),
+    "pre_exposure_collider": ("pre-exposure collider", "#F0E442", "hex"),
+    "collider_descendant": ("descendant of a collider", "#F7F1A0", "inverted_triangle"),
+    "outcome_descendant": ("descendant of the outcome", "#E6BCD3", "inverted_triangle"),
+    "instrument": ("instrument", "#0072B2", "triangle"),
+    "outcome_cause": ("outcome cause", "#009E73", "circle"),
+    "unrelated": ("unrelated", "#BBBBBB", "circle"),
+    "other": ("other", "#999999", "square"),
+}
 
 #: The colour of an arrow or a line that is not highlighted.
 EDGE_COLOUR = "#4d4d4d"

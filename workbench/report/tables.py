@@ -22,7 +22,6 @@ True
 
 from __future__ import annotations
 
-import html
 import math
 from collections.abc import Iterable
 from dataclasses import dataclass
@@ -32,6 +31,7 @@ import pandas as pd
 
 from workbench.analysis.check import StrategyCheck
 from workbench.engine.metrics import BIAS_MCSE_MULTIPLE, BIAS_RELATIVE_FLOOR, coverage_is_off, is_biased
+from workbench.formatting.markup import attr_html, text_html
 from workbench.formatting.numbers import effect_digits, estimate_decimals, fmt, fmt_mcse
 from workbench.formatting.phrases import selected_sets_text, strategy_text
 
@@ -89,7 +89,7 @@ _TEXT_HEAD = {
 
 def _html_table(table_id: str, head, rows: list[str]) -> str:
     """A ``<table class="wb">`` with the column names ``head`` and the ``<tr>`` strings ``rows``."""
-    header = "".join(f"<th{_TEXT_HEAD.get(h, '')}>{html.escape(h)}</th>" for h in head)
+    header = "".join(f"<th{_TEXT_HEAD.get(h, '')}>{text_html(h)}</th>" for h in head)
     return (
         f'<table class="wb" id="{table_id}"><thead><tr>{header}</tr></thead><tbody>'
         + "".join(rows)
@@ -146,13 +146,13 @@ def _cell(
     raw = (
         ""
         if value is None
-        else html.escape(repr(float(value)) if isinstance(value, int | float) else str(value))
+        else attr_html(repr(float(value)) if isinstance(value, int | float) else str(value))
     )
-    attrs = f'data-strategy="{html.escape(strategy)}" data-field="{field}" data-value="{raw}"'
+    attrs = f'data-strategy="{attr_html(strategy)}" data-field="{field}" data-value="{raw}"'
     if flagged:
         attrs += ' class="flag"'
     if title:
-        attrs += f' title="{html.escape(title)}"'
+        attrs += f' title="{attr_html(title)}"'
     return f"<td {attrs}>{text}</td>"
 
 
@@ -225,13 +225,13 @@ def _description_cells(r: Any, name: str, columns: _Columns) -> list[str]:
         _get(r, "adjust"), _get(r, "selection"), _get(r, "restrict"), _get(r, "match")
     )
     cells = [
-        f"<td>{html.escape(name)}</td>",
+        f"<td>{text_html(name)}</td>",
         _strategy_verdict_cell(r),
-        f'<td class="text"><div>{html.escape(str(adjust_text))}</div></td>',
+        f'<td class="text"><div>{text_html(str(adjust_text))}</div></td>',
     ]
     if columns.scored:
         cells += [
-            f'<td class="text"><div>{html.escape(str(_get(r, "estimand") or ""))}</div></td>',
+            f'<td class="text"><div>{text_html(str(_get(r, "estimand") or ""))}</div></td>',
             _cell(name, "truth", _get(r, "truth"), digits=effect_digits(_get(r, "emp_se"))),
         ]
     if columns.selection:
@@ -240,9 +240,9 @@ def _description_cells(r: Any, name: str, columns: _Columns) -> list[str]:
         cells += [
             _cell(name, "selected_valid_share", share, digits=0, percent=True)
             if share is not None
-            else f'<td data-strategy="{html.escape(name)}" data-field="selected_valid_share">-</td>',
-            f'<td class="text" data-strategy="{html.escape(name)}" data-field="selected_sets"><div>'
-            f"{html.escape(chosen) or '-'}</div></td>",
+            else f'<td data-strategy="{attr_html(name)}" data-field="selected_valid_share">-</td>',
+            f'<td class="text" data-strategy="{attr_html(name)}" data-field="selected_sets"><div>'
+            f"{text_html(chosen) or '-'}</div></td>",
         ]
     if columns.retained:
         cells.append(_cell(name, "mean_retained_n", _get(r, "mean_retained_n"), digits=1))
@@ -287,11 +287,11 @@ def _row_notes(r: Any, name: str) -> list[str]:
     notes = []
     note = _get(r, "note")
     if note:
-        notes.append(f"<li><b>{html.escape(name)}</b>: {html.escape(str(note))}</li>")
+        notes.append(f"<li><b>{text_html(name)}</b>: {text_html(str(note))}</li>")
     reasons = _get(r, "failure_reasons")
     if isinstance(reasons, dict) and reasons:
         text = ", ".join(f"{k}: {v}" for k, v in reasons.items())
-        notes.append(f"<li><b>{html.escape(name)}</b> failed fits: {html.escape(text)}</li>")
+        notes.append(f"<li><b>{text_html(name)}</b> failed fits: {text_html(text)}</li>")
     return notes
 
 
@@ -353,7 +353,7 @@ def signals_table(table: pd.DataFrame, *, table_id: str = "signals") -> str:
     for _, r in table.iterrows():
         name = str(r["name"])
         cells = [
-            f"<td>{html.escape(name)}</td>",
+            f"<td>{text_html(name)}</td>",
             _cell(name, "change_in_estimate_median", _get(r, "change_in_estimate_median")),
             _cell(name, "share_change_over_10pct", _get(r, "share_change_over_10pct")),
             _cell(name, "se_ratio", _get(r, "se_ratio")),
@@ -376,12 +376,12 @@ def strategies_table(checks: Iterable[StrategyCheck], *, table_id: str = "verdic
     out = []
     for c in checks:
         adjust = strategy_text(c.adjust, c.selection, c.restrict, c.match)
-        reasons = "<br>".join(html.escape(x) for x in c.reasons)
-        notes = "<br>".join(html.escape(x) for x in c.notes)
+        reasons = "<br>".join(text_html(x) for x in c.reasons)
+        notes = "<br>".join(text_html(x) for x in c.notes)
         model = c.model + (" (standardised)" if c.standardize else "")
         out.append(
-            f"<tr><td>{html.escape(c.name)}</td>{_verdict_cell(c.valid)}"
-            f'<td class="text"><div>{html.escape(adjust)}</div></td><td>{html.escape(model)}</td>'
+            f"<tr><td>{text_html(c.name)}</td>{_verdict_cell(c.valid)}"
+            f'<td class="text"><div>{text_html(adjust)}</div></td><td>{text_html(model)}</td>'
             f'<td class="text"><div>{reasons}{"<br><i>" + notes + "</i>" if notes else ""}</div></td></tr>'
         )
     return _html_table(table_id, ("strategy", "verdict", "adjusts for", "model", "why"), out)
@@ -401,11 +401,11 @@ def smallest_n_table(smallest: pd.DataFrame, *, table_id: str = "smallest-n") ->
     for _, r in smallest.iterrows():
         name = str(r["strategy"])
         cells = [
-            f"<td>{html.escape(name)}</td>",
+            f"<td>{text_html(name)}</td>",
             _verdict_cell(_get(r, "valid")),
             _cell(name, "n_for_power", _get(r, "n_for_power"), digits=0),
             _cell(name, "n_for_halfwidth", _get(r, "n_for_halfwidth"), digits=0),
-            f'<td class="text"><div>{html.escape(str(_get(r, "note") or ""))}</div></td>',
+            f'<td class="text"><div>{text_html(str(_get(r, "note") or ""))}</div></td>',
         ]
         out.append("<tr>" + "".join(cells) + "</tr>")
     return _html_table(
@@ -436,12 +436,12 @@ def also_smallest_n_table(smallest: pd.DataFrame, *, table_id: str = "also-small
     for _, r in smallest.iterrows():
         name = str(r["strategy"])
         cells = [
-            f"<td>{html.escape(name)}</td>",
-            f"<td>{html.escape(str(r['variable']))}</td>",
+            f"<td>{text_html(name)}</td>",
+            f"<td>{text_html(str(r['variable']))}</td>",
             _verdict_cell(_get(r, "valid")),
             _cell(name, "n_for_power", _get(r, "n_for_power"), digits=0),
             _cell(name, "analytic_n_for_power", _get(r, "analytic_n_for_power"), digits=0),
-            f'<td class="text"><div>{html.escape(str(_get(r, "note") or ""))}</div></td>',
+            f'<td class="text"><div>{text_html(str(_get(r, "note") or ""))}</div></td>',
         ]
         out.append("<tr>" + "".join(cells) + "</tr>")
     return _html_table(

@@ -26,7 +26,8 @@ import math
 from dataclasses import dataclass
 from numbers import Integral, Real
 
-from workbench.errors import ScenarioError, WorkbenchError
+from workbench.errors import ScenarioError, WorkbenchError, shown
+from workbench.scenario.limits import MAX_SEED, MAX_STUDY_SIZE
 
 __all__ = [
     "Setting",
@@ -64,6 +65,10 @@ class Setting:
         Whether the bound itself is excluded.
     meaning : str
         What the setting is, for help texts and tooltips.
+    ceiling : float or None
+        For a setting with no upper bound in :attr:`rule`: the largest value the workbench computes with
+        (:data:`~workbench.scenario.limits.MAX_STUDY_SIZE` units, :data:`~workbench.scenario.limits.MAX_SEED`);
+        a value above it gets its own message, ``must be at most ...``.
     """
 
     name: str
@@ -73,6 +78,7 @@ class Setting:
     low_open: bool = False
     high_open: bool = False
     meaning: str = ""
+    ceiling: float | None = None
 
     @property
     def rule(self) -> str:
@@ -100,26 +106,46 @@ class Setting:
         return noun
 
     def accepts(self, value: object) -> bool:
-        """True when ``value`` satisfies the kind and the bounds."""
+        """True when ``value`` satisfies the kind, the bounds and the ceiling."""
         if isinstance(value, bool) or not isinstance(value, Real):
             return False
         if self.kind == "int" and not isinstance(value, Integral):
             return False
-        if not math.isfinite(float(value)):
-            return False
+        try:
+            if not math.isfinite(float(value)) and not isinstance(value, Integral):
+                return False
+        except OverflowError:  # an integer beyond the largest double
+            if self.kind != "int":
+                return False
         if self.low is not None and (value <= self.low if self.low_open else value < self.low):
             return False
+        if self.ceiling is not None and value > self.ceiling:
+            return False
         return not (self.high is not None and (value >= self.high if self.high_open else value > self.high))
+
+    def problem(self, value: object) -> str:
+        """What is wrong with a value :meth:`accepts` refuses, e.g. ``must be an integer of at least 1, got 0``.
+
+        Examples
+        --------
+        >>> STUDY_SETTINGS["n"].problem(10**23)
+        'must be at most 100,000,000 (the largest study simulated), got 100000000000000000000000'
+        """
+        ok_kind = isinstance(value, Real) and not isinstance(value, bool)
+        if ok_kind and self.ceiling is not None and self.accepts(min(value, self.ceiling)):
+            what = "the largest seed" if self.name == "seed" else "the largest study simulated"
+            return f"must be at most {int(self.ceiling):,} ({what}), got {shown(value, 60)}"
+        return f"must be {self.rule}, got {shown(value, 60)}"
 
 
 STUDY_SETTINGS: dict[str, Setting] = {
     s.name: s
     for s in (
-        Setting("n", "int", 1, None, meaning="units per simulated study"),
+        Setting("n", "int", 1, None, meaning="units per simulated study", ceiling=MAX_STUDY_SIZE),
         Setting("replicates", "int", 1, MAX_REPLICATES, meaning="number of simulated studies"),
-        Setting("seed", "int", 0, None, meaning="root of the random streams"),
+        Setting("seed", "int", 0, None, meaning="root of the random streams", ceiling=MAX_SEED),
         Setting("alpha", "number", 0, 0.5, low_open=True, meaning="1 - confidence level, and the test level"),
-        Setting("sample_size", "int", 1, None, meaning="one sample size of the plan"),
+        Setting("sample_size", "int", 1, None, meaning="one sample size of the plan", ceiling=MAX_STUDY_SIZE),
         Setting("target_power", "number", 0, 1, low_open=True, high_open=True, meaning="power to reach"),
         Setting(
             "target_halfwidth",
@@ -173,5 +199,5 @@ def check_setting(
     """
     setting = STUDY_SETTINGS[name]
     if not setting.accepts(value):
-        raise error(f"must be {setting.rule}, got {value!r}", where=where or name)
+        raise error(setting.problem(value), where=where or name)
     return int(value) if setting.kind == "int" else float(value)

@@ -40,6 +40,7 @@ __all__ = [
     "Scenario",
     "minimum_study_size",
     "NAME_PATTERN",
+    "STRATEGY_NAME_PATTERN",
     "VARIABLE_TYPES",
     "TARGETS",
     "SCALES",
@@ -48,7 +49,11 @@ __all__ = [
     "CHANGE_THRESHOLD",
 ]
 
-NAME_PATTERN = re.compile(r"^[A-Za-z][A-Za-z0-9_]{0,31}$")
+NAME_PATTERN = re.compile(r"\A[A-Za-z][A-Za-z0-9_]{0,31}\Z")
+"""A variable name: a letter, then letters, digits or ``_``, at most 32 characters (``\\Z``, not ``$``, which
+would also match before a final newline)."""
+STRATEGY_NAME_PATTERN = re.compile(r"\A[A-Za-z][A-Za-z0-9_]{0,59}\Z")
+"""A strategy name: like a variable name, at most 60 characters (the default strategies' names go up to 60)."""
 VARIABLE_TYPES = ("continuous", "binary")
 TARGETS = ("total", "direct")
 SCALES = ("difference", "log_odds_ratio")

@@ -55,18 +55,42 @@ import warnings
 from pathlib import Path
 from typing import Any
 
-from workbench.errors import ScenarioError, suggestion
+from workbench.errors import ScenarioError, shown
 from workbench.scenario.constraints import (
     MAX_ARROWS,
     MAX_SELECTION_CANDIDATES,
     MAX_VARIABLES,
     check_setting,
 )
+from workbench.scenario.fields import check_keys as _check_keys
+from workbench.scenario.fields import choice as _choice
+from workbench.scenario.fields import get_field as _get
+from workbench.scenario.fields import known_name as _known
+from workbench.scenario.fields import place_of
+from workbench.scenario.fields import type_name as _type_name
+from workbench.scenario.limits import (
+    MAX_DEPTH,
+    MAX_MAGNITUDE,
+    MAX_NAME,
+    MAX_SAMPLE_SIZES,
+    MAX_STRATEGIES,
+    MAX_STRATEGY_NAME,
+    MAX_SUMMARY,
+    MAX_TITLE,
+    MIN_NOISE_SD,
+    MIN_PROPORTION,
+    check_magnitude,
+    check_nesting,
+    check_scales,
+    check_text_size,
+    read_scenario_text,
+)
 from workbench.scenario.model import (
     MODELS,
     NAME_PATTERN,
     SCALES,
     SELECTIONS,
+    STRATEGY_NAME_PATTERN,
     TARGETS,
     VARIABLE_TYPES,
     Arrow,
@@ -92,95 +116,63 @@ _STRATEGY_KEYS = ("name", "adjust", "model", "standardize", "selection", "restri
 _STUDY_KEYS = ("n", "replicates", "seed", "alpha", "sample_sizes", "target_power", "target_halfwidth")
 
 
-def _check_keys(table: dict, allowed, where: str) -> None:
-    for key in table:
-        if key not in allowed:
-            place = f"{where}.{key}" if where else key
-            raise ScenarioError(f"unknown key '{key}'{suggestion(key, allowed)}", where=place)
+def _parse_position(table: dict, where: str) -> tuple[float, float] | None:
+    position = _get(table, "position", "list", where)
+    if position is None:
+        return None
+    if len(position) != 2 or not all(
+        isinstance(p, int | float) and not isinstance(p, bool) for p in position
+    ):
+        raise ScenarioError(f"must be two numbers [x, y], got {shown(position)}", where=f"{where}.position")
+    for i in range(2):
+        _get({"position": position[i]}, "position", "number", where)
+        check_magnitude(float(position[i]), f"{where}.position")
+    return float(position[0]), float(position[1])
 
 
-def _type_name(value: Any) -> str:
-    return {
-        bool: "a boolean",
-        int: "an integer",
-        float: "a number",
-        str: "a string",
-        list: "an array",
-        dict: "a table",
-    }.get(type(value), type(value).__name__)
-
-
-def _get(table: dict, key: str, kind: str, where: str, default: Any = None, required: bool = False) -> Any:
-    place = f"{where}.{key}" if where else key
-    if key not in table:
-        if required:
-            raise ScenarioError("missing (required)", where=place)
-        return default
-    value = table[key]
-    ok = {
-        "str": isinstance(value, str),
-        "bool": isinstance(value, bool),
-        "int": isinstance(value, int) and not isinstance(value, bool),
-        "number": isinstance(value, int | float) and not isinstance(value, bool),
-        "list": isinstance(value, list),
-        "table": isinstance(value, dict),
-    }[kind]
-    if not ok:
-        wanted = {
-            "str": "a string",
-            "bool": "true or false",
-            "int": "an integer",
-            "number": "a number",
-            "list": "an array",
-            "table": "a table",
-        }[kind]
-        raise ScenarioError(f"must be {wanted}, got {_type_name(value)} {value!r}", where=place)
-    if kind == "number":
-        value = float(value)
-        if not math.isfinite(value):
-            raise ScenarioError(f"must be a finite number, got {value!r}", where=place)
-    return value
-
-
-def _choice(value: str, choices, place: str) -> str:
-    if value not in choices:
-        options = ", ".join(f"'{c}'" for c in choices)
+def _parse_proportion(table: dict, where: str) -> float:
+    proportion = _get(table, "proportion", "number", where, required=True)
+    place = f"{where}.proportion"
+    if not 0.0 < proportion < 1.0:
+        raise ScenarioError(f"must lie strictly between 0 and 1, got {shown(proportion)}", where=place)
+    if not MIN_PROPORTION <= proportion <= 1.0 - MIN_PROPORTION:
         raise ScenarioError(
-            f"must be one of {options}, got '{value}'{suggestion(value, choices)}", where=place
+            f"must lie in [{MIN_PROPORTION:g}, {1.0 - MIN_PROPORTION:g}] (rarer events cannot be simulated "
+            f"reliably), got {shown(proportion)}",
+            where=place,
         )
-    return value
+    return proportion
 
 
-def _known(name: Any, names, place: str) -> str:
-    if not isinstance(name, str):
+def _parse_noise_sd(table: dict, where: str, name: str) -> float:
+    noise_sd = _get(table, "noise_sd", "number", where, 1.0)
+    place = f"{where}.noise_sd"
+    if noise_sd < 0:
+        raise ScenarioError(f"must be >= 0, got {shown(noise_sd)}", where=place)
+    if noise_sd == 0:
+        warnings.warn(f"{place}: 0 makes '{name}' a deterministic function of its causes", stacklevel=5)
+    elif not MIN_NOISE_SD <= noise_sd <= MAX_MAGNITUDE:
         raise ScenarioError(
-            f"must be a variable name (a string), got {_type_name(name)} {name!r}", where=place
+            f"must be 0 or lie in [{MIN_NOISE_SD:g}, {MAX_MAGNITUDE:g}], got {shown(noise_sd)}", where=place
         )
-    if name not in names:
-        raise ScenarioError(f"unknown variable '{name}'{suggestion(name, names)}", where=place)
-    return name
+    return noise_sd
 
 
 def _parse_variable(name: str, table: Any) -> Variable:
-    where = f"variables.{name}"
-    if not NAME_PATTERN.match(name):
+    if not NAME_PATTERN.fullmatch(name):
+        place = place_of("variables", name)  # a name that is not a bare key is quoted, not put in the place
+        rule = f"a variable name must be a letter, then letters, digits or '_', at most {MAX_NAME} characters"
         raise ScenarioError(
-            "a variable name must be a letter, then letters, digits or '_', at most 32 characters",
-            where=where,
+            rule if place != "variables" else f"{shown(name)} is not valid: {rule}", where=place
         )
+    where = f"variables.{name}"
     if not isinstance(table, dict):
-        raise ScenarioError(f"must be a table, got {_type_name(table)} {table!r}", where=where)
+        raise ScenarioError(f"must be a table, got {_type_name(table)} {shown(table)}", where=where)
     _check_keys(table, _VARIABLE_KEYS, where)
     vtype = _choice(_get(table, "type", "str", where, "continuous"), VARIABLE_TYPES, f"{where}.type")
     observed = _get(table, "observed", "bool", where, True)
     label = _get(table, "label", "str", where)
-    position = _get(table, "position", "list", where)
-    if position is not None:
-        if len(position) != 2 or not all(
-            isinstance(p, int | float) and not isinstance(p, bool) for p in position
-        ):
-            raise ScenarioError(f"must be two numbers [x, y], got {position!r}", where=f"{where}.position")
-        position = (float(position[0]), float(position[1]))
+    position = _parse_position(table, where)
     if vtype == "binary":
         for key in ("noise_sd", "baseline"):
             if key in table:
@@ -188,24 +180,14 @@ def _parse_variable(name: str, table: Any) -> Variable:
                     "applies to continuous variables only; a binary variable is set by 'proportion'",
                     where=f"{where}.{key}",
                 )
-        proportion = _get(table, "proportion", "number", where, required=True)
-        if not 0.0 < proportion < 1.0:
-            raise ScenarioError(
-                f"must lie strictly between 0 and 1, got {proportion:g}", where=f"{where}.proportion"
-            )
+        proportion = _parse_proportion(table, where)
         return Variable(name, "binary", 0.0, 0.0, proportion, observed, label, position)
     if "proportion" in table:
         raise ScenarioError(
             'applies to binary variables only (set type = "binary")', where=f"{where}.proportion"
         )
-    noise_sd = _get(table, "noise_sd", "number", where, 1.0)
-    if noise_sd < 0:
-        raise ScenarioError(f"must be >= 0, got {noise_sd:g}", where=f"{where}.noise_sd")
-    if noise_sd == 0:
-        warnings.warn(
-            f"{where}.noise_sd: 0 makes '{name}' a deterministic function of its causes", stacklevel=4
-        )
-    baseline = _get(table, "baseline", "number", where, 0.0)
+    noise_sd = _parse_noise_sd(table, where, name)
+    baseline = check_magnitude(_get(table, "baseline", "number", where, 0.0), f"{where}.baseline")
     return Variable(name, "continuous", noise_sd, baseline, None, observed, label, position)
 
 
@@ -225,10 +207,10 @@ def _check_acyclic(names: list[str], arrows: list[Arrow]) -> None:
 
 def _parse_title(data: dict) -> tuple[str, str | None]:
     """The title (not blank) and the optional summary."""
-    title = _get(data, "title", "str", "", required=True).strip()
+    title = _get(data, "title", "str", "", required=True, limit=MAX_TITLE).strip()
     if not title:
         raise ScenarioError("must not be empty", where="title")
-    return title, _get(data, "summary", "str", "")
+    return title, _get(data, "summary", "str", "", limit=MAX_SUMMARY, newlines=True)
 
 
 def _parse_variables(data: dict) -> tuple[Variable, ...]:
@@ -249,7 +231,11 @@ def _parse_arrow(i: int, table: Any, names: list[str], seen: dict[tuple[str, str
     _check_keys(table, _ARROW_KEYS, where)
     source = _known(_get(table, "from", "str", where, required=True), names, f"{where}.from")
     target = _known(_get(table, "to", "str", where, required=True), names, f"{where}.to")
-    effect = _get(table, "effect", "number", where, required=True)
+    effect = check_magnitude(
+        _get(table, "effect", "number", where, required=True),
+        f"{where}.effect",
+        what="larger effects overflow the simulation",
+    )
     if source == target:
         raise ScenarioError(f"an arrow from '{source}' to itself is not allowed", where=where)
     if (source, target) in seen:
@@ -345,6 +331,10 @@ def _parse_study(data: dict) -> Study:
     sizes = _get(table, "sample_sizes", "list", "study", list(defaults.sample_sizes))
     if not sizes:
         raise ScenarioError("must list at least one sample size", where="study.sample_sizes")
+    if len(sizes) > MAX_SAMPLE_SIZES:
+        raise ScenarioError(
+            f"at most {MAX_SAMPLE_SIZES} sample sizes, got {len(sizes)}", where="study.sample_sizes"
+        )
     for i, size in enumerate(sizes, start=1):
         check_setting("sample_size", size, where=f"study.sample_sizes[{i}]")
     target_power = _study_setting(table, "target_power", "number", defaults.target_power)
@@ -406,6 +396,12 @@ def _parse_strategy(
     name = _get(table, "name", "str", where, required=True).strip()
     if not name:
         raise ScenarioError("must not be empty", where=f"{where}.name")
+    if not STRATEGY_NAME_PATTERN.fullmatch(name):
+        raise ScenarioError(
+            f"a strategy name must be a letter, then letters, digits or '_', at most {MAX_STRATEGY_NAME} "
+            f"characters, got {shown(name)}",
+            where=f"{where}.name",
+        )
     if name in taken:
         raise ScenarioError(f"duplicate strategy name '{name}'", where=f"{where}.name")
     exposure, outcome = question.exposure, question.outcome
@@ -436,6 +432,10 @@ def _parse_strategies(
 ) -> tuple[tuple[Strategy, ...], bool]:
     """The ``[[strategies]]`` and whether the file gives the key (an empty list is an error)."""
     strategy_list = _get(data, "strategies", "list", "", None)
+    if strategy_list is not None and len(strategy_list) > MAX_STRATEGIES:
+        raise ScenarioError(
+            f"at most {MAX_STRATEGIES} strategies, got {len(strategy_list)}", where="strategies"
+        )
     strategies: list[Strategy] = []
     for i, table in enumerate(strategy_list or [], start=1):
         strategies.append(_parse_strategy(i, table, by_name, question, {s.name for s in strategies}))
@@ -478,12 +478,14 @@ def parse_scenario(data: dict) -> Scenario:
     workbench.errors.ScenarioError: arrows[1].to: unknown variable 'c'
     """
     if not isinstance(data, dict):
-        raise ScenarioError("a scenario must be a TOML document (a table)")
+        raise ScenarioError("a scenario must be a TOML document (a table)", where="scenario")
+    check_nesting(data)
     _check_keys(data, _TOP_KEYS, "")
     title, summary = _parse_title(data)
     variables = _parse_variables(data)
     by_name = {v.name: v for v in variables}
     arrows = _parse_arrows(data, list(by_name))
+    check_scales(variables, arrows)
     question = _parse_question(data, by_name)
     study = _parse_study(data)
     strategies, given = _parse_strategies(data, by_name, question)
@@ -500,7 +502,7 @@ def _parse_restrict(table: dict, where: str, by_name: dict, exposure: str, outco
     spec = _get(table, "restrict", "table", where, {})
     out = []
     for name, value in spec.items():
-        place = f"{where}.restrict.{name}"
+        place = place_of(f"{where}.restrict", name)
         _known(name, list(by_name), place)
         if name in (exposure, outcome):
             role = "exposure" if name == exposure else "outcome"
@@ -517,7 +519,7 @@ def _parse_restrict(table: dict, where: str, by_name: dict, exposure: str, outco
                 )
             if isinstance(value, bool) or not isinstance(value, int) or value not in (0, 1):
                 raise ScenarioError(
-                    f"'{name}' is binary: give the value to keep, 0 or 1, got {value!r}", where=place
+                    f"'{name}' is binary: give the value to keep, 0 or 1, got {shown(value)}", where=place
                 )
             out.append((name, int(value)))
             continue
@@ -527,12 +529,15 @@ def _parse_restrict(table: dict, where: str, by_name: dict, exposure: str, outco
             or not all(isinstance(v, int | float) and not isinstance(v, bool) for v in value)
         ):
             raise ScenarioError(
-                f"'{name}' is continuous: give the interval to keep as [low, high], got {value!r}",
+                f"'{name}' is continuous: give the interval to keep as [low, high], got {shown(value)}",
                 where=place,
             )
-        low, high = float(value[0]), float(value[1])
+        try:
+            low, high = float(value[0]), float(value[1])
+        except OverflowError:  # an integer beyond the largest double
+            low = high = math.inf
         if not (math.isfinite(low) and math.isfinite(high)) or not low < high:
-            raise ScenarioError(f"the interval must have finite low < high, got {value!r}", where=place)
+            raise ScenarioError(f"the interval must have finite low < high, got {shown(value)}", where=place)
         out.append((name, (low, high)))
     return tuple(out)
 
@@ -591,8 +596,14 @@ _TOML_POSITION = re.compile(r"\(at line (\d+), column (\d+)\)")
 
 
 def _parse_text(text: str, source: str | None) -> dict:
+    check_text_size(text, source)
     try:
-        return tomllib.loads(text)
+        data = tomllib.loads(text)
+    except RecursionError:  # tomllib reads nested arrays and inline tables recursively
+        raise ScenarioError(
+            f"TOML nesting too deep: arrays or tables nested deeper than {MAX_DEPTH} levels",
+            where=source or "scenario",
+        ) from None
     except tomllib.TOMLDecodeError as exc:
         message = str(exc)
         match = _TOML_POSITION.search(message)
@@ -600,7 +611,13 @@ def _parse_text(text: str, source: str | None) -> dict:
         where = f"line {match.group(1)}, column {match.group(2)}" if match else None
         if source:
             where = f"{source}: {where}" if where else source
-        raise ScenarioError(f"TOML syntax error: {problem}", where=where) from None
+        raise ScenarioError(f"TOML syntax error: {problem}", where=where or "scenario") from None
+    except ValueError:  # an integer of more than 4,300 digits (Python's limit on int conversion)
+        raise ScenarioError(
+            "TOML value error: a number has too many digits", where=source or "scenario"
+        ) from None
+    check_nesting(data, source)
+    return data
 
 
 def parse_scenario_text(text: str, source: str | None = None) -> Scenario:
@@ -650,15 +667,4 @@ def read_scenario(path: str | os.PathLike) -> Scenario:
     workbench.errors.ScenarioError: no/such/file.toml: no such file
     """
     path = Path(path)
-    source = str(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise ScenarioError("no such file", where=source) from None
-    except UnicodeDecodeError:
-        raise ScenarioError("is not UTF-8 text; a scenario is a TOML text file", where=source) from None
-    except IsADirectoryError:
-        raise ScenarioError("is a folder, not a scenario file", where=source) from None
-    except OSError as exc:
-        raise ScenarioError(f"cannot read: {exc.strerror or exc}", where=source) from None
-    return parse_scenario_text(text, source)
+    return parse_scenario_text(read_scenario_text(path), str(path))

@@ -16,14 +16,14 @@ import re
 from importlib import resources
 from pathlib import Path
 
-from workbench.errors import ScenarioError
+from workbench.errors import ScenarioError, shown
 from workbench.scenario.model import Scenario
 from workbench.scenario.parse import parse_scenario_text
 
 __all__ = ["DEFAULT_PRESET", "list_presets", "preset_text", "read_preset"]
 
 DEFAULT_PRESET = "common_cause"
-_NAME = re.compile(r"^[a-z][a-z0-9_]{0,63}$")
+_NAME = re.compile(r"[a-z][a-z0-9_]{0,63}")
 
 
 _SOURCE_FOLDER = Path(__file__).resolve().parents[2] / "presets"
@@ -67,8 +67,8 @@ def preset_text(name: str) -> str:
     >>> preset_text("common_cause").splitlines()[0]
     'title = "Fertiliser and wheat yield on hillside farms"'
     """
-    if not isinstance(name, str) or not _NAME.match(name):
-        raise ScenarioError(f"not a preset name: {name!r}", where="preset")
+    if not isinstance(name, str) or not _NAME.fullmatch(name):
+        raise ScenarioError(f"not a preset name: {shown(name)}", where="preset")
     entry = _folder() / f"{name}.toml"
     if not entry.is_file():
         choices = ", ".join(list_presets())

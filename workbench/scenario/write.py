@@ -11,7 +11,9 @@ True
 
 from __future__ import annotations
 
+import errno
 import os
+import stat
 import tempfile
 from pathlib import Path
 from typing import Any
@@ -112,14 +114,51 @@ def dumps_scenario(scenario: Scenario, *, include_default_strategies: bool = Tru
 
 def write_text_atomically(path: str | os.PathLike, text: str) -> None:
     """Write ``text`` to ``path`` through a temporary file in the same folder and a rename, so a crash never
-    leaves a half-written file in place of the user's."""
-    path = Path(path)
-    directory = path.parent if str(path.parent) else Path(".")
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=directory)
+    leaves a half-written file in place of the user's.
+
+    A symbolic link is written through: the file it points to is replaced and the link stays. A path that
+    exists and is not a regular file (a folder, a device, a FIFO, a socket) is never replaced: ``OSError``.
+    The temporary file (a short name beginning with a dot, beside the target) is flushed to disk before the
+    rename and removed on any failure; an existing file keeps its permissions.
+
+    Raises
+    ------
+    OSError
+        The folder is missing or not writable, the disk is full, or the path is not a regular file
+        (``strerror`` says which; ``filename`` is the path given, never the temporary file).
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> write_text_atomically(folder / "a.txt", "one")
+    >>> (folder / "link.txt").symlink_to(folder / "a.txt")
+    >>> write_text_atomically(folder / "link.txt", "two")
+    >>> (folder / "a.txt").read_text(), (folder / "link.txt").is_symlink()
+    ('two', True)
+    >>> write_text_atomically(folder, "three")
+    Traceback (most recent call last):
+    ...
+    IsADirectoryError: [Errno 21] is a folder, not replaced: ...
+    """
+    given = os.fspath(path)
+    target = Path(os.path.realpath(given))
     try:
-        try:  # keep an existing file's permissions; a new file gets the usual ones (0666 less the umask)
-            mode = path.stat().st_mode & 0o777
-        except FileNotFoundError:
+        info = target.stat()
+    except FileNotFoundError:
+        info = None
+    if info is not None and not stat.S_ISREG(info.st_mode):
+        if stat.S_ISDIR(info.st_mode):
+            raise IsADirectoryError(errno.EISDIR, "is a folder, not replaced", given)
+        raise OSError(errno.EINVAL, "is not a regular file (a device, FIFO or socket), not replaced", given)
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{target.name[:32]}.", suffix=".tmp", dir=target.parent)
+    except OSError as exc:
+        raise type(exc)(exc.errno, exc.strerror, given) from None
+    try:
+        if info is not None:  # keep an existing file's permissions
+            mode = info.st_mode & 0o777
+        else:  # a new file gets the usual ones (0666 less the umask)
             umask = os.umask(0)
             os.umask(umask)
             mode = 0o666 & ~umask
@@ -128,7 +167,10 @@ def write_text_atomically(path: str | os.PathLike, text: str) -> None:
             handle.write(text)
             handle.flush()
             os.fsync(handle.fileno())
-        os.replace(tmp, path)
+        os.replace(tmp, target)
+    except OSError as exc:
+        Path(tmp).unlink(missing_ok=True)
+        raise type(exc)(exc.errno, exc.strerror, given) from None
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
         raise
