@@ -326,3 +326,15 @@ def test_raw_engine_search_fits_only_the_strategies_it_needs_with_the_same_numbe
     arrays = run_replicates(sc, n, 200, 8)
     column = arrays.strategies.index(strategy)
     assert extra["power"].iloc[0] == pytest.approx(np.mean(arrays.p_value[:, column] <= sc.study.alpha))
+
+
+def test_a_valid_set_with_a_misspecified_model_is_said_so_in_the_plan():
+    """A linear probability model with the valid set {machine_wear} converges to about 0.19, not the marginal
+    risk difference 0.13 (checked by numerical integration in tests/reference/test_good_bad_controls.py);
+    the plan's note must give check's second verdict instead of presenting its power as a guide."""
+    from workbench import load_preset, plan
+
+    result = plan(load_preset("lpm_misspecified"), sample_sizes=[250, 500], replicates=200, seed=1)
+    notes = dict(zip(result.smallest_n["strategy"], result.smallest_n["note"], strict=True))
+    assert "valid set, misspecified model" in notes["lpm_adjust_wear"]
+    assert "misspecified" not in notes["standardised_adjust_wear"]

@@ -319,6 +319,15 @@ def _invalid_note(planner: Planner, i: int) -> str:
     )
 
 
+def _model_checks(planner: Planner) -> dict:
+    """check's record of every strategy (its model verdict), by name; computed once per plan."""
+    if not hasattr(planner, "model_checks"):
+        from workbench.analysis.check import check
+
+        planner.model_checks = {c.name: c for c in check(planner.scenario).checks}
+    return planner.model_checks
+
+
 def _bias_note(planner: Planner, i: int) -> str:
     """The note of a valid strategy that is biased in simulation at the largest grid size ('' if it is not,
     by :func:`workbench.engine.metrics.is_biased`)."""
@@ -370,8 +379,13 @@ def _strategy_notes(planner: Planner, i: int, power: Criterion, width: Criterion
             width, "CI half-width", planner.target_halfwidth, largest.halfwidth[i], planner.sizes
         )
     if planner.valid[i]:
-        biased = _bias_note(planner, i)
-        notes.append(biased or _coverage_note(planner, i))
+        model = _model_checks(planner).get(planner.names[i])
+        if model is not None and model.model_ok is False:  # check's second verdict: the model itself
+            reason = (model.model_reason or "see check").removeprefix("misspecified: ")
+            notes.append(f"valid set, misspecified model ({reason}): its power is not a fair guide")
+            notes.append(_coverage_note(planner, i))
+        else:
+            notes.append(_bias_note(planner, i) or _coverage_note(planner, i))
         if abs(planner.strategy_truth[i]) < 1e-12:
             notes.append(f"the true effect is 0: power stays at alpha = {planner.alpha:g} whatever n")
     return [note for note in notes if note]

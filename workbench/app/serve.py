@@ -212,8 +212,11 @@ def serve(
     if show:
         server.io_loop.add_callback(server.show, "/")
     server.start()
+    from workbench.engine.threads import blas_threads
+
     try:
-        server.io_loop.start()
+        with blas_threads():  # every session's fits: one BLAS thread each (engine/threads.py)
+            server.io_loop.start()
     except RuntimeError:  # the loop was stopped by Ctrl-C
         pass
 

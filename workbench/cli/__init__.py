@@ -57,8 +57,11 @@ def _run(argv: list[str] | None) -> int:
         parser.print_help()
         return EXIT_USER_ERROR
     warnings.showwarning = _show_warning
+    from workbench.engine.threads import blas_threads
+
     try:
-        return args.func(args)
+        with blas_threads():  # the whole command: batched small fits run fastest on one BLAS thread
+            return args.func(args)
     except Cancelled as exc:
         print(f"workbench: cancelled: {exc}", file=sys.stderr)
         return EXIT_CANCELLED
