@@ -9,14 +9,23 @@ and in process CPU time (steadier on a machine shared with other work), and with
 A second, smaller comparison adds the standardised risk difference: batched ``standardized_contrast`` against
 statsmodels' ``get_margeff(at="overall", dummy=True)`` per fit (timed on a subset and extrapolated).
 
+With ``--old-logistic FILE`` / ``--old-robust FILE`` (copies of earlier versions of
+``workbench/engine/logistic.py`` / ``robust.py``) the earlier and the current fits are timed side by side in
+the same run, by process CPU time with one BLAS thread, interleaved so that the load of the machine is shared
+alike; the HC3 least squares (``ols_hc3_batch``) is compared with a statsmodels ``OLS(cov_type="HC3")`` loop.
+The statsmodels loops get a C-ordered copy of each replicate's design (an analyst's array).
+
 Run from the repository root::
 
     python benchmarks/logistic.py [--replicates 2000] [--n 500] [--repeats 5]
+    python benchmarks/logistic.py --n 20000 --replicates 200 --old-logistic /tmp/logistic_old.py \
+        --old-robust /tmp/robust_old.py --side-by-side-only
 """
 
 from __future__ import annotations
 
 import argparse
+import importlib.util
 import os
 import platform
 import sys
@@ -33,7 +42,9 @@ from scipy.special import expit
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 from workbench.engine.logistic import design_matrix, fit_logit_batch  # noqa: E402
+from workbench.engine.robust import ols_hc3_batch  # noqa: E402
 from workbench.engine.standardize import standardized_contrast  # noqa: E402
+from workbench.engine.threads import blas_threads  # noqa: E402
 
 
 def cpu_model() -> str:
@@ -69,14 +80,87 @@ def best_of(repeats: int, function):
     return min(walls), min(cpus), result
 
 
+def load(path: str, name: str):
+    """A module loaded from a file (an earlier version of an engine module)."""
+    spec = importlib.util.spec_from_file_location(name, path)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
+def side_by_side(X, y, args) -> None:
+    """Earlier and current fits, interleaved, by CPU time with one BLAS thread, against statsmodels loops."""
+    R, n = y.shape
+    m = min(R, args.reference_replicates)
+    with blas_threads(1):
+        cpu = {"logit new": [], "logit old": [], "hc3 new": [], "hc3 old": []}
+        old_logit = load(args.old_logistic, "logistic_old") if args.old_logistic else None
+        old_robust = load(args.old_robust, "robust_old") if args.old_robust else None
+        for _ in range(args.repeats):
+            for key, function in [
+                ("logit new", lambda: fit_logit_batch(X, y)),
+                ("logit old", old_logit and (lambda: old_logit.fit_logit_batch(np.ascontiguousarray(X), y))),
+                ("hc3 new", lambda: ols_hc3_batch(X, y)),
+                ("hc3 old", old_robust and (lambda: old_robust.ols_hc3_batch(np.ascontiguousarray(X), y))),
+            ]:
+                if function:
+                    start = time.process_time()
+                    result = function()
+                    cpu[key].append(time.process_time() - start)
+                    cpu[key + " result"] = result
+        loops = {"Logit": 0.0, "Logit (design as given)": 0.0, "OLS HC3": 0.0}
+        coef = np.empty((m, X.shape[2]))
+        hc3_se = np.empty((m, X.shape[2]))
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            for r in range(m):
+                Xr = np.ascontiguousarray(X[r])
+                start = time.process_time()
+                coef[r] = sm.Logit(y[r], Xr).fit(disp=0).params
+                loops["Logit"] += time.process_time() - start
+                start = time.process_time()
+                sm.Logit(y[r], X[r]).fit(disp=0)
+                loops["Logit (design as given)"] += time.process_time() - start
+                start = time.process_time()
+                hc3_se[r] = sm.OLS(y[r], Xr).fit(cov_type="HC3").bse
+                loops["OLS HC3"] += time.process_time() - start
+    scale = R / m
+    fit = cpu["logit new result"]
+    ok = ~fit.failed[:m]
+    print(f"side by side, R = {R}, n = {n}, one BLAS thread, process CPU time, best of {args.repeats}")
+    for name, total in loops.items():
+        print(f"  statsmodels {name} loop: {total * scale:8.3f} s (timed on {m} fits, scaled to {R})")
+    t_logit = loops["Logit"] * scale
+    t_hc3 = loops["OLS HC3"] * scale
+    for key, ref in [("logit new", t_logit), ("logit old", t_logit), ("hc3 new", t_hc3), ("hc3 old", t_hc3)]:
+        if cpu[key]:
+            best = min(cpu[key])
+            print(f"  {key:9s}: {best:8.3f} s -> {ref / best:6.1f}x the statsmodels loop")
+    print(
+        f"  max |coef difference| from statsmodels Logit {np.max(np.abs(fit.coef[:m][ok] - coef[ok])):.1e}; "
+        f"max |HC3 SE difference| {np.nanmax(np.abs(cpu['hc3 new result'][1][:m] - hc3_se)):.1e}"
+    )
+    if cpu["logit old"]:
+        old = cpu["logit old result"]
+        print(f"  max |coef difference| old vs new {np.nanmax(np.abs(old.coef - fit.coef)):.1e}")
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--replicates", type=int, default=2000)
     parser.add_argument("--n", type=int, default=500)
     parser.add_argument("--repeats", type=int, default=5, help="batched timings: best of this many")
     parser.add_argument("--margeff-replicates", type=int, default=200)
+    parser.add_argument("--old-logistic", help="an earlier logistic.py to time side by side")
+    parser.add_argument("--old-robust", help="an earlier robust.py to time side by side")
+    parser.add_argument("--reference-replicates", type=int, default=200, help="statsmodels fits timed")
+    parser.add_argument("--side-by-side-only", action="store_true")
     args = parser.parse_args(argv)
     R, n = args.replicates, args.n
+    if args.side_by_side_only:
+        print(f"date {datetime.now(UTC):%Y-%m-%d %H:%M} UTC; {os.cpu_count()} CPUs ({cpu_model()})")
+        side_by_side(*make_data(R, n), args)
+        return 0
 
     print(
         f"date {datetime.now(UTC):%Y-%m-%d %H:%M} UTC; {os.cpu_count()} CPUs ({cpu_model()}); "

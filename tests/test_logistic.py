@@ -196,3 +196,66 @@ def test_every_replicate_either_fails_with_a_reason_or_solves_the_score_equation
         assert np.abs(score).max() < 1e-6
         coef, se, failed = ols_hc3_batch(X, y)
         assert (np.isfinite(se[~failed])).all()
+
+
+def test_design_matrix_is_laid_out_columns_first_and_never_written_by_the_fits():
+    """Common practice, no source: the design is built once as (R, p, n) and the fits use it without a copy,
+    so a fit that zeroes its unusable replicates must not touch the caller's array."""
+    X, y = _draw(11, R=4, n=40)
+    assert np.swapaxes(X, 1, 2).flags.c_contiguous
+    X[2, 5, 2] = np.nan
+    before = X.copy()
+    fit = fit_logit_batch(X, y)
+    ols_hc3_batch(X, y)
+    np.testing.assert_array_equal(X, before)
+    assert fit.failure[2] == "non-finite values in the data" and not fit.failed[[0, 1, 3]].any()
+    again = fit_logit_batch(np.ascontiguousarray(X), y)  # a C-ordered copy of the same design
+    np.testing.assert_allclose(again.coef, fit.coef, rtol=1e-12, equal_nan=True)
+
+
+def _sandwich_hc3(X, y):
+    """HC3 by the formula of MacKinnon & White (1985), J. Econometrics 29:305-325, eq. for HC3:
+    (X'X)^-1 X' diag(e_i^2 / (1 - h_ii)^2) X (X'X)^-1, with the hat matrix formed explicitly."""
+    inverse = np.linalg.inv(X.T @ X)
+    coef = inverse @ X.T @ y
+    residual = y - X @ coef
+    hat = np.diag(X @ inverse @ X.T)
+    meat = X.T @ (X * ((residual / (1 - hat)) ** 2)[:, None])
+    return coef, np.sqrt(np.diag(inverse @ meat @ inverse))
+
+
+def test_hc3_matches_the_sandwich_formula_at_any_block_size(monkeypatch):
+    """Source: the HC3 estimator of MacKinnon & White (1985) written out per replicate (``_sandwich_hc3``);
+    the blocks of replicates are an implementation detail, so one-replicate blocks give the same numbers."""
+    from workbench.engine import robust
+
+    X, y = _draw(12, R=7, n=60)
+    coef, se, failed = ols_hc3_batch(X, y)
+    assert not failed.any()
+    for r in range(7):
+        ref_coef, ref_se = _sandwich_hc3(X[r], y[r])
+        np.testing.assert_allclose(coef[r], ref_coef, rtol=1e-10, atol=1e-12)
+        np.testing.assert_allclose(se[r], ref_se, rtol=1e-10)
+    monkeypatch.setattr(robust, "CACHE_BYTES", 1)
+    coef_small, se_small, _ = ols_hc3_batch(X, y)
+    np.testing.assert_allclose(coef_small, coef, rtol=1e-13, atol=1e-15)
+    np.testing.assert_allclose(se_small, se, rtol=1e-13)
+
+
+def test_exactly_singular_and_non_finite_designs_fail_quietly(capfd):
+    """Common practice, no source: an exactly singular cross-product matrix (a zero pivot, which makes
+    LAPACK's inverse raise for the whole batch) or non-finite data fail their replicate only, with nothing
+    printed by the linear algebra."""
+    X, y = _draw(13, R=5, n=30)
+    X = np.ascontiguousarray(X)
+    X[1, :, 2] = 2.0 * X[1, :, 0]  # a column exactly twice the intercept: X'X exactly singular
+    X[2, :, 1] = 0.0  # a column of zeros
+    X[3, 0, 1] = np.inf
+    y[4, 3] = np.nan
+    coef, se, failed = ols_hc3_batch(X, y)
+    fit = fit_logit_batch(X, y)
+    assert failed.tolist() == [False, True, True, True, True]
+    assert fit.failed.tolist() == [False, True, True, True, True]
+    assert np.isfinite(coef[0]).all() and np.isnan(se[1:]).all()
+    out, err = capfd.readouterr()
+    assert out == "" and err == ""
