@@ -60,9 +60,10 @@ def main(argv=None) -> None:
         path.write_text(scenario_text(args.variables, args.binary), encoding="utf-8")
         code = (
             "import resource, sys, time; from workbench.cli import main; t = time.perf_counter(); "
-            f"rc = main(['check', {str(path)!r}]); "
+            f"c = time.process_time(); rc = main(['check', {str(path)!r}]); "
             "print('SECONDS', time.perf_counter() - t, 'MAXRSS_KB', "
-            "resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, 'RC', rc, file=sys.stderr)"
+            "resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, 'RC', rc, 'CPU', time.process_time() - c, "
+            "file=sys.stderr)"
         )
         start = time.perf_counter()
         done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=False)
@@ -72,9 +73,10 @@ def main(argv=None) -> None:
         print(done.stderr)
         raise SystemExit(1)
     parts = line[-1].split()
-    seconds, peak_kb = float(parts[1]), int(parts[3])
+    seconds, peak_kb, cpu = float(parts[1]), int(parts[3]), float(parts[7])
     print(
-        f"check, {args.variables} variables ({args.binary} binary): {seconds:.2f} s inside check "
+        f"check, {args.variables} variables ({args.binary} binary): {seconds:.2f} s inside check, "
+        f"{cpu:.2f} s CPU "
         f"({wall:.2f} s with start-up), peak {peak_kb / 1024:.0f} MiB (targets <= 5 s, <= 400 MB)"
     )
 

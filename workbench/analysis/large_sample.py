@@ -38,6 +38,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
+import pandas as pd
 
 from workbench.engine.threads import blas_threads
 from workbench.engine.truth import estimand, model_kind, true_effect
@@ -120,12 +121,30 @@ def classical_to_sandwich(X: np.ndarray, y: np.ndarray) -> float:
     >>> bool(classical_to_sandwich(X, y) < 0.7)
     True
     """
-    xtx_inv = np.linalg.inv(X.T @ X)
-    beta = xtx_inv @ (X.T @ y)
-    e = y - X @ beta
-    n, p = X.shape
-    classical = (e @ e) / (n - p) * xtx_inv[1, 1]
-    meat = (X * (e**2)[:, None]).T @ X
+    return _ratio_in_blocks(lambda a, b: (X[a:b], y[a:b]), len(y))
+
+
+_RATIO_BLOCK = 2**15
+
+
+def _ratio_in_blocks(block, n: int) -> float:
+    """:func:`classical_to_sandwich` from row blocks ``block(start, stop) -> (X, y)``: two passes, first the
+    cross-products, then the residuals' sums, so no product of all rows is ever held."""
+    xtx, xty = 0.0, 0.0
+    for a in range(0, n, _RATIO_BLOCK):
+        Xb, yb = block(a, min(a + _RATIO_BLOCK, n))
+        xtx = xtx + Xb.T @ Xb
+        xty = xty + Xb.T @ yb
+    xtx_inv = np.linalg.inv(xtx)
+    beta = xtx_inv @ xty
+    ee, meat = 0.0, 0.0
+    for a in range(0, n, _RATIO_BLOCK):
+        Xb, yb = block(a, min(a + _RATIO_BLOCK, n))
+        e = yb - Xb @ beta
+        ee += float(e @ e)
+        meat = meat + (Xb * (e**2)[:, None]).T @ Xb
+    p = xtx_inv.shape[0]
+    classical = ee / (n - p) * xtx_inv[1, 1]
     sandwich = (xtx_inv @ meat @ xtx_inv)[1, 1]
     return float(np.sqrt(classical / sandwich))
 
@@ -151,7 +170,16 @@ def simulated_large_sample(scenario: Scenario) -> dict[str, LargeSample]:
     """
     # the simulation engine is loaded only for scenarios without a closed form
     from workbench.analysis.estimate import estimate
-    from workbench.engine.generate import draw
+    from workbench.engine.generate import draw_rows
+    from workbench.engine.streams import generator
+
+    def draw(sc: Scenario, n: int, seed) -> pd.DataFrame:
+        # the rows of engine.generate.draw (same stream), framed without a copy of the (variables, rows)
+        # array the engine fills
+        rows = draw_rows(sc, n, 1, generator(seed))[0]
+        df = pd.DataFrame(rows, columns=sc.names, copy=False)
+        df.attrs["latent"] = list(sc.latent_names)
+        return df
 
     with blas_threads():  # many small least-squares fits: one BLAS thread (engine/threads.py)
         return _simulated_large_sample(scenario, draw, estimate)
@@ -175,8 +203,13 @@ def _simulated_large_sample(scenario: Scenario, draw, estimate) -> dict[str, Lar
         truth = true_effect(scenario, scale)
         ratio = None
         if _plain_ols(s, binary):
-            X = np.column_stack([np.ones(len(data)), data[[q.exposure, *s.adjust]].to_numpy(float)])
-            ratio = classical_to_sandwich(X, data[q.outcome].to_numpy(float))
+            columns, outcome = [q.exposure, *s.adjust], data[q.outcome].to_numpy(float)
+
+            def block(a, b, columns=columns, outcome=outcome):
+                part = data.iloc[a:b][columns].to_numpy(float)
+                return np.column_stack([np.ones(b - a), part]), outcome[a:b]
+
+            ratio = _ratio_in_blocks(block, len(data))
         sd = float(np.nanstd(estimates[:, j], ddof=1))
         out[s.name] = LargeSample(
             estimate=float(np.nanmean(estimates[:, j])),

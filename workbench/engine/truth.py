@@ -29,7 +29,7 @@ References
 from __future__ import annotations
 
 import functools
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -132,6 +132,21 @@ def _words(scenario: Scenario, scale: str) -> str:
     return f"{what} {contrast}"
 
 
+def _world_orders(st, x: int, y: int) -> tuple[tuple[int, ...], tuple[int, ...]]:
+    """The evaluation orders of the two worlds: the outcome's ancestors (and itself), then those of them
+    that descend from the exposure (and the exposure), both in the structure's topological order."""
+    ancestors = {y}
+    for j in reversed(st.order):
+        if j in ancestors:
+            ancestors.update(int(i) for i in st.parents[j][0])
+    descendants = {x}
+    for j in st.order:
+        if any(int(i) in descendants for i in st.parents[j][0]):
+            descendants.add(j)
+    first = tuple(j for j in st.order if j in ancestors)
+    return first, tuple(j for j in first if j in descendants)
+
+
 @functools.lru_cache(maxsize=128)
 def simulated_effect(
     variables: tuple, arrows: tuple, exposure: str, outcome: str, scale: str
@@ -166,6 +181,9 @@ def simulated_effect(
         worlds = (("set", 1.0), ("set", 0.0))
     else:
         worlds = (("shift", 1.0), None)
+    # the first world needs only the outcome's ancestors; the second starts from the first world's values
+    # and recomputes only the exposure's descendants among them (the others are the same in both worlds)
+    first, second = _world_orders(st, x, y)
     sums = np.zeros(2)
     cross = np.zeros((2, 2))
     done = 0
@@ -174,14 +192,14 @@ def simulated_effect(
     # (draws, variables) layout, elementwise, but without a strided pass per variable)
     rows = np.empty((st.k, _CHUNK))
     values = np.empty_like(rows)
+    pair = np.empty((2, _CHUNK))
     while done < TRUTH_DRAWS:
         rng.standard_normal(out=z)
         np.copyto(rows, z.T)
-        pair = []
-        for world in worlds:
+        for w, (world, order) in enumerate(zip(worlds, (first, second), strict=True)):
             with np.errstate(over="ignore", under="ignore"):
                 evaluate(
-                    st,
+                    replace(st, order=order),
                     rows,
                     intervention=world,
                     exposure=exposure,
@@ -189,8 +207,7 @@ def simulated_effect(
                     out=values,
                     probability=probability,
                 )
-            pair.append(values[y].copy())
-        pair = np.array(pair)
+            pair[w] = values[y]
         sums += pair.sum(axis=1)
         cross += pair @ pair.T
         done += _CHUNK
