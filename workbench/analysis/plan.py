@@ -13,7 +13,8 @@ mean anything. :func:`plan` answers both for every strategy of a scenario at onc
    simulation at each midpoint with the *same seed* (common random numbers, so that neighbouring sizes share
    their noise and the curve is smooth in n; :mod:`workbench.analysis.plan_search`). When even the smallest
    grid size reaches the target the search continues down to the smallest size every strategy can be fitted
-   at.
+   at. On the raw engine the grid and the bisection first run with a quarter of the replicates, then each
+   bracket's ends are confirmed with the full count (the sequential rule of ``plan_search``).
 3. Power of an *invalid* strategy is the probability of rejecting zero for a biased quantity: it is reported,
    but flagged, and its smallest n is marked as misleading with the reason from the graph analysis. A valid
    strategy that is biased in simulation (:func:`workbench.engine.metrics.is_biased`) or whose intervals cover
@@ -492,8 +493,7 @@ def plan(
     )
     root = seed_sequence(seed)
     planner = Planner(scenario, sizes, replicates, target_power, target_halfwidth, floor, root, progress)
-    for n in sizes:
-        planner.evaluate(n)
+    planner.evaluate_grid()
     found = planner.search()
     return PlanResult(
         title=scenario.title,

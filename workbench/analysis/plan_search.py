@@ -9,11 +9,20 @@ size simulated, each a :class:`Point`). Each target of each strategy is a :class
    ``max(ABSOLUTE_RESOLUTION, RELATIVE_RESOLUTION x n)`` units (:func:`narrow_enough`), simulating each
    midpoint with the plan's one seed (common random numbers: neighbouring sizes share their noise, so the
    curve is smooth in n). A size simulated for one bracket narrows every other bracket it falls into.
+3. On the raw engine (binary outcomes, selections; costly per replicate) the search is sequential
+   (:func:`stage_replicates`): the grid and the bisection run with a quarter of the replicates (whole
+   random-stream blocks, so they are the first replicates of the full run), then each target's final
+   neighbours are simulated with the full count (:meth:`Planner.confirm`); where the full count disagrees,
+   the bracket moves to the next grid size and is bisected again with the full count. The reported n thus
+   rests on full-count runs at both ends of its bracket, as before; grid sizes far from every target keep
+   the quarter count (their ``power_mcse`` says so).
 
 Examples
 --------
 >>> narrow_enough(100, 104), narrow_enough(100, 120), search_steps(100, 200)
 (True, False, 5)
+>>> stage_replicates(2000), stage_replicates(1000), stage_replicates(600)
+(500, 250, 600)
 """
 
 from __future__ import annotations
@@ -27,6 +36,7 @@ import numpy as np
 
 from workbench.analysis.power import analytic_covariance, large_sample
 from workbench.engine.replicates import choose_engine, run_replicates
+from workbench.engine.streams import BLOCK
 from workbench.engine.truth import true_effect
 from workbench.graph import judge, judge_strategy
 from workbench.scenario.model import Scenario
@@ -34,12 +44,14 @@ from workbench.scenario.model import Scenario
 __all__ = [
     "RELATIVE_RESOLUTION",
     "ABSOLUTE_RESOLUTION",
+    "FIRST_STAGE_SHARE",
     "Point",
     "Criterion",
     "Planner",
     "bracket",
     "narrow_enough",
     "search_steps",
+    "stage_replicates",
     "scatter",
     "mean_halfwidth",
     "estimate_correlation",
@@ -49,6 +61,8 @@ RELATIVE_RESOLUTION = 0.02
 """The bisection stops when the bracket is within this share of n ..."""
 ABSOLUTE_RESOLUTION = 5
 """... or within this many units, whichever is larger."""
+FIRST_STAGE_SHARE = 4
+"""On the raw engine the grid and the bisection first run with 1/FIRST_STAGE_SHARE of the replicates."""
 
 
 @dataclass
@@ -167,6 +181,14 @@ def search_steps(low: int, high: int) -> int:
     return steps
 
 
+def stage_replicates(replicates: int) -> int:
+    """Replicates per size while a bracket is wide on the raw engine: a quarter of ``replicates`` in whole
+    random-stream blocks (:data:`~workbench.engine.streams.BLOCK`); ``replicates`` itself when a quarter is
+    less than one block (the search is then not staged)."""
+    rough = (replicates // FIRST_STAGE_SHARE) // BLOCK * BLOCK
+    return rough if rough >= BLOCK else replicates
+
+
 # --------------------------------------------------------------------------------------------------------
 # The planner
 # --------------------------------------------------------------------------------------------------------
@@ -245,10 +267,15 @@ class Planner:
                     )
 
         self.points: dict[int, Point] = {}
+        # sequential rule on the raw engine: the first replicates of the full run while brackets are wide
+        raw = any(choose_engine(scenario, n) != "exact" for n in sizes)
+        self.first_replicates = stage_replicates(replicates) if raw else replicates
+        self.rough: dict[int, Point] = {}
+        self.work = 0  # replicates simulated so far (for the progress)
         self.subsets: dict[tuple[int, ...], Scenario] = {}
         self.runs = 0
         self.engines: set[str] = set()
-        self.runs_planned = len(sizes)
+        self.runs_planned = len(sizes) * self.first_replicates  # replicates planned in all (progress)
         self.reported = 0
 
     # ---- simulation ----------------------------------------------------------------------------------
@@ -258,6 +285,10 @@ class Planner:
         self.reported = done = max(done, self.reported)
         self.progress(int(done), int(max(total, done)))
 
+    def _planned(self, runs: int, replicates: int) -> int:
+        """Replicates planned in all: those done, plus ``runs`` more of ``replicates`` each."""
+        return self.work + runs * replicates
+
     def _subset_scenario(self, subset: tuple[int, ...]) -> Scenario:
         if len(subset) == len(self.names):
             return self.scenario
@@ -266,25 +297,27 @@ class Planner:
             self.subsets[subset] = dataclasses.replace(self.scenario, strategies=strategies)
         return self.subsets[subset]
 
-    def evaluate(self, n: int, strategies=None) -> Point:
-        """Simulate ``replicates`` studies of ``n`` units with the plan's one seed and score the strategies.
+    def evaluate(self, n: int, strategies=None, replicates: int | None = None) -> Point:
+        """Simulate ``replicates`` (default the plan's) studies of ``n`` units with the plan's one seed and
+        score the strategies.
 
         ``strategies`` (indices) limits the fits when the raw engine runs: its data do not depend on which
         strategies are fitted, so a subset gives the same numbers for those strategies at a fraction of the
         cost. The exact engine's draws depend on the variables the strategies use, and it is cheap, so it
-        always fits them all.
+        always fits them all. Runs with fewer replicates than the plan's are kept apart (:attr:`rough`).
         """
         S = len(self.names)
+        R = self.replicates if replicates is None else replicates
+        store = self.points if R == self.replicates else self.rough
         subset = range(S) if strategies is None or choose_engine(self.scenario, n) == "exact" else strategies
-        have = self.points.get(n)
+        have = store.get(n)
         subset = tuple(sorted(i for i in set(subset) if have is None or not have.fitted[i]))
         if not subset:
             return have
-        R = self.replicates
-        base = self.runs * R
+        base = self.work
 
         def inner(done, total):
-            self._report(base + int(R * done / total if total else R), self.runs_planned * R)
+            self._report(base + int(R * done / total if total else R), self.runs_planned)
 
         arrays = run_replicates(
             self._subset_scenario(subset),
@@ -294,6 +327,21 @@ class Planner:
             alpha=self.alpha,
             progress=inner if self.progress else None,
         )
+        point = self._score(n, subset, arrays)
+        self.engines.add(str(arrays.engine))
+        if have is None:
+            store[n] = have = point
+        else:
+            have.merge(point)
+        self.runs += 1
+        self.work += R
+        self.runs_planned = max(self.runs_planned, self.work)
+        self._report(self.work, self.runs_planned)
+        return have
+
+    def _score(self, n: int, subset: tuple[int, ...], arrays) -> Point:
+        """The :class:`Point` of the strategies ``subset`` fitted in ``arrays``."""
+        S = len(self.names)
         index = list(subset)
         self.strategy_truth[index] = arrays.truth
         for i, words in zip(index, arrays.estimand, strict=True):
@@ -312,7 +360,7 @@ class Planner:
             correlation = estimate_correlation(arrays.estimate, arrays.also_estimate[:, :, columns])
         fitted = np.zeros(S, dtype=bool)
         fitted[index] = True
-        point = Point(
+        return Point(
             n,
             fitted,
             {key: scatter(values, index, S) for key, values in measures.items()},
@@ -321,15 +369,12 @@ class Planner:
             scatter(also_halfwidth, index, S),
             scatter(correlation, index, S),
         )
-        self.engines.add(str(arrays.engine))
-        if have is None:
-            self.points[n] = have = point
-        else:
-            have.merge(point)
-        self.runs += 1
-        self.runs_planned = max(self.runs_planned, self.runs)
-        self._report(self.runs * R, self.runs_planned * R)
-        return have
+
+    def evaluate_grid(self) -> None:
+        """Simulate every grid size (with the first-stage count on the raw engine)."""
+        self.runs_planned = len(self.sizes) * self.first_replicates
+        for n in self.sizes:
+            self.evaluate(n, replicates=self.first_replicates)
 
     # ---- the search for the smallest n ---------------------------------------------------------------
     def criteria(self) -> list[Criterion]:
@@ -346,33 +391,102 @@ class Planner:
         return out
 
     def search(self) -> dict[tuple, Criterion]:
-        """Bracket every criterion on the grid, then bisect all open brackets together."""
+        """Bracket every criterion on the grid, then bisect all open brackets together; on the raw engine
+        with the first-stage count, then confirm each bracket with the full count (:meth:`confirm`)."""
         criteria = self.criteria()
+        first = self.first_replicates
+        points = self.points if first == self.replicates else self.rough
         for c in criteria:
-            bracket(c, self.sizes, self.points, self.floor)
+            bracket(c, self.sizes, points, self.floor)
             if not c.done and narrow_enough(c.low, c.high):
                 c.done = True
+        self.bisect(criteria, first)
+        if first != self.replicates:
+            self.confirm(criteria)
+            for n, rough in self.rough.items():
+                if n in self.points:
+                    self.points[n].merge(rough)
+                else:
+                    self.points[n] = rough
+        self._report(self.work, self.work)
+        return {c.key: c for c in criteria}
+
+    def bisect(self, criteria: list[Criterion], replicates: int) -> None:
+        """Bisect every open criterion together with ``replicates`` per size until each is narrow enough."""
+        points = self.points if replicates == self.replicates else self.rough
 
         def inside(c: Criterion) -> list[int]:
-            return [n for n, p in self.points.items() if c.low < n < c.high and p.fitted[c.strategy]]
+            return [n for n, p in points.items() if c.low < n < c.high and p.fitted[c.strategy]]
 
         while open_criteria := [c for c in criteria if not c.done]:
-            self.runs_planned = self.runs + sum(search_steps(c.low, c.high) for c in open_criteria)
+            steps = sum(search_steps(c.low, c.high) for c in open_criteria)
+            self.runs_planned = self._planned(steps, replicates)
             wanted: dict[int, set[int]] = {}
             for c in open_criteria:
                 # a size already simulated inside the bracket (for another criterion) narrows it for free
                 if not inside(c):
                     wanted.setdefault((c.low + c.high) // 2, set()).add(c.strategy)
             for n in sorted(wanted):
-                self.evaluate(n, wanted[n])
+                self.evaluate(n, wanted[n], replicates)
             for c in open_criteria:
                 middle = (c.low + c.high) / 2
                 n = min(inside(c), key=lambda m: (abs(m - middle), m))
-                if c.reached(self.points[n]):
+                if c.reached(points[n]):
                     c.high = n
                 else:
                     c.low = n
                 c.done = narrow_enough(c.low, c.high)
-        done = self.runs * self.replicates
-        self._report(done, done)
-        return {c.key: c for c in criteria}
+
+    def confirm(self, criteria: list[Criterion]) -> None:
+        """Check each bracket's ends with the full count; move a bracket whose ends disagree (up when its
+        upper end falls short, down when its lower end reaches) by twice its width, until its ends agree,
+        then bisect it again with the full count."""
+        pending = list(criteria)
+        for _ in range(64):  # a bracket's width doubles at each move and it never leaves the grid
+            if not pending:
+                break
+            self.runs_planned = self._planned(2 * len(pending), self.replicates)
+            ends: dict[int, set[int]] = {}
+            for c in pending:
+                for n in (c.low, self.sizes[-1] if c.high is None else c.high):
+                    if n >= self.floor:
+                        ends.setdefault(n, set()).add(c.strategy)
+            for n in sorted(ends):
+                self.evaluate(n, ends[n])
+            moved = [c for c in pending if self._move(c)]
+            # ends that agree: bisect with the full count (a bracket widened by moves is narrowed again)
+            agreed = [c for c in pending if c not in moved and c.high is not None]
+            for c in agreed:
+                c.done = narrow_enough(c.low, c.high)
+            self.bisect(agreed, self.replicates)
+            pending = [c for c in moved if c.high is not None]
+
+    def _move(self, c: Criterion) -> bool:
+        """Move ``c``'s bracket where the full count at its ends says; True if it moved.
+
+        The move is a step of twice the bracket's width (at least the resolution; so the width doubles with
+        each move in one direction), never past the next grid size."""
+        points = self.points
+        if c.high is None:
+            if not c.reached(points[self.sizes[-1]]):
+                return False  # not reached on the grid, as the first stage found
+            below = [m for m in self.sizes if m < self.sizes[-1]]
+            c.high, c.low = self.sizes[-1], below[-1] if below else self.floor - 1
+            c.below_grid = False
+            return True
+        step = 2 * max(c.high - c.low, ABSOLUTE_RESOLUTION, int(RELATIVE_RESOLUTION * c.high))
+        if not c.reached(points[c.high]):
+            above = [m for m in self.sizes if m > c.high]
+            c.low = c.high
+            if not above:
+                c.high, c.done = None, True
+                return False
+            c.high = min(above[0], c.high + step)
+            return True
+        if c.low >= self.floor and c.reached(points[c.low]):
+            below = [m for m in self.sizes if m < c.low]
+            c.high = c.low
+            c.low = max(below[-1] if below else self.floor - 1, c.low - step)
+            c.below_grid = c.low < self.floor and self.sizes[0] > self.floor
+            return True
+        return False
