@@ -21,9 +21,9 @@ import platform
 import subprocess
 import sys
 import textwrap
-import time
 
 import numpy as np
+from engine import best_of  # the shared helper of benchmarks/engine.py
 from scipy.optimize import nnls
 
 import workbench as wb
@@ -32,16 +32,6 @@ from workbench.engine.fitplan import fit_plan
 from workbench.engine.replicates import choose_engine
 from workbench.graph.defaults import with_default_strategies
 from workbench.scenario.presets import list_presets
-
-
-def best_of(repeats: int, function) -> float:
-    """The shortest of ``repeats`` wall-clock timings of ``function()``."""
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        function()
-        times.append(time.perf_counter() - start)
-    return min(times)
 
 
 def settings(quick: bool):

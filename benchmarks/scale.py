@@ -19,6 +19,7 @@ import time
 
 import numpy as np
 import statsmodels.api as sm
+from engine import best_of, mean_and_mcse  # the shared helpers of benchmarks/engine.py
 from threadpoolctl import threadpool_limits
 
 import workbench as wb
@@ -51,15 +52,6 @@ def scenario_text(k: int, seed: int = 12) -> str:
     return "\n".join(lines) + "\n"
 
 
-def best_of(repeats: int, function) -> float:
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        function()
-        times.append(time.perf_counter() - start)
-    return min(times)
-
-
 def statsmodels_loop(sc, n: int, replicates: int, seed: int):
     rows = draw_rows(sc, n, replicates, np.random.default_rng(block_seed(seed, 0)))
     names = sc.names
@@ -74,11 +66,6 @@ def statsmodels_loop(sc, n: int, replicates: int, seed: int):
             estimates[r, s] = fit.params[1]
             fit.bse[1], fit.conf_int(0.05)[1], fit.pvalues[1]
     return (time.perf_counter() - start) / replicates, estimates
-
-
-def mean_and_mcse(values: np.ndarray) -> str:
-    values = values[np.isfinite(values)]
-    return f"{values.mean():.4f} (MCSE {values.std(ddof=1) / np.sqrt(values.size):.4f})"
 
 
 def main(argv=None) -> int:
