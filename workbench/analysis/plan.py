@@ -320,15 +320,6 @@ def _invalid_note(planner: Planner, i: int) -> str:
     )
 
 
-def _model_checks(planner: Planner) -> dict:
-    """check's record of every strategy (its model verdict), by name; computed once per plan."""
-    if not hasattr(planner, "model_checks"):
-        from workbench.analysis.check import check
-
-        planner.model_checks = {c.name: c for c in check(planner.scenario).checks}
-    return planner.model_checks
-
-
 def _bias_note(planner: Planner, i: int) -> str:
     """The note of a valid strategy that is biased in simulation at the largest grid size ('' if it is not,
     by :func:`workbench.engine.metrics.is_biased`)."""
@@ -380,7 +371,7 @@ def _strategy_notes(planner: Planner, i: int, power: Criterion, width: Criterion
             width, "CI half-width", planner.target_halfwidth, largest.halfwidth[i], planner.sizes
         )
     if planner.valid[i]:
-        model = _model_checks(planner).get(planner.names[i])
+        model = planner.model_checks.get(planner.names[i])
         if model is not None and model.model_ok is False:  # check's second verdict: the model itself
             reason = (model.model_reason or "see check").removeprefix("misspecified: ")
             notes.append(f"valid set, misspecified model ({reason}): its power is not a fair guide")

@@ -28,6 +28,7 @@ Examples
 from __future__ import annotations
 
 import dataclasses
+import functools
 from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
@@ -369,6 +370,13 @@ class Planner:
             scatter(also_halfwidth, index, S),
             scatter(correlation, index, S),
         )
+
+    @functools.cached_property
+    def model_checks(self) -> dict:
+        """check's record of every strategy (its model verdict), by name; computed once per plan."""
+        from workbench.analysis.check import check
+
+        return {c.name: c for c in check(self.scenario).checks}
 
     def evaluate_grid(self) -> None:
         """Simulate every grid size (with the first-stage count on the raw engine)."""
