@@ -59,6 +59,11 @@ _PUBLIC = {
     "estimate": "workbench.analysis.estimate",
     "plan": "workbench.analysis.plan",
     "PlanResult": "workbench.analysis.plan",
+    "sensitivity": "workbench.analysis.sensitivity",
+    "sweep": "workbench.analysis.sweep",
+    "SweepResult": "workbench.analysis.sweep_result",
+    "show": "workbench.app.notebook",
+    "SensitivityResult": "workbench.analysis.sensitivity",
 }
 
 __all__ = ["__version__", *_PUBLIC]

@@ -9,7 +9,13 @@
 - :mod:`~workbench.analysis.power`: the analytic power and precision of a regression coefficient;
 - :func:`~workbench.analysis.plan.plan` (:mod:`~workbench.analysis.plan`, with the search in
   :mod:`~workbench.analysis.plan_search`): power and precision curves and the smallest n, as a
-  :class:`~workbench.analysis.plan_result.PlanResult`.
+  :class:`~workbench.analysis.plan_result.PlanResult`;
+- :func:`~workbench.analysis.sensitivity.sensitivity` (:mod:`~workbench.analysis.sensitivity`): what a latent
+  confounder of given strengths (partial R^2) would do to one strategy's estimate, as a
+  :class:`~workbench.analysis.sensitivity_result.SensitivityResult`;
+- :func:`~workbench.analysis.sweep.sweep` (:mod:`~workbench.analysis.sweep`, the parameters in
+  :mod:`~workbench.analysis.sweep_params`): one simulation per cell of a grid of scenario values, on Dask,
+  as a :class:`~workbench.analysis.sweep_result.SweepResult`.
 
 Every verb fills in the default strategies of a scenario that lists none
 (:func:`workbench.graph.defaults.with_default_strategies`); ``simulate`` and ``plan`` take ``seed`` as numpy

@@ -34,11 +34,10 @@ Examples
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import lru_cache
 
 import numpy as np
-import pandas as pd
 
 from workbench.engine.threads import blas_threads
 from workbench.engine.truth import estimand, model_kind, true_effect
@@ -169,58 +168,107 @@ def simulated_large_sample(scenario: Scenario) -> dict[str, LargeSample]:
     dict of str to LargeSample
     """
     # the simulation engine is loaded only for scenarios without a closed form
-    from workbench.analysis.estimate import estimate
     from workbench.engine.generate import draw_rows
     from workbench.engine.streams import generator
 
-    def draw(sc: Scenario, n: int, seed) -> pd.DataFrame:
-        # the rows of engine.generate.draw (same stream), framed without a copy of the (variables, rows)
-        # array the engine fills
-        rows = draw_rows(sc, n, 1, generator(seed))[0]
-        df = pd.DataFrame(rows, columns=sc.names, copy=False)
-        df.attrs["latent"] = list(sc.latent_names)
-        return df
-
-    with blas_threads():  # many small least-squares fits: one BLAS thread (engine/threads.py)
-        return _simulated_large_sample(scenario, draw, estimate)
-
-
-def _simulated_large_sample(scenario: Scenario, draw, estimate) -> dict[str, LargeSample]:
-    q = scenario.question
     m, k = LARGE_SAMPLE_BATCH_N, LARGE_SAMPLE_BATCHES
-    data = draw(scenario, m * k, seed=LARGE_SAMPLE_SEED)
-    names = [s.name for s in scenario.strategies]
-    estimates = np.full((k, len(names)), np.nan)
-    ses = np.full((k, len(names)), np.nan)
-    for b in range(k):
-        fits = estimate(scenario, data.iloc[b * m : (b + 1) * m]).set_index("strategy")
-        estimates[b] = fits.loc[names, "estimate"].to_numpy(float)
-        ses[b] = fits.loc[names, "se"].to_numpy(float)
-    binary = scenario.outcome.is_binary
+    with blas_threads():  # many small least-squares fits: one BLAS thread (engine/threads.py)
+        # the rows of engine.generate.draw (same stream), as the (variables, rows) array the engine fills
+        raw = draw_rows(scenario, m * k, 1, generator(LARGE_SAMPLE_SEED))[0].T
+        binary = scenario.outcome.is_binary
+        plain = [s for s in scenario.strategies if _plain_ols(s, binary)]
+        others = [s for s in scenario.strategies if not _plain_ols(s, binary)]
+        figures = _plain_batches(scenario, raw, plain, m, k) if plain else {}
+        if others:
+            figures.update(_fitted_batches(scenario, raw, others, m, k))
     out = {}
-    for j, s in enumerate(scenario.strategies):
+    for s in scenario.strategies:
+        estimates, ses, ratio = figures[s.name]
         _, scale, _ = estimand(model_kind(s, binary), scenario, s.adjust)
         truth = true_effect(scenario, scale)
-        ratio = None
-        if _plain_ols(s, binary):
-            columns, outcome = [q.exposure, *s.adjust], data[q.outcome].to_numpy(float)
-
-            def block(a, b, columns=columns, outcome=outcome):
-                part = data.iloc[a:b][columns].to_numpy(float)
-                return np.column_stack([np.ones(b - a), part]), outcome[a:b]
-
-            ratio = _ratio_in_blocks(block, len(data))
-        sd = float(np.nanstd(estimates[:, j], ddof=1))
+        sd = float(np.nanstd(estimates, ddof=1))
         out[s.name] = LargeSample(
-            estimate=float(np.nanmean(estimates[:, j])),
-            mcse=sd / np.sqrt(np.isfinite(estimates[:, j]).sum()),
-            se_factor=float(np.nanmean(ses[:, j])) * np.sqrt(m),
+            estimate=float(np.nanmean(estimates)),
+            mcse=sd / np.sqrt(np.isfinite(estimates).sum()),
+            se_factor=float(np.nanmean(ses)) * np.sqrt(m),
             emp_se_factor=sd * np.sqrt(m),
             se_ratio=ratio,
             truth=float(truth.value),
             truth_mcse=float(truth.mcse),
         )
     return out
+
+
+def _fitted_batches(scenario: Scenario, raw: np.ndarray, strategies, m: int, k: int) -> dict:
+    """Batch estimates and SEs of the strategies that need their own fit (restriction, matching, selection,
+    a binary outcome's linear probability or logistic model), by :func:`workbench.analysis.estimate.estimate`
+    on each batch: ``{name: (estimates, ses, None)}``."""
+    import pandas as pd
+
+    from workbench.analysis.estimate import estimate
+
+    # framed without a copy of the (variables, rows) array the engine fills
+    data = pd.DataFrame(raw.T, columns=scenario.names, copy=False)
+    data.attrs["latent"] = list(scenario.latent_names)
+    only = replace(scenario, strategies=tuple(strategies))
+    names = [s.name for s in strategies]
+    estimates = np.full((k, len(names)), np.nan)
+    ses = np.full((k, len(names)), np.nan)
+    for b in range(k):
+        fits = estimate(only, data.iloc[b * m : (b + 1) * m]).set_index("strategy")
+        estimates[b] = fits.loc[names, "estimate"].to_numpy(float)
+        ses[b] = fits.loc[names, "se"].to_numpy(float)
+    return {name: (estimates[:, j], ses[:, j], None) for j, name in enumerate(names)}
+
+
+def _plain_batches(scenario: Scenario, raw: np.ndarray, strategies, m: int, k: int) -> dict:
+    """Batch estimates, classical SEs and the all-units SE ratio of the plain OLS strategies, all from
+    cross-products: one batched product gives every batch's centred cross-product matrix of every variable,
+    and each strategy is then a batched Cholesky fit of its block (:func:`workbench.engine.ols.fit_crossproducts`,
+    the simulation's own fit; the same numbers as a QR fit per batch up to rounding, Golub & Van Loan 2013,
+    sec. 5.3). ``{name: (estimates, ses, ratio)}``."""
+    from workbench.engine.ols import fit_crossproducts
+
+    names = list(scenario.names)
+    q = scenario.question
+    x, y = names.index(q.exposure), names.index(q.outcome)
+    batches = raw.reshape(raw.shape[0], k, m).transpose(1, 0, 2)  # (batch, variable, row), no copy
+    means = batches.mean(axis=2)
+    S = np.matmul(batches, batches.transpose(0, 2, 1))
+    S -= m * means[:, :, None] * means[:, None, :]
+    # all units: the within-batch sums plus the between-batch term, so no large mean is subtracted twice
+    mean = means.mean(axis=0)
+    gap = means - mean
+    total = S.sum(axis=0) + m * np.einsum("bi,bj->ij", gap, gap)
+    out = {}
+    for s in strategies:
+        regressors = [x, *(names.index(v) for v in s.adjust)]
+        fit = fit_crossproducts(S, m, y, regressors, names, wanted=[0])
+        ratio = _sandwich_ratio(raw, total, mean, y, regressors)
+        out[s.name] = (fit.coef[:, 0], fit.se[:, 0], ratio)
+    return out
+
+
+def _sandwich_ratio(raw: np.ndarray, total: np.ndarray, mean: np.ndarray, y: int, regressors) -> float:
+    """:func:`classical_to_sandwich` on all units from their centred cross-products ``total`` and one pass
+    over the rows of ``raw`` (variables, rows) for the residuals. The exposure's coefficient is
+    ``sum_i c_i y_i`` with ``c_i = w . (x_i - mean)``, ``w`` the exposure's row of the inverse centred
+    cross-product matrix, so its HC0 variance is ``sum_i c_i^2 e_i^2`` (White 1980, from memory)."""
+    n = raw.shape[1]
+    cols = np.asarray(regressors)
+    inverse = np.linalg.inv(total[np.ix_(cols, cols)])
+    beta = inverse @ total[cols, y]
+    w = inverse[0]
+    ee, meat = 0.0, 0.0
+    for a in range(0, n, _RATIO_BLOCK):
+        b = min(a + _RATIO_BLOCK, n)
+        X = raw[cols, a:b] - mean[cols, None]
+        e = (raw[y, a:b] - mean[y]) - beta @ X
+        ee += float(e @ e)
+        ce = (w @ X) * e
+        meat += float(ce @ ce)
+    classical = ee / (n - len(cols) - 1) * inverse[0, 0]
+    return float(np.sqrt(classical / meat))
 
 
 SE_RATIO_TOLERANCE = 0.10

@@ -45,6 +45,7 @@ __all__ = [
     "ALSO_COLUMNS",
     "ALSO_SMALLEST_COLUMNS",
     "SEARCH_COLUMNS",
+    "ALL_EFFECTS_COLUMNS",
 ]
 
 TABLE_COLUMNS = [
@@ -59,6 +60,12 @@ TABLE_COLUMNS = [
     "coverage",
     "coverage_mcse",
     "rmse",
+    "power_all",
+    "power_all_mcse",
+    "type_s",
+    "type_s_mcse",
+    "exaggeration",
+    "exaggeration_mcse",
     "mean_ci_halfwidth",
     "analytic_power",
     "analytic_se",
@@ -102,6 +109,8 @@ ALSO_SMALLEST_COLUMNS = ["strategy", "variable", "n_for_power", "valid", "note",
 """Columns of :attr:`PlanResult.also_smallest_n`."""
 SEARCH_COLUMNS = ["n", "strategy", "variable", "power", "power_mcse", "mean_ci_halfwidth", "on_grid"]
 """Columns of :attr:`PlanResult.search`."""
+ALL_EFFECTS_COLUMNS = ["strategy", "n_for_all_effects", "n_for_joint_power", "valid", "note"]
+"""Columns of :attr:`PlanResult.n_for_all_effects`."""
 
 
 def _digits(record) -> int:
@@ -115,6 +124,8 @@ CURVES_TABLE = TableSpec(
         Column("label", "strategy"),
         Column("power", "power (MCSE)", align="right", mcse="power_mcse"),
         Column("analytic_power", "analytic power", number(3), "right"),
+        Column("type_s", "type S (MCSE)", align="right", mcse="type_s_mcse"),
+        Column("exaggeration", "exaggeration (MCSE)", align="right", mcse="exaggeration_mcse"),
         Column("mean_ci_halfwidth", "mean CI half-width", significant(4), "right"),
         Column("analytic_ci_halfwidth", "analytic half-width", significant(4), "right"),
         Column("bias", "bias (MCSE)", align="right", mcse="bias_mcse", digits=_digits),
@@ -158,6 +169,15 @@ ALSO_SMALLEST_TABLE = TableSpec(
     )
 )
 """The smallest n for each ``also`` variable's power."""
+ALL_EFFECTS_TABLE = TableSpec(
+    (
+        Column("label", "strategy"),
+        Column("n_for_all_effects", "n for every effect", integer, "right"),
+        Column("n_for_joint_power", "n for joint power", integer, "right"),
+        Column("note", "note"),
+    )
+)
+"""The smallest n for every effect at once, per strategy."""
 
 
 def _records(frame: pd.DataFrame | None) -> list[dict]:
@@ -241,6 +261,93 @@ class PlanResult:
     search: pd.DataFrame = field(default_factory=pd.DataFrame)
     elapsed: float = 0.0
 
+    @property
+    def n_for_all_effects(self) -> pd.DataFrame:
+        """Per strategy, the smallest n that reaches the target power for the exposure *and* every ``also``
+        effect: :data:`ALL_EFFECTS_COLUMNS`.
+
+        ``n_for_all_effects`` is the largest of the strategy's ``n_for_power`` and its ``also`` variables'
+        ``n_for_power`` (each found by the bisection); missing where one is not reached or the strategy's model
+        lacks a variable. ``n_for_joint_power`` is the smallest n for the joint event that all are significant
+        in the same study (``power_all`` of :attr:`table`): the smallest grid size from which every larger grid
+        size reaches the target (grid resolution, no bisection), and never below ``n_for_all_effects``, since
+        the joint event is rarer than each of its parts. Without ``also`` both equal ``n_for_power``.
+        """
+        also = self.also_smallest_n
+        rows = []
+        for r in _records(self.smallest_n):
+            name, sizes, notes = r["strategy"], [r["n_for_power"]], []
+            mine = [] if also is None else _records(also[also["strategy"] == name])
+            wanted = [] if also is None else sorted(set(also["variable"]))
+            missing = [v for v in wanted if v not in {m["variable"] for m in mine}]
+            if missing:
+                notes.append(f"its model does not estimate {', '.join(missing)}")
+            sizes += [m["n_for_power"] for m in mine]
+            reached = not missing and all(not pd.isna(x) for x in sizes)
+            n_all = int(max(sizes)) if reached else None
+            n_joint = n_all if also is None else self._joint_n(name, n_all)
+            if reached and n_joint is None:
+                notes.append("joint power not reached on the grid")
+            rows.append(
+                {
+                    "strategy": name,
+                    "n_for_all_effects": n_all,
+                    "n_for_joint_power": n_joint,
+                    "valid": r["valid"],
+                    "note": "; ".join(notes),
+                }
+            )
+        frame = pd.DataFrame(rows, columns=ALL_EFFECTS_COLUMNS)
+        for column in ("n_for_all_effects", "n_for_joint_power"):
+            frame[column] = frame[column].astype("Int64")
+        return frame
+
+    def _joint_n(self, strategy: str, floor: int | None) -> int | None:
+        """The smallest grid size from which every larger one reaches the target joint power (at least
+        ``floor``), None when not reached or ``floor`` is None."""
+        if floor is None:
+            return None
+        curve = self.table[self.table["strategy"] == strategy].sort_values("n")
+        reached = (curve["power_all"] >= self.target_power).to_numpy()
+        if not reached.size or not reached[-1]:
+            return None
+        last_miss = [i for i, ok in enumerate(reached) if not ok]
+        first = int(curve["n"].iloc[last_miss[-1] + 1 if last_miss else 0])
+        return max(first, floor)
+
+    def all_effects_sentence(self) -> str:
+        """One sentence: the n needed to detect the exposure's and every ``also`` effect with the target
+        power, for the valid strategy needing the fewest units ('' without ``also`` or when none reaches it).
+
+        Examples
+        --------
+        >>> from workbench import load_preset
+        >>> from workbench.analysis.plan import plan
+        >>> r = plan(load_preset("two_exposures"), sample_sizes=[100, 400], replicates=200, seed=1)
+        >>> r.all_effects_sentence().startswith("To detect both")
+        True
+        """
+        if self.also_table is None or not len(self.also_table):
+            return ""
+        table = self.n_for_all_effects
+        table = table[table["valid"] & table["n_for_all_effects"].notna()]
+        if table.empty:
+            return ""
+        best = table.sort_values("n_for_all_effects", kind="stable").iloc[0]
+        names = [self.exposure, *sorted(set(self.also_table["variable"]))]
+        effects = " and the ".join([", ".join(names[:-1]), names[-1]]) if len(names) > 1 else names[0]
+        both = "both" if len(names) == 2 else "all of"
+        joint = best["n_for_joint_power"]
+        together = (
+            f"; for {'both' if len(names) == 2 else 'all'} to be significant in the same study, about {int(joint)}"
+            if not pd.isna(joint) and int(joint) > int(best["n_for_all_effects"])
+            else ""
+        )
+        return (
+            f"To detect {both} the {effects} effect with {self.target_power:.0%} power you need about "
+            f"{int(best['n_for_all_effects'])} units (strategy {best['strategy']}){together}."
+        )
+
     def to_dict(self) -> dict:
         """The result as JSON-ready nested dicts and lists (NaN as None).
 
@@ -267,6 +374,7 @@ class PlanResult:
         if self.also_table is not None:
             out["also"] = _records(self.also_table)
             out["also_smallest_n"] = _records(self.also_smallest_n)
+        out["n_for_all_effects"] = _records(self.n_for_all_effects)
         return to_jsonable(out)
 
     def to_json(self, indent: int | None = 2) -> str:
@@ -308,6 +416,10 @@ class PlanResult:
             ),
             Table(ALSO_SMALLEST_TABLE, tuple(smallest), "Smallest n for the 'also' variables"),
             Bullets(_notes(smallest), mark="!"),
+            Table(
+                ALL_EFFECTS_TABLE, _labelled(_records(self.n_for_all_effects)), "Smallest n for every effect"
+            ),
+            Paragraph((self.all_effects_sentence(),)),
         ]
 
     def parts(self) -> list:

@@ -28,6 +28,7 @@ import pandas as pd
 
 from workbench.analysis.large_sample import model_word, with_model_verdicts
 from workbench.engine.fitplan import fit_plan, is_valid_set, strategy_is_valid
+from workbench.engine.metrics import variance_inflation
 from workbench.engine.ols import selected_names
 from workbench.engine.replicates import ReplicateArrays, check_arguments, run_replicates
 from workbench.engine.streams import seed_entropy, seed_sequence
@@ -47,6 +48,7 @@ from workbench.formatting.tables import (
     Table,
     TableSpec,
     integer,
+    number,
     render_html,
     render_text,
 )
@@ -89,6 +91,10 @@ TABLE_COLUMNS = [
     "be_coverage_mcse",
     "power",
     "power_mcse",
+    "type_s",
+    "type_s_mcse",
+    "exaggeration",
+    "exaggeration_mcse",
     "failures",
     "failure_reasons",
     "change_in_estimate_median",
@@ -165,6 +171,8 @@ PERFORMANCE_COLUMNS = (
     Column("model_se", "model SE (MCSE)", align="right", mcse="model_se_mcse", digits=_digits),
     Column("coverage", "coverage (MCSE)", align="right", mcse="coverage_mcse"),
     Column("power", "power (MCSE)", align="right", mcse="power_mcse"),
+    Column("type_s", "type S (MCSE)", align="right", mcse="type_s_mcse"),
+    Column("exaggeration", "exaggeration (MCSE)", align="right", mcse="exaggeration_mcse"),
     Column("failures", "fail", integer, "right"),
 )
 PERFORMANCE_TABLE = TableSpec(PERFORMANCE_COLUMNS)
@@ -182,6 +190,7 @@ ALSO_TABLE = TableSpec(
         Column("bias", "bias (MCSE)", align="right", mcse="bias_mcse", digits=_digits),
         Column("coverage", "coverage (MCSE)", align="right", mcse="coverage_mcse"),
         Column("power", "power (MCSE)", align="right", mcse="power_mcse"),
+        Column("vif", "VIF", number(2), "right"),
     )
 )
 """The ``also`` variables' table: one row per strategy and variable it adjusts for."""
@@ -310,8 +319,8 @@ class SimulationResult:
         """Performance of the ``also`` variables' coefficients against their arrows' effects: one row per
         strategy and variable it adjusts for."""
         a = self.arrays
-        rows = []
-        parents = dict(self.scenario.parents(self.scenario.question.outcome))
+        rows, q = [], self.scenario.question
+        parents = dict(self.scenario.parents(q.outcome))
         for v, name in enumerate(a.also_names):
             truth = float(parents.get(name, 0.0))
             m = a.score_also(v, truth)
@@ -323,6 +332,9 @@ class SimulationResult:
                         "strategy": strategy,
                         "variable": name,
                         "truth": truth,
+                        "vif": variance_inflation(
+                            self.scenario, (q.exposure, *self.scenario.strategy(strategy).adjust), name
+                        ),
                         **{
                             key: m[key][s]
                             for key in (
@@ -335,6 +347,10 @@ class SimulationResult:
                                 "coverage_mcse",
                                 "power",
                                 "power_mcse",
+                                "type_s",
+                                "type_s_mcse",
+                                "exaggeration",
+                                "exaggeration_mcse",
                             )
                         },
                     }
@@ -449,6 +465,10 @@ class SimulationResult:
 
     def _repr_html_(self) -> str:
         return self.as_html()
+
+    def also_html(self) -> str:
+        """The ``also`` variables' table as an HTML fragment ('' without ``also``)."""
+        return render_html(self._also_parts())
 
 
 # ---- scoring ------------------------------------------------------------------------------------------------

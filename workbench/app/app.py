@@ -18,6 +18,7 @@ from workbench.app.explain_tab import ExplainView
 from workbench.app.export_tab import ExportView
 from workbench.app.graph_tab import graph_tab
 from workbench.app.plan_tab import SampleSizeView
+from workbench.app.sensitivity_tab import SensitivityView
 from workbench.app.sidebar import Sidebar
 from workbench.app.state import Workbench
 from workbench.formatting.markup import text_html
@@ -60,6 +61,13 @@ class App(pn.viewable.Viewer):
             dynamic=False,
             margin=(0, 6),
         )
+        index = len(self.tabs)  # the Sensitivity tab, last (workbench.app.sensitivity_tab)
+        self.result_views[index] = SensitivityView(workbench=wb)
+        self.tabs.append(("Sensitivity", pn.Column(self.result_views[index], margin=(6, 10))))
+        from workbench.app.sweep_tab import SweepView  # the Sweep tab (issue 15): runs only on its Run button
+
+        self.sweep_view = SweepView(workbench=wb)
+        self.tabs.append(("Sweep", pn.Column(self.sweep_view, margin=(6, 10))))
         self.tabs.param.watch(self._tab_shown, "active")
         self.sidebar = Sidebar(workbench=wb)
 

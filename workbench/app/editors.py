@@ -153,17 +153,17 @@ class ArrowsEditor(pn.viewable.Viewer):
             buttons={"remove": "<span title='delete this arrow'>✕</span>"},
             css_classes=["wb-arrows"],
             max_height=300,
-            width=560,
+            width=500,
         )
         self.table.on_edit(self._edited)
         self.table.on_click(self._clicked)
         names = self.state.scenario.names
-        self.new_from = pn.widgets.Select(options=names, width=150, css_classes=["wb-new-from"])
+        self.new_from = pn.widgets.Select(options=names, width=130, css_classes=["wb-new-from"])
         self.new_to = pn.widgets.Select(
-            options=names, value=names[-1] if names else None, width=150, css_classes=["wb-new-to"]
+            options=names, value=names[-1] if names else None, width=130, css_classes=["wb-new-to"]
         )
-        self.new_effect = pn.widgets.FloatInput(value=0.5, step=0.1, width=90)
-        self.add = pn.widgets.Button(label="Add arrow", width=110, css_classes=["wb-add-arrow"])
+        self.new_effect = pn.widgets.FloatInput(value=0.5, step=0.1, width=80)
+        self.add = pn.widgets.Button(label="Add arrow", width=100, css_classes=["wb-add-arrow"])
         self.add.on_click(
             lambda e: self.state.add_arrow(self.new_from.value, self.new_to.value, self.new_effect.value)
         )
@@ -247,13 +247,13 @@ class ArrowsEditor(pn.viewable.Viewer):
             "Each arrow is a direct causal effect: the change in the effect variable per unit of the cause "
             "(mean scale for a continuous variable, log-odds scale for a binary one). Edit a cell and press "
             "Enter; the graph, roles, verdicts and truth update at once.",
-            width=440,
+            width=360,
             styles=NOTE_STYLE,
         )
         slider_text = pn.pane.Markdown(
             "**Try an effect size**: pick an arrow and drag the slider. On a linear-Gaussian graph "
             "the simulation re-runs when you let go.",
-            width=440,
+            width=360,
             styles=NOTE_STYLE,
         )
         return pn.Row(
@@ -277,7 +277,7 @@ class TomlEditor(pn.viewable.Viewer):
         self.editor = pn.widgets.TextAreaInput(
             value=self.state.text,
             height=420,
-            width=640,
+            width=560,
             css_classes=["wb-toml"],
             stylesheets=[":host textarea {font-family: monospace; font-size: 12px;}"],
         )
@@ -296,7 +296,7 @@ class TomlEditor(pn.viewable.Viewer):
             "The same scenario as a TOML file. Edit and press **Apply text**: the text is parsed and checked; "
             "if it has a mistake the error is shown, your text stays here, and the last valid scenario stays "
             "in effect. Edits in the tables rewrite this text.",
-            width=380,
+            width=320,
             styles=NOTE_STYLE,
         )
         return pn.Row(

@@ -89,7 +89,9 @@ class EstimatesView(TabView):
         figure_rows = [
             pn.Row(pn.pane.Bokeh(a), pn.pane.Bokeh(b))
             for a, b in zip(
-                figures.estimates_figure(result, width=530), figures.se_figure(result, width=530), strict=True
+                figures.estimates_figure(result, width=(MAIN_WIDTH - 30) // 2),
+                figures.se_figure(result, width=(MAIN_WIDTH - 30) // 2),
+                strict=True,
             )
         ]
         intervals = figures.interval_figure(result, width=MAIN_WIDTH - 30, grid=False)
@@ -107,6 +109,7 @@ class EstimatesView(TabView):
             ),
             pn.GridBox(*[pn.pane.Bokeh(f) for f in intervals], ncols=4),
             html_pane(tables.signals_table(result.table) + SIGNALS_NOTE, css_classes=["wb-signals"]),
+            *([html_pane(result.also_html(), css_classes=["wb-also"])] if result.arrays.also_names else []),
         ]
 
     def __panel__(self):

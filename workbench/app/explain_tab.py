@@ -10,7 +10,7 @@ import panel as pn
 from workbench.app.widgets import MAIN_WIDTH, NOTE_STYLE, TabView, placeholder
 from workbench.formatting.markup import text_html, text_markdown
 from workbench.report.dataset_figures import dataset_groups, dataset_scatter
-from workbench.report.explain import ASSUMPTION_NOTE, explain
+from workbench.report.explain import ASSUMPTION_NOTE, also_sentences, explain
 
 __all__ = ["ExplainView", "story_html"]
 
@@ -73,6 +73,11 @@ class ExplainView(TabView):
             pn.pane.HTML(story_html(story), sizing_mode="stretch_width", css_classes=["wb-story"])
             for story in explain(report, result)
         ]
+        also = also_sentences(result)
+        if also:
+            cards.append(
+                pn.pane.Markdown("\n\n".join(map(text_markdown, also)), css_classes=["wb-also-stories"])
+            )
         if result is None:
             cards.append(
                 placeholder(

@@ -1,4 +1,5 @@
-"""The Export tab: the standalone HTML report (:func:`workbench.report.html.build_report`), the results as
+"""The Export tab: the standalone HTML report (:func:`workbench.report.html.build_report`), the one-page
+stakeholder summary (:func:`workbench.report.summary.build_summary`), the graph as SVG and PNG, the results as
 CSV (as the command line writes them), and what the report will hold. Only results of the scenario in
 effect are offered: a result of an earlier version is not exported.
 """
@@ -15,7 +16,9 @@ import param
 from workbench.app.settings import sizes_text
 from workbench.app.state import Workbench
 from workbench.app.widgets import NOTE_STYLE, PRIMARY_BUTTON_CSS, slug
+from workbench.report.graph_image import graph_png, graph_svg
 from workbench.report.html import build_report
+from workbench.report.summary import build_summary
 
 __all__ = ["ExportView", "result_csv"]
 
@@ -37,7 +40,8 @@ def result_csv(result) -> io.StringIO:
 
 
 class ExportView(pn.viewable.Viewer):
-    """Downloads: the standalone HTML report, results as CSV, the scenario as TOML."""
+    """Downloads: the standalone HTML report, the one-page summary, the graph as SVG and PNG, results as
+    CSV."""
 
     workbench = param.ClassSelector(class_=Workbench)
 
@@ -55,6 +59,16 @@ class ExportView(pn.viewable.Viewer):
             # action in the primary colour ourselves
             stylesheets=[PRIMARY_BUTTON_CSS],
         )
+        self.summary = pn.widgets.FileDownload(
+            callback=self._summary,
+            filename="workbench_summary.html",
+            label="One-page summary for stakeholders (HTML)",
+            embed=False,
+            width=320,
+            css_classes=["wb-export-summary"],
+        )
+        self.graph_svg = self._csv_button(self._graph_svg, "graph.svg", "The graph as a picture (SVG)")
+        self.graph_png = self._csv_button(self._graph_png, "graph.png", "The graph as a picture (PNG)")
         self.performance = self._csv_button(
             self._performance, "performance.csv", "Performance table (CSV)", ["wb-export-csv"]
         )
@@ -83,6 +97,7 @@ class ExportView(pn.viewable.Viewer):
         wb = self.workbench
         simulation, planning = self._current(wb.simulation), self._current(wb.planning)
         self.performance.disabled = simulation is None
+        self.summary.disabled = simulation is None
         self.estimates.disabled = simulation is None
         self.plan.disabled = planning is None
         lines = [
@@ -118,6 +133,29 @@ class ExportView(pn.viewable.Viewer):
         self.report.filename = f"{slug(wb.scenario.title)}_report.html"
         return io.StringIO(text)
 
+    def _summary(self):
+        wb = self.workbench
+        result = self._current(wb.simulation)
+        if result is None:
+            return io.StringIO("")
+        self.summary.filename = f"{slug(wb.scenario.title)}_summary.html"
+        text = build_summary(
+            wb.scenario, result, plan=self._current(wb.planning), report=wb.scenario_state.report
+        )
+        return io.StringIO(text)
+
+    def _roles(self):
+        report = self.workbench.scenario_state.report
+        return report.roles if report is not None else None
+
+    def _graph_svg(self):
+        self.graph_svg.filename = f"{slug(self.workbench.scenario.title)}_graph.svg"
+        return io.StringIO(graph_svg(self.workbench.scenario, self._roles()))
+
+    def _graph_png(self):
+        self.graph_png.filename = f"{slug(self.workbench.scenario.title)}_graph.png"
+        return io.BytesIO(graph_png(self.workbench.scenario, self._roles()))
+
     def _performance(self):
         return result_csv(self._current(self.workbench.simulation))
 
@@ -132,8 +170,20 @@ class ExportView(pn.viewable.Viewer):
         text = pn.pane.Markdown(
             "The **HTML report** is one file that opens in any browser with no server and no network: the "
             "graph, the verdicts, the tables, the figures, the explanations, the scenario text, the settings, "
-            "the seed and the version. The CSV files hold the numbers behind the tables.",
+            "the seed and the version. The **one-page summary** is for people who were not in the room: the "
+            "question, the graph, one plain sentence per strategy, the sample size needed and the assumptions; "
+            "it prints on one A4 page. The graph pictures go into slides. The CSV files hold the numbers behind "
+            "the tables.",
             width=700,
             styles=NOTE_STYLE,
         )
-        return pn.Column(text, self.status, self.report, self.performance, self.estimates, self.plan)
+        return pn.Column(
+            text,
+            self.status,
+            self.report,
+            self.summary,
+            pn.Row(self.graph_svg, self.graph_png, margin=0),
+            self.performance,
+            self.estimates,
+            self.plan,
+        )

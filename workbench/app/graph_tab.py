@@ -15,6 +15,7 @@ from workbench.app.widgets import ErrorBox
 from workbench.formatting.markup import text_html
 from workbench.report.explain import consequences_html
 from workbench.report.graph_drawing import graph_figure
+from workbench.scenario.write import dumps_tables, scenario_to_dict
 
 __all__ = ["GraphView", "graph_tab", "verdict_html"]
 
@@ -80,6 +81,10 @@ class GraphView(pn.viewable.Viewer):
         }
         for key, selector in selectors.items():
             selector.param.watch(lambda e, key=key: self._question_edited(key, e.new), "value")
+        self.also = pn.widgets.MultiChoice(
+            label="Also estimate the direct effects of", width=300, css_classes=["wb-also"]
+        )
+        self.also.param.watch(self._also_edited, "value")
         self.highlight = pn.widgets.Select(
             label="Show the paths of strategy", width=300, css_classes=["wb-highlight"]
         )
@@ -98,6 +103,17 @@ class GraphView(pn.viewable.Viewer):
             return
         if getattr(self.state.scenario.question, key) != value:
             self.state.set_question(**{key: value})
+
+    def _also_edited(self, event):
+        """``question.also`` from the multi-choice: the scenario's tables with the new list, applied as text."""
+        sc = self.state.scenario
+        if self._refreshing or list(event.new or []) == list(sc.question.also):
+            return
+        data = scenario_to_dict(sc)
+        data["question"].pop("also", None)
+        if event.new:
+            data["question"]["also"] = list(event.new)
+        self.state.apply_text(dumps_tables(data))
 
     def _highlight_chosen(self, event):
         if not self._refreshing:
@@ -128,6 +144,8 @@ class GraphView(pn.viewable.Viewer):
             self.target.value = q.target
             self.scale.value = q.scale
             self.scale.disabled = not sc.outcome.is_binary
+            self.also.options = [v for v in sc.observed_names if v not in (q.exposure, q.outcome)]
+            self.also.value = list(q.also)
             self.highlight.options = [_NONE] + [s.name for s in sc.strategies]
             self.highlight.value = self.state.selected_strategy or _NONE
         finally:
@@ -149,6 +167,7 @@ class GraphView(pn.viewable.Viewer):
             self.truth,
             pn.Row(self.exposure, self.outcome, margin=0),
             pn.Row(self.target, self.scale, margin=0),
+            self.also,
             ErrorBox(state=self.state, sections=["question"], width=300),
             self.highlight,
             self.verdict,

@@ -16,7 +16,7 @@ from workbench.app.widgets import (
     html_pane,
 )
 from workbench.formatting.markup import text_markdown
-from workbench.report import figures, tables
+from workbench.report import figures, plan_figures, tables
 
 __all__ = ["SampleSizeView"]
 
@@ -85,6 +85,9 @@ class SampleSizeView(TabView):
             ),
             html_pane(tables.smallest_n_table(result.smallest_n), css_classes=["wb-smallest-n"]),
             pn.Row(pn.pane.Bokeh(bias), pn.pane.Bokeh(emp_se)),
+            pn.pane.Bokeh(
+                plan_figures.precision_figure(result, width=MAIN_WIDTH - 40), css_classes=["wb-precision"]
+            ),
         ]
 
     @staticmethod
@@ -105,6 +108,12 @@ class SampleSizeView(TabView):
         ]
         if result.also_smallest_n is not None and len(result.also_smallest_n):
             panes.append(html_pane(tables.also_smallest_n_table(result.also_smallest_n)))
+        sentence = result.all_effects_sentence()
+        if sentence:
+            panes.append(
+                pn.pane.Markdown(text_markdown(sentence), css_classes=["wb-all-effects"], margin=(5, 10))
+            )
+        panes.append(pn.pane.Bokeh(plan_figures.joint_power_figure(result, width=MAIN_WIDTH - 40)))
         return panes
 
     def __panel__(self):

@@ -13,6 +13,7 @@ the page makes no request to any other host.
 from __future__ import annotations
 
 import argparse
+import signal
 import socket
 import sys
 
@@ -25,7 +26,12 @@ __all__ = [
     "allowed_hosts",
     "request_allowed",
     "guard_hosts",
+    "check_address",
+    "EXIT_STOPPED",
 ]
+
+#: The exit code of a dashboard stopped by Ctrl-C (as every command stopped by Ctrl-C: 128 + SIGINT).
+EXIT_STOPPED = 130
 
 LOOPBACK = ("127.0.0.1", "localhost", "::1")
 #: The largest file the page sends to the server at all; a larger one is refused in the browser, before a
@@ -148,6 +154,63 @@ def guard_hosts(tornado_app, allowed) -> None:
     tornado_app.find_handler = find_guarded_handler
 
 
+def check_address(address: str, port: int) -> None:
+    """Refuse, before anything is printed, an address this machine cannot serve on or a port already taken.
+
+    The address must resolve and be one of this machine's (a test socket is bound to it and closed at once).
+
+    Raises
+    ------
+    UsageError
+        ``--address: 'no.such.host' is not a name or address this machine knows``, ``--address: 10.9.9.9 is
+        not an address of this machine``, ``--port: 5006 is already in use on 127.0.0.1 (another dashboard?
+        choose another --port)``.
+
+    Examples
+    --------
+    >>> check_address("not an address", 5006)
+    Traceback (most recent call last):
+    ...
+    workbench.errors.UsageError: --address: 'not an address' is not a name or address this machine knows
+    >>> taken = socket.socket(); taken.bind(("127.0.0.1", 0)); taken.listen()
+    >>> check_address("127.0.0.1", taken.getsockname()[1])  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    workbench.errors.UsageError: --port: ... is already in use on 127.0.0.1 (another dashboard? choose another --port)
+    >>> taken.close()
+    """
+    import errno
+
+    from workbench.errors import UsageError
+
+    try:
+        found = socket.getaddrinfo(address or None, port, type=socket.SOCK_STREAM, flags=socket.AI_PASSIVE)
+    except (socket.gaierror, UnicodeError):
+        raise UsageError(
+            f"{address!r} is not a name or address this machine knows", where="--address"
+        ) from None
+    for family, kind, proto, _, where in found:
+        probe = socket.socket(family, kind, proto)
+        try:
+            if family == socket.AF_INET6:
+                probe.setsockopt(socket.IPPROTO_IPV6, socket.IPV6_V6ONLY, 1)
+            probe.setsockopt(socket.SOL_SOCKET, socket.SO_REUSEADDR, 1)  # as the server binds it
+            probe.bind(where)
+        except OSError as exc:
+            if exc.errno == errno.EADDRINUSE:
+                raise UsageError(
+                    f"{port} is already in use on {address} (another dashboard? choose another --port)",
+                    where="--port",
+                ) from None
+            if exc.errno == errno.EADDRNOTAVAIL:
+                raise UsageError(f"{address} is not an address of this machine", where="--address") from None
+            raise UsageError(
+                f"cannot serve on {address}:{port}: {exc.strerror or exc}", where="--address"
+            ) from None
+        finally:
+            probe.close()
+
+
 def serve(
     preset: str | None = None,
     port: int = 5006,
@@ -175,6 +238,10 @@ def serve(
     ------
     ScenarioError
         When ``preset`` names no built-in preset (checked before the server starts).
+    UsageError
+        When the address or the port cannot be served (:func:`check_address`, before the URL is printed).
+    KeyboardInterrupt
+        After Ctrl-C has stopped the server (the command line then exits with :data:`EXIT_STOPPED`).
 
     Examples
     --------
@@ -188,6 +255,7 @@ def serve(
 
     preset = preset or DEFAULT_PRESET
     preset_text(preset)  # fail early, with the list of names, on an unknown preset
+    check_address(address, port)  # before the warning and the URL: an address that cannot be served fails
     if address not in LOOPBACK:
         print(
             f"warning: serving on {address}: anyone who can reach this address can use the dashboard and run "
@@ -211,14 +279,28 @@ def serve(
     print(f"workbench dashboard: http://{_host_name(address)}:{server.port}/  (Ctrl-C to stop)", flush=True)
     if show:
         server.io_loop.add_callback(server.show, "/")
+    stopped = []
+
+    def on_ctrl_c(*_):  # in place of Panel's handler, which stops the loop as if nothing had happened
+        stopped.append(True)
+        server.io_loop.asyncio_loop.call_soon_threadsafe(server.io_loop.stop)
+
+    try:
+        signal.signal(signal.SIGINT, on_ctrl_c)
+    except ValueError:  # not the main thread: no handler of ours
+        pass
     server.start()
     from workbench.engine.threads import blas_threads
 
     try:
         with blas_threads():  # every session's fits: one BLAS thread each (engine/threads.py)
             server.io_loop.start()
-    except RuntimeError:  # the loop was stopped by Ctrl-C
+    except RuntimeError:  # the loop was stopped
         pass
+    finally:
+        server.stop()
+    if stopped:  # Ctrl-C: the caller says so and exits with EXIT_STOPPED
+        raise KeyboardInterrupt
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -250,7 +332,8 @@ def main(argv: list[str] | None = None) -> int:
         print(f"error: {exc}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
-        return 0
+        print("dashboard stopped", file=sys.stderr)
+        return EXIT_STOPPED
     return 0
 
 

@@ -5,6 +5,8 @@ and the buttons that add a strategy or the minimal and optimal valid sets.
 
 from __future__ import annotations
 
+import re
+
 import panel as pn
 import param
 
@@ -13,7 +15,15 @@ from workbench.app.widgets import MAIN_WIDTH, NOTE_STYLE, ErrorBox
 from workbench.formatting.markup import text_html
 from workbench.scenario.edit import restriction_toml
 
-__all__ = ["StrategiesEditor", "SELECTION_CHOICES", "verdict_badge", "valid_sets_html"]
+__all__ = [
+    "StrategiesEditor",
+    "SELECTION_CHOICES",
+    "verdict_badge",
+    "valid_sets_html",
+    "set_name",
+    "follows_its_set",
+    "fresh_set_name",
+]
 
 #: The editor's choices of how the adjustment set is chosen (label -> value).
 SELECTION_CHOICES = {
@@ -21,6 +31,58 @@ SELECTION_CHOICES = {
     "keep if significant (p < alpha)": "p_value",
     "keep if change > 10%": "change_in_estimate",
 }
+
+
+#: The generic names the dashboard and the default strategies gave before names followed the set; a strategy
+#: still called one of them was not named by a person, so its name follows its set too.
+_GENERIC_NAME = re.compile(r"(strategy|minimal|optimal|set|all_observed)(_\d+)?")
+
+
+def set_name(adjust) -> str:
+    """The name of a fixed adjustment set, as the command line's default strategies are named
+    (:func:`workbench.graph.defaults.default_strategies`): ``unadjusted`` or ``adjust_`` and the covariates.
+
+    Examples
+    --------
+    >>> set_name([]), set_name(["order_volume"]), set_name(["site_size", "order_volume"])
+    ('unadjusted', 'adjust_order_volume', 'adjust_site_size_order_volume')
+    >>> set_name(["a_very_long_covariate_name", "another_long_covariate_name", "third", "fourth"])
+    'adjust_a_very_long_covariate_name_and_3_more'
+    """
+    if not adjust:
+        return "unadjusted"
+    name = "adjust_" + "_".join(adjust)
+    return name if len(name) <= 60 else f"adjust_{adjust[0]}_and_{len(adjust) - 1}_more"
+
+
+def follows_its_set(name: str, adjust) -> bool:
+    """Whether a strategy's name was chosen by the dashboard rather than a person: the name of its set (with a
+    number after it when that was taken) or a generic name. Such a name follows the set when it changes.
+
+    Examples
+    --------
+    >>> follows_its_set("adjust_skill", ["skill"]), follows_its_set("adjust_skill_2", ["skill"])
+    (True, True)
+    >>> follows_its_set("optimal", ["skill"]), follows_its_set("my_model", ["skill"])
+    (True, False)
+    """
+    base = set_name(adjust)
+    return bool(re.fullmatch(re.escape(base) + r"(_\d+)?", name) or _GENERIC_NAME.fullmatch(name))
+
+
+def fresh_set_name(adjust, taken) -> str:
+    """:func:`set_name`, with ``_2``, ``_3``, ... when another strategy has that name already.
+
+    Examples
+    --------
+    >>> fresh_set_name(["skill"], {"unadjusted"}), fresh_set_name([], {"unadjusted", "unadjusted_2"})
+    ('adjust_skill', 'unadjusted_3')
+    """
+    base, i = set_name(adjust), 2
+    chosen = base
+    while chosen in taken:
+        chosen, i = f"{base}_{i}", i + 1
+    return chosen
 
 
 def verdict_badge(valid: bool | None) -> str:
@@ -62,18 +124,47 @@ class StrategiesEditor(pn.viewable.Viewer):
         super().__init__(**params)
         self.rows = pn.Column(margin=0, css_classes=["wb-strategies"])
         self.add = pn.widgets.Button(label="Add strategy", width=140, css_classes=["wb-add-strategy"])
-        self.add.on_click(lambda e: self.state.add_strategy())
+        self.add.on_click(lambda e: self.add_strategy())
         self.suggest = pn.widgets.Button(
             label="Add the minimal and optimal valid sets",
             width=300,
             color="success",
             css_classes=["wb-suggest"],
         )
-        self.suggest.on_click(lambda e: self.state.add_suggested_strategies())
+        self.suggest.on_click(lambda e: self.add_suggested())
         self.sets = pn.pane.HTML("", styles=NOTE_STYLE)
         self._signature = None
         self.state.param.watch(self._refresh, ["scenario", "report"])
         self._refresh()
+
+    def _taken(self, but: str | None = None) -> set[str]:
+        return {s.name for s in self.state.scenario.strategies if s.name != but}
+
+    def add_strategy(self) -> bool:
+        """Add an unadjusted strategy, named as its set is (``unadjusted_2`` when that name is taken)."""
+        binary = self.state.scenario.outcome.is_binary
+        return self.state.add_strategy(fresh_set_name((), self._taken()), model="logit" if binary else "ols")
+
+    def add_suggested(self) -> bool:
+        """Add the minimal and optimal valid sets not yet listed, each named after its covariates."""
+        before = self._taken()
+        if not self.state.add_suggested_strategies():
+            return False
+        for s in self.state.scenario.strategies:
+            if s.name not in before and follows_its_set(s.name, s.adjust):
+                wanted = fresh_set_name(s.adjust, self._taken(but=s.name))
+                if wanted != s.name:
+                    self.state.set_strategy(s.name, new_name=wanted)
+        return True
+
+    def set_adjust(self, name: str, adjust) -> bool:
+        """Change a strategy's set; a name the dashboard gave (:func:`follows_its_set`) follows the new set."""
+        strategy = self.state.scenario.strategy(name)
+        new_name = None
+        if strategy.selection is None and follows_its_set(name, strategy.adjust):
+            wanted = fresh_set_name(list(adjust), self._taken(but=name))
+            new_name = wanted if wanted != name else None
+        return self.state.set_strategy(name, adjust=adjust, new_name=new_name)
 
     def _current_signature(self) -> tuple:
         """What the rows show: they are rebuilt only when it changes (rebuilding loses the focus)."""
@@ -117,60 +208,80 @@ class StrategiesEditor(pn.viewable.Viewer):
         """The inputs of one strategy, each sending its change to the state."""
         state, name = self.state, row["name"]
         binary = state.scenario.outcome.is_binary
-        title = pn.widgets.TextInput(value=name, width=150, css_classes=["wb-strategy-name"])
+        title = pn.widgets.TextInput(value=name, width=140, css_classes=["wb-strategy-name"])
         title.param.watch(lambda e: e.new != name and state.set_strategy(name, new_name=e.new), "value")
         options = state.adjustable
         adjust = pn.widgets.MultiChoice(
             value=[v for v in row["adjust"] if v in options],
             options=options,
-            width=250,
+            width=230,
             placeholder="candidates to choose from" if row["selection"] else "adjust for nothing",
             css_classes=["wb-strategy-adjust"],
         )
-        adjust.param.watch(lambda e: state.set_strategy(name, adjust=e.new), "value")
-        model = pn.widgets.Select(
-            value=row["model"], options=["ols", "logit"] if binary else ["ols"], width=70
-        )
-        model.param.watch(lambda e: state.set_strategy(name, model=e.new), "value")
-        standardize = pn.widgets.Checkbox(
-            label="standardise", value=row["standardize"], disabled=row["model"] != "logit", width=95
-        )
-        standardize.param.watch(lambda e: state.set_strategy(name, standardize=e.new), "value")
-        rule = pn.widgets.Select(
-            value=row["selection"] or "fixed",
-            options=SELECTION_CHOICES,
-            width=175,
-            disabled=binary or row["model"] != "ols",
-            css_classes=["wb-strategy-selection"],
-        )
-        rule.param.watch(lambda e: state.set_strategy(name, selection=e.new), "value")
+        adjust.param.watch(lambda e: self.set_adjust(name, e.new), "value")
+        controls = [title, adjust]
+        if binary:  # a continuous outcome has one model, so no choice is shown
+            model = pn.widgets.Select(
+                value=row["model"], options=["ols", "logit"], width=70, css_classes=["wb-strategy-model"]
+            )
+            model.param.watch(lambda e: state.set_strategy(name, model=e.new), "value")
+            controls.append(model)
+            if row["model"] == "logit":  # standardisation applies to logistic models only
+                standardize = pn.widgets.Checkbox(
+                    label="standardise", value=row["standardize"], width=95, css_classes=["wb-strategy-std"]
+                )
+                standardize.param.watch(lambda e: state.set_strategy(name, standardize=e.new), "value")
+                controls.append(standardize)
+            else:
+                controls.append(pn.Spacer(width=95))
+        else:  # selection rules apply to least squares on a continuous outcome only
+            rule = pn.widgets.Select(
+                value=row["selection"] or "fixed",
+                options=SELECTION_CHOICES,
+                width=170,
+                css_classes=["wb-strategy-selection"],
+            )
+            rule.param.watch(lambda e: state.set_strategy(name, selection=e.new), "value")
+            controls.append(rule)
         restrict = pn.widgets.TextInput(
             value=restriction_toml(row["restrict"]),
             placeholder="keep only: e.g. shift = 0",
-            width=165,
+            width=150,
             css_classes=["wb-strategy-restrict"],
         )
         restrict.param.watch(lambda e: e.new != e.old and state.set_strategy(name, restrict=e.new), "value")
-        remove = pn.widgets.Button(label="Remove", width=75, color="light")
+        remove = pn.widgets.Button(label="Remove", width=70, color="light")
         remove.on_click(lambda e: state.remove_strategy(name))
-        return [title, adjust, model, standardize, rule, restrict, remove]
+        return [*controls, restrict, remove]
+
+    def _header(self) -> pn.Row:
+        """The column names, each in its own cell above its inputs (the cells follow the outcome's kind)."""
+        binary = self.state.scenario.outcome.is_binary
+        parts = [("name", 140), ("adjustment set", 230)]
+        parts += (
+            [("model", 70), ("logistic: standardise", 95)] if binary else [("how the set is chosen", 170)]
+        )
+        parts += [("keep only units with", 150)]
+        style = "font-size:12px;color:#444;line-height:1.2"
+        return pn.Row(
+            *[
+                pn.pane.HTML(f"<div style='{style}'>{text}</div>", width=w, margin=(0, 10))
+                for text, w in parts
+            ],
+            css_classes=["wb-strategies-head"],
+            margin=0,
+        )
 
     def __panel__(self):
-        parts = [
-            "name",
-            "adjustment set",
-            "model",
-            "how the set is chosen",
-            "analyse only units with (restriction)",
-        ]
-        header = pn.pane.HTML(
-            "<div style='font-size:12px;color:#444'>"
-            + " &nbsp;&middot;&nbsp; ".join(parts)
-            + "; below each: its verdict and the reasons</div>"
+        header = pn.bind(lambda _: self._header(), self.state.param.scenario)
+        note = pn.pane.HTML(
+            "<div style='font-size:12px;color:#666'>Below each strategy: its verdict and the reasons. A name "
+            "the dashboard gave follows the adjustment set; a name you type stays.</div>"
         )
         return pn.Column(
             header,
             self.rows,
+            note,
             pn.Row(self.add, self.suggest),
             self.sets,
             ErrorBox(state=self.state, sections=["strategies"]),

@@ -34,8 +34,8 @@ __all__ = [
 
 #: Width of the sidebar, in pixels.
 SIDEBAR_WIDTH = 290
-#: Width of the main column, in pixels.
-MAIN_WIDTH = 1090
+#: Width of the main column, in pixels: the sidebar, this and the margins fit a 1280-pixel window.
+MAIN_WIDTH = 930
 #: Style of the explanatory notes beside the editors and figures.
 NOTE_STYLE = {"color": "#444", "font-size": "13px"}
 #: The primary button colours, for download buttons (Panel draws a FileDownload in the default colour).

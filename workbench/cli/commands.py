@@ -15,10 +15,11 @@ with the estimate in one line unless ``--allow-long`` is given. All of this happ
 from __future__ import annotations
 
 import json
+import sys
 from pathlib import Path
 
 from workbench.cli import EXIT_OK
-from workbench.cli.outputs import check_outputs, deliver
+from workbench.cli.outputs import STDOUT, check_outputs, deliver, write_json
 from workbench.errors import UsageError
 
 __all__ = ["check", "presets", "run", "plan", "serve"]
@@ -46,6 +47,10 @@ def _scenario(args):
             raise UsageError("is a folder, not a scenario file", where=str(path))
         return load_scenario(path)
     return load_preset(args.preset or DEFAULT_PRESET)
+
+
+scenario_argument = _scenario
+"""The scenario named on the command line, for commands in other modules (``cli.sensitivity_command``)."""
 
 
 def _study_options(args) -> dict:
@@ -107,9 +112,14 @@ def check(args) -> int:
     """``workbench check``: the graph analysis and large-sample figures, as text or JSON."""
     from workbench.analysis.check import check as check_scenario
 
-    report = check_scenario(_scenario(args))
-    print(json.dumps(report.to_dict(), indent=2) if args.json else report.as_text())
-    return EXIT_OK
+    scenario = _scenario(args)
+    if args.json not in (None, STDOUT):  # --json OUT: checked before the work, written atomically
+        check_outputs(args)
+    report = check_scenario(scenario)
+    if args.json in (None, STDOUT):
+        print(json.dumps(report.to_dict(), indent=2) if args.json else report.as_text())
+        return EXIT_OK
+    return write_json(json.dumps(report.to_dict(), indent=2) + "\n", args)
 
 
 def run(args) -> int:
@@ -172,4 +182,9 @@ def serve(args) -> int:
             f"cannot serve on {args.address}:{args.port}: {exc.strerror or exc} (is the port in use?)",
             where="serve",
         ) from None
+    except KeyboardInterrupt:  # Ctrl-C is how the dashboard is stopped: a line, and 130 as every Ctrl-C
+        from workbench.app.serve import EXIT_STOPPED
+
+        print("\nworkbench: dashboard stopped", file=sys.stderr)
+        return EXIT_STOPPED
     return EXIT_OK

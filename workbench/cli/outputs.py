@@ -29,7 +29,7 @@ import sys
 
 from workbench.errors import UsageError, shown
 
-__all__ = ["check_outputs", "deliver", "STDOUT"]
+__all__ = ["check_outputs", "check_file_output", "deliver", "write_json", "STDOUT"]
 
 STDOUT = "-"
 """The output name that means standard output."""
@@ -91,6 +91,27 @@ def _check_one(option: str, target: str) -> str:
         )
     if not os.access(real, os.W_OK):
         raise UsageError(f"cannot write {shown(target, 80)}: the file is read-only", where=where)
+    return real
+
+
+def check_file_output(option: str, target: str, source: str | None = None) -> str:
+    """Check the file an option ``--<option>`` names (no standard output), as :func:`check_outputs` does;
+    returns the file it will replace. ``source`` is the scenario file read, never overwritten.
+
+    Examples
+    --------
+    >>> check_file_output("summary", "no/such/dir/s.html")
+    Traceback (most recent call last):
+    ...
+    workbench.errors.UsageError: --summary: cannot write 'no/such/dir/s.html': no such folder 'no/such/dir'
+    """
+    if target == STDOUT:
+        raise UsageError("give a file name: this output cannot go to standard output", where=f"--{option}")
+    real = _check_one(option, target)
+    if source and _same_file(real, _resolved(source)):
+        raise UsageError(
+            f"{shown(target, 80)} is the scenario file read; give another name", where=f"--{option}"
+        )
     return real
 
 
@@ -161,6 +182,27 @@ def _texts(output, args, report_parts) -> dict[str, str]:
     if args.csv:
         texts["csv"] = output.to_csv(None)
     return texts
+
+
+def write_json(text: str, args) -> int:
+    """Write ``text`` to the file ``--json`` names (checked by :func:`check_outputs`), atomically, and say so
+    on stderr; what ``check --json OUT`` does. Returns exit code 0.
+
+    Raises
+    ------
+    UsageError
+        The file could not be written (``--json: cannot write 'out.json': No space left on device``).
+    """
+    from workbench.scenario.write import write_text_atomically
+
+    try:
+        write_text_atomically(args.json, text)
+    except OSError as exc:
+        raise UsageError(
+            f"cannot write {shown(args.json, 80)}: {exc.strerror or exc}", where="--json"
+        ) from None
+    print(f"wrote {args.json}", file=sys.stderr)
+    return 0
 
 
 def deliver(output, args, **report_parts) -> int:

@@ -140,7 +140,13 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("check", help="analyse a scenario's graph: roles, paths, verdicts, valid sets, truth")
     _add_source(p)
-    p.add_argument("--json", action="store_true", help="print JSON instead of the readable report")
+    p.add_argument(
+        "--json",
+        nargs="?",
+        const="-",
+        metavar="OUT",
+        help="write JSON to OUT instead of the readable report ('-' or nothing for stdout)",
+    )
     p.set_defaults(func=commands.check)
 
     p = sub.add_parser("presets", help="list the built-in presets")
@@ -169,6 +175,18 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--seed", type=_whole, help="random seed (default: the scenario's)")
     _add_outputs(p, "the long table")
     p.set_defaults(func=commands.plan)
+
+    from workbench.cli import sensitivity_command
+
+    sensitivity_command.add_parser(sub, _add_source, _whole)
+
+    from workbench.cli import report_command
+
+    report_command.add_parser(sub, _add_source)
+
+    from workbench.cli import sweep_command
+
+    sweep_command.add_parser(sub, _add_source, _whole)
 
     p = sub.add_parser("serve", help="start the dashboard in the browser")
     p.add_argument("--preset", metavar="NAME", help="preset to open (default: the default preset)")

@@ -101,6 +101,7 @@ _MOVING = 1e-3  # last step still shifts the linear predictor by more than this:
 _CERTIFICATE_SLACK = 1e-6  # relative slack in the separation inequalities
 _SINGULAR = 1e-12  # smallest eigenvalue of the unit-diagonal information matrix below this: singular
 _HALVINGS = 30
+_MIN_BLOCK = 8  # replicates per block at least
 _START_CLIP = 0.02  # linear-probability fitted values clipped to [0.02, 0.98] for the start (tuned)
 _EXTREME_ETA = 18.0  # |eta| beyond this puts a fitted probability within about 1.5e-8 of 0 or 1
 
@@ -191,16 +192,21 @@ def design_matrix(
 
 
 def _softplus_sum(eta: np.ndarray, y: np.ndarray) -> np.ndarray:
-    """Bernoulli log-likelihood summed over rows, shape (R,): ``sum(y eta - log(1 + exp(eta)))``, stably."""
+    """Bernoulli log-likelihood summed over rows, shape (R,): ``sum(y eta - log(1 + exp(eta)))``, stably.
+
+    ``log(1 + exp(eta)) = max(eta, 0) + log(1 + exp(-|eta|))`` and ``sum max(eta, 0) = (sum eta + sum
+    |eta|) / 2``: one work array, one ``exp`` and one ``log`` pass.
+    """
     # log(1 + exp(-|eta|)) with log rather than log1p (about twice as fast): where exp(-|eta|) < 1e-16 the
     # term is lost, an absolute error below 1e-16 per row in a sum only compared between steps.
     work = np.abs(eta)
+    positive = 0.5 * (np.sum(eta, axis=-1) + np.sum(work, axis=-1))
     np.negative(work, out=work)
     np.exp(work, out=work)
     work += 1.0
     np.log(work, out=work)
-    work += np.maximum(eta, 0.0)
-    return np.matmul(y[..., None, :], eta[..., :, None])[..., 0, 0] - np.sum(work, axis=-1)
+    dot = np.matmul(y[..., None, :], eta[..., :, None])[..., 0, 0]
+    return dot - positive - np.sum(work, axis=-1)
 
 
 def _sigmoid(eta: np.ndarray, out: np.ndarray) -> np.ndarray:
@@ -212,47 +218,68 @@ def _sigmoid(eta: np.ndarray, out: np.ndarray) -> np.ndarray:
     return np.reciprocal(out, out=out)
 
 
+def _residuals_and_weights(y: np.ndarray, mu: np.ndarray, out: np.ndarray) -> np.ndarray:
+    """``y - mu`` and ``mu (1 - mu)`` into the rows of ``out`` (B, 2, n)."""
+    np.subtract(y, mu, out=out[:, 0, :])
+    weights = np.subtract(1.0, mu, out=out[:, 1, :])
+    weights *= mu
+    return out
+
+
 class _Products:
     """Score ``X'(y - mu)`` and information ``X' diag(mu (1 - mu)) X`` of one block of replicates.
 
-    With few columns (p <= 8) the products of column pairs are formed once per block, so that each
-    information matrix costs one batched matrix-vector product per iteration; otherwise a batched matrix
-    product.
+    With few columns (p <= 8) the block's columns and the products of its column pairs are laid out once, as
+    the rows of one (B, m, n) array: the p columns first, then the products ``x_i x_j`` (i <= j) that are
+    not already among them (with a first column of ones, ``x_0 x_j = x_j``, so only the pairs of the other
+    columns). Score and information then cost one batched product of that array with the two rows
+    ``[y - mu, mu (1 - mu)]`` per iteration: one pass over the rows. Otherwise a batched matrix product.
     """
 
-    def __init__(self, Xt: np.ndarray):
+    def __init__(self, Xt: np.ndarray, ones_first: bool):
         B, p, n = Xt.shape
         self.p = p
         self.upper = np.triu_indices(p)
-        self.pairs = None
+        self.rows = None
         if p <= 8:
-            self.pairs = np.empty((B, len(self.upper[0]), n))
-            for k, (i, j) in enumerate(zip(*self.upper, strict=True)):
-                np.multiply(Xt[:, i, :], Xt[:, j, :], out=self.pairs[:, k, :])
+            first = 1 if ones_first else 0
+            pairs = [(i, j) for i, j in zip(*self.upper, strict=True) if i >= first]
+            self.rows = np.empty((B, p + len(pairs), n))
+            self.rows[:, :p, :] = Xt
+            where = {}
+            for k, (i, j) in enumerate(pairs):
+                np.multiply(Xt[:, i, :], Xt[:, j, :], out=self.rows[:, p + k, :])
+                where[i, j] = p + k
+            if ones_first:  # x_0 x_0 = 1 is row 0 (its sum is n), x_0 x_j = x_j is row j
+                where.update({(0, j): j for j in range(p)})
+            self.index = np.array([where[i, j] for i, j in zip(*self.upper, strict=True)])
 
-    def __call__(self, Xt, y, mu, residual, rows=None):
-        """Score (B, p) and information (B, p, p) for the replicates ``rows`` (all when None) with fitted
-        probabilities ``mu``, which is overwritten with the weights; ``residual`` is work space."""
-        np.subtract(y, mu, out=residual)
-        score = np.matmul(Xt, residual[..., None])[..., 0]
-        np.subtract(1.0, mu, out=residual)
-        weights = mu
-        weights *= residual
-        return score, self.information(Xt, weights, rows)
+    def __call__(self, Xt, work, rows=None):
+        """Score (B, p) and information (B, p, p) for the replicates ``rows`` (all when None); ``work``
+        (B, 2, n) holds the residuals ``y - mu`` and the weights ``mu (1 - mu)``."""
+        if self.rows is None:
+            score = np.matmul(Xt, work[:, 0, :, None])[..., 0]
+            return score, self.information(Xt, work[:, 1, :], rows)
+        both = np.matmul(self.rows if rows is None else self.rows[rows], np.swapaxes(work, 1, 2))
+        return both[:, : self.p, 0], self._square(both[:, :, 1])
 
     def information(self, Xt, weights, rows=None):
         """``X' diag(weights) X``, shape (B, p, p), for the replicates ``rows`` (all when None)."""
-        if self.pairs is None:
+        if self.rows is None:
             return np.matmul(Xt * weights[:, None, :], np.swapaxes(Xt, 1, 2))
-        pairs = self.pairs if rows is None else self.pairs[rows]
-        values = np.matmul(pairs, weights[..., None])[..., 0]
+        products = self.rows if rows is None else self.rows[rows]
+        return self._square(np.matmul(products, weights[..., None])[..., 0])
+
+    def _square(self, values):
+        """The symmetric (B, p, p) matrices from the sums of the product rows (B, m)."""
         info = np.empty((len(values), self.p, self.p))
-        info[:, self.upper[0], self.upper[1]] = values
-        info[:, self.upper[1], self.upper[0]] = values
+        upper = values[:, self.index]
+        info[:, self.upper[0], self.upper[1]] = upper
+        info[:, self.upper[1], self.upper[0]] = upper
         return info
 
 
-def _linear_probability_start(Xt, y, products, start):
+def _linear_probability_start(Xt, y, products, start, work):
     """A starting point one reweighted least-squares step from the linear probability fit.
 
     The least-squares fit of ``y`` on the columns gives fitted probabilities ``p``, clipped to
@@ -271,6 +298,8 @@ def _linear_probability_start(Xt, y, products, start):
         Products of the block's column pairs.
     start : ndarray of shape (B,), bool
         Replicates to compute the start for (others get zeros).
+    work : ndarray of shape (B, 2, n)
+        Work space.
 
     Returns
     -------
@@ -284,20 +313,23 @@ def _linear_probability_start(Xt, y, products, start):
         ``start`` and both least-squares systems regular and all values finite.
     """
     with np.errstate(all="ignore"):
-        gram = products.information(Xt, np.ones_like(y))
+        work[:, 0, :] = y
+        work[:, 1, :] = 1.0
+        xty, gram = products(Xt, work)  # X'y and X'X in one pass
         inverse, bad = _invert(gram)
-        xty = np.matmul(Xt, y[..., None])
-        fitted = np.matmul(np.matmul(inverse, xty)[:, None, :, 0], Xt)[:, 0, :]
+        fitted = np.matmul(np.matmul(inverse, xty[..., None])[:, None, :, 0], Xt)[:, 0, :]
         np.clip(fitted, _START_CLIP, 1.0 - _START_CLIP, out=fitted)
-        # working response times weight: p (1 - p) logit(p) + (y - p)
-        weights = 1.0 - fitted
-        response = np.log(fitted / weights)
+        # weights p (1 - p) and working response times weight p (1 - p) logit(p) + (y - p)
+        weights = np.subtract(1.0, fitted, out=work[:, 1, :])
+        response = np.divide(fitted, weights, out=work[:, 0, :])
+        np.log(response, out=response)
         weights *= fitted
         response *= weights
         response += y
         response -= fitted
-        inverse, bad_wls = _invert(products.information(Xt, weights))
-        beta = np.matmul(inverse, np.matmul(Xt, response[..., None]))[..., 0]
+        xtr, info = products(Xt, work)
+        inverse, bad_wls = _invert(info)
+        beta = np.matmul(inverse, xtr[..., None])[..., 0]
         eta = np.matmul(beta[:, None, :], Xt)[:, 0, :]
         loglik = _softplus_sum(eta, y)
     ok = start & ~bad & ~bad_wls & np.isfinite(loglik)
@@ -364,33 +396,36 @@ def _usable_data(X: np.ndarray, y: np.ndarray):
     return Xt, y, finite, binary
 
 
-def _starting_point(Xt: np.ndarray, y: np.ndarray, products: _Products, usable: np.ndarray):
+def _starting_point(Xt, y, products: _Products, usable, ones, work):
     """Starting coefficients (R, p), linear predictors (R, n) and log-likelihoods (R,) (module notes).
 
-    Where the first column is a column of ones and both outcomes occur: the intercept-only fit (intercept
-    ``logit(mean y)``, slopes 0), or one reweighted least-squares step from the linear probability fit where
-    that has the higher log-likelihood; elsewhere zero.
+    Where the first column is a column of ones (``ones``, per replicate) and both outcomes occur: the
+    intercept-only fit (intercept ``logit(mean y)``, slopes 0), or one reweighted least-squares step from the
+    linear probability fit where that has the higher log-likelihood; elsewhere zero. ``work`` (R, 2, n) is
+    work space.
     """
     R, p, n = Xt.shape
-    beta = np.zeros((R, p))
-    eta = np.zeros((R, n))
     mean_y = y.mean(axis=1)
-    start = usable & (mean_y > 0) & (mean_y < 1) & np.all(Xt[:, 0, :] == 1.0, axis=1)
+    start = usable & (mean_y > 0) & (mean_y < 1) & ones
     with np.errstate(divide="ignore", invalid="ignore"):
         intercept = np.where(start, np.log(mean_y / (1.0 - mean_y)), 0.0)
-    beta[:, 0] = intercept
-    eta += intercept[:, None]
-    # log-likelihood at the current iterate, known exactly at the start
+    # log-likelihood at the intercept-only iterate, known exactly
     loglik = n * (mean_y * intercept - np.logaddexp(0.0, intercept))
+    better = np.zeros(R, dtype=bool)
     if start.any():
-        better_beta, better_eta, better_loglik, better = _linear_probability_start(Xt, y, products, start)
+        better_beta, better_eta, better_loglik, better = _linear_probability_start(
+            Xt, y, products, start, work
+        )
         better &= better_loglik > loglik
         if better.all():
-            beta, eta, loglik = better_beta, better_eta, better_loglik
-        elif better.any():
-            beta[better] = better_beta[better]
-            eta[better] = better_eta[better]
-            loglik[better] = better_loglik[better]
+            return better_beta, better_eta, better_loglik
+    beta = np.zeros((R, p))
+    beta[:, 0] = intercept
+    eta = np.repeat(intercept[:, None], n, axis=1)
+    if better.any():
+        beta[better] = better_beta[better]
+        eta[better] = better_eta[better]
+        loglik[better] = better_loglik[better]
     return beta, eta, loglik
 
 
@@ -402,14 +437,14 @@ class _Newton:
     zero step), afterwards on copies of the active rows.
     """
 
-    def __init__(self, Xt, y, products: _Products, beta, eta, loglik, usable, tol: float):
+    def __init__(self, Xt, y, products: _Products, beta, eta, loglik, usable, tol: float, vectors):
         R, p, n = Xt.shape
         self.Xt, self.y, self.products, self.tol = Xt, y, products, tol
         self.beta, self.eta, self.loglik = beta, eta, loglik
         self.last_step = np.zeros((R, p))
         self.mu = np.empty((R, n))
         self.shift = np.empty((R, n))
-        self.residual = np.empty((R, n))
+        self.vectors = vectors  # (R, 2, n): residuals and weights
         self.column_size = np.max(np.abs(Xt), axis=2)  # (R, p): bounds |x' step| <= |step| . column_size
         self.iterations = np.zeros(R, dtype=int)
         self.stopped = np.zeros(R, dtype=bool)  # stopping rule met
@@ -425,13 +460,14 @@ class _Newton:
         whole = 2 * idx.size >= R
         if whole:
             rows, work = np.arange(R), self.active.copy()
-            Xt, y, eta, mu, shift, residual = self.Xt, self.y, self.eta, self.mu, self.shift, self.residual
+            Xt, y, eta, mu, shift, vectors = self.Xt, self.y, self.eta, self.mu, self.shift, self.vectors
         else:
             rows, work = idx, np.ones(idx.size, dtype=bool)
             Xt, y, eta = self.Xt[idx], self.y[idx], self.eta[idx]
-            mu, shift, residual = np.empty_like(eta), np.empty_like(eta), np.empty_like(eta)
+            mu, shift, vectors = np.empty_like(eta), np.empty_like(eta), np.empty((idx.size, 2, eta.shape[1]))
 
-        score, info = self.products(Xt, y, _sigmoid(eta, mu), residual, None if whole else idx)
+        _residuals_and_weights(y, _sigmoid(eta, mu), vectors)
+        score, info = self.products(Xt, vectors, None if whole else idx)
         inverse, bad = _invert(info)
         step = np.matmul(inverse, score[..., None])[..., 0]
         every = bool(work.all())  # usually so: then no masking is needed below
@@ -541,16 +577,18 @@ def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> Logit
     """:func:`fit_logit_batch` on one block of replicates, single-threaded."""
     Xt, y, finite, binary = _usable_data(X, y)
     usable = finite & binary
-    products = _Products(Xt)
-    beta, eta, loglik = _starting_point(Xt, y, products, usable)
-    newton = _Newton(Xt, y, products, beta, eta, loglik, usable, tol)
+    ones = np.all(Xt[:, 0, :] == 1.0, axis=1)
+    products = _Products(Xt, ones_first=bool(np.all(ones | ~usable)))
+    vectors = np.empty((Xt.shape[0], 2, Xt.shape[2]))
+    beta, eta, loglik = _starting_point(Xt, y, products, usable, ones, vectors)
+    newton = _Newton(Xt, y, products, beta, eta, loglik, usable, tol, vectors)
     for _ in range(max_iter):
         if not newton.iterate():
             break
     # Information at the returned coefficients, for the covariance.
     mu = _sigmoid(newton.eta, newton.mu)
     separated, complete = _separation(Xt, y, newton.eta, mu, newton.last_step, usable)
-    weights = np.subtract(1.0, mu, out=newton.residual)
+    weights = np.subtract(1.0, mu, out=vectors[:, 1, :])
     weights *= mu  # the weights mu (1 - mu)
     cov, singular_at_end = _invert(products.information(Xt, weights))
     failure = _failure_reasons(newton, singular_at_end, separated, complete, finite, binary, max_iter)
@@ -631,7 +669,7 @@ def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10, workers: in
     # Blocks of replicates small enough for the working arrays to stay in the processor cache (about
     # 6 MiB each) are much faster than one pass over everything, whose arrays stream from memory.
     per_replicate = 8 * n * (p * (p + 1) // 2 + p + 6)
-    size = int(np.clip(CACHE_BYTES // max(per_replicate, 1), 8, max(R, 1)))
+    size = int(np.clip(CACHE_BYTES // max(per_replicate, 1), _MIN_BLOCK, max(R, 1)))
     blocks = [slice(start, min(start + size, R)) for start in range(0, R, size)] or [slice(0, 0)]
     workers = max(1, min(int(workers), len(blocks)))
 

@@ -15,6 +15,17 @@ For each strategy, with ``R`` successful replicates (failed ones, NaN, are exclu
 * bias-eliminated coverage ``mean 1(low_i <= theta_bar <= high_i)``; MCSE of the same form;
 * power (rejection) ``mean 1(p_i <= alpha)``; MCSE ``sqrt(power (1 - power) / R)``.
 
+Sign and magnitude errors (Gelman & Carlin 2014), over the ``K`` significant replicates (``p_i <= alpha``):
+
+* type S error rate ``type_s = mean over significant of 1(sign(theta_i) != sign(theta))``; MCSE the binomial
+  ``sqrt(type_s (1 - type_s) / K)`` (conditional on ``K``: common practice, no source);
+* exaggeration ratio (type M) ``mean over significant of |theta_i| / |theta|``; MCSE the SE of that mean,
+  ``sd(|theta_i|) / (sqrt(K) |theta|)`` over the significant ones (the truth taken as known: common practice,
+  no source).
+
+Both are NaN when no replicate is significant or the true value is 0 (a sign or a ratio to 0 has no meaning);
+their MCSEs are NaN with fewer than two significant replicates.
+
 ``Var(s_i^2)`` is the sample variance (divisor ``R - 1``) of the squared SEs. Beyond Table 6:
 
 * relative bias (%) is ``100 bias / theta`` with MCSE ``100 bias_mcse / |theta|`` (NaN when ``|theta| < 1e-12``);
@@ -28,6 +39,8 @@ References
 ----------
 1. Morris T.P., White I.R., Crowther M.J. (2019). Using simulation studies to evaluate statistical methods.
    Statistics in Medicine 38(11):2074-2102, Table 6.
+2. Gelman A., Carlin J. (2014). Beyond power calculations: assessing type S (sign) and type M (magnitude)
+   errors. Perspectives on Psychological Science 9(6):641-651.
 """
 
 from __future__ import annotations
@@ -37,6 +50,9 @@ import numpy as np
 __all__ = [
     "MEASURES",
     "performance",
+    "sign_and_magnitude",
+    "joint_power",
+    "variance_inflation",
     "is_biased",
     "coverage_is_off",
     "BIAS_MCSE_MULTIPLE",
@@ -114,6 +130,10 @@ MEASURES = (
     "be_coverage_mcse",
     "power",
     "power_mcse",
+    "type_s",
+    "type_s_mcse",
+    "exaggeration",
+    "exaggeration_mcse",
     "failures",
     "n_ok",
 )
@@ -123,6 +143,120 @@ def _proportion(hit: np.ndarray, ok: np.ndarray, count: np.ndarray):
     with np.errstate(invalid="ignore", divide="ignore"):
         share = np.where(ok, hit, False).sum(axis=0) / count
         return share, np.sqrt(share * (1.0 - share) / count)
+
+
+def sign_and_magnitude(estimate, p_value, truth, alpha: float) -> dict[str, np.ndarray]:
+    """Type S error rate and exaggeration ratio (type M) of the significant estimates, with MCSEs.
+
+    Parameters
+    ----------
+    estimate, p_value : array_like of shape (R, S)
+        NaN estimates (failed fits) are left out.
+    truth : float or array_like of shape (S,)
+    alpha : float
+        A replicate is significant when ``p_value <= alpha``.
+
+    Returns
+    -------
+    dict with ``type_s, type_s_mcse, exaggeration, exaggeration_mcse`` (arrays of shape (S,)); NaN where no
+    replicate is significant or the truth is 0.
+
+    References
+    ----------
+    Gelman A., Carlin J. (2014). Perspectives on Psychological Science 9(6):641-651.
+
+    Examples
+    --------
+    >>> est = np.array([[0.5], [-0.4], [0.1], [0.7]])
+    >>> p = np.array([[0.01], [0.02], [0.6], [0.001]])
+    >>> m = sign_and_magnitude(est, p, 0.2, 0.05)
+    >>> round(float(m["type_s"][0]), 4), round(float(m["exaggeration"][0]), 4)
+    (0.3333, 2.6667)
+    """
+    estimate = np.asarray(estimate, dtype=float)
+    if estimate.ndim == 1:
+        estimate = estimate[:, None]
+    p_value = np.asarray(p_value, dtype=float).reshape(estimate.shape)
+    S = estimate.shape[1]
+    theta = np.broadcast_to(np.asarray(truth, dtype=float), (S,)).copy()
+    significant = ~np.isnan(estimate) & (p_value <= alpha)
+    k = significant.sum(axis=0).astype(float)
+    defined = (k > 0) & (np.abs(theta) >= 1e-12)
+    scale = np.where(defined, np.abs(theta), 1.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        wrong = significant & (np.sign(estimate) != np.sign(theta))
+        type_s = np.where(defined, wrong.sum(axis=0) / k, np.nan)
+        type_s_mcse = np.where(k > 1, np.sqrt(type_s * (1.0 - type_s) / k), np.nan)
+        size = np.where(significant, np.abs(estimate), 0.0)
+        mean_size = size.sum(axis=0) / k
+        spread = np.where(significant, np.abs(estimate) - mean_size, 0.0)
+        sd = np.sqrt((spread**2).sum(axis=0) / (k - 1))
+        exaggeration = np.where(defined, mean_size / scale, np.nan)
+        exaggeration_mcse = np.where(defined & (k > 1), sd / np.sqrt(k) / scale, np.nan)
+    return {
+        "type_s": type_s,
+        "type_s_mcse": type_s_mcse,
+        "exaggeration": exaggeration,
+        "exaggeration_mcse": exaggeration_mcse,
+    }
+
+
+def joint_power(p_value, also_p_value, alpha: float) -> dict[str, np.ndarray]:
+    """Power for the joint event that the exposure and every ``also`` effect are significant, with its MCSE.
+
+    Parameters
+    ----------
+    p_value : array_like of shape (R, S)
+    also_p_value : array_like of shape (R, S, A)
+        NaN where a strategy does not estimate the variable; a strategy missing any variable gets NaN.
+    alpha : float
+
+    Returns
+    -------
+    dict with ``power_all, power_all_mcse`` (shape (S,)); with ``A = 0`` they equal the exposure's power.
+    The MCSE is the binomial ``sqrt(p (1 - p) / R)`` over the replicates where every p-value exists (Morris
+    et al. 2019, Table 6, for a rejection rate).
+
+    Examples
+    --------
+    >>> p = np.array([[0.01], [0.01], [0.3], [0.01]])
+    >>> also = np.array([[[0.02]], [[0.5]], [[0.01]], [[0.04]]])
+    >>> float(joint_power(p, also, 0.05)["power_all"][0])
+    0.5
+    """
+    p_value = np.asarray(p_value, dtype=float)
+    also = np.asarray(also_p_value, dtype=float)
+    if also.ndim == 2:
+        also = also[:, :, None]
+    ok = ~np.isnan(p_value) & ~np.isnan(also).any(axis=2)
+    hit = (p_value <= alpha) & (also <= alpha).all(axis=2)
+    count = ok.sum(axis=0).astype(float)
+    share, mcse = _proportion(hit, ok, count)
+    return {"power_all": share, "power_all_mcse": mcse}
+
+
+def variance_inflation(scenario, regressors, variable: str) -> float:
+    """The closed-form variance inflation factor of ``variable`` among ``regressors`` in a linear-Gaussian
+    scenario: ``VIF_j = Sigma_jj [Sigma_RR^-1]_jj`` from the implied covariance (``1 / (1 - R_j^2)``, R_j^2 of
+    the variable on the other regressors; Wooldridge, Introductory Econometrics, sec. 3.4). NaN for other
+    scenarios or when ``variable`` is not among ``regressors``.
+
+    Examples
+    --------
+    >>> from workbench import load_preset
+    >>> round(variance_inflation(load_preset("two_exposures"), ["lighting", "heating"], "heating"), 4)
+    2.7778
+    """
+    from workbench.graph.linear import implied_covariance
+
+    regressors = list(dict.fromkeys(regressors))
+    if variable not in regressors or not scenario.is_linear_gaussian:
+        return float("nan")
+    names = [v.name for v in scenario.variables]
+    index = [names.index(r) for r in regressors]
+    sigma = implied_covariance(scenario)[np.ix_(index, index)]
+    j = regressors.index(variable)
+    return float(sigma[j, j] * np.linalg.inv(sigma)[j, j])
 
 
 def performance(
@@ -152,7 +286,8 @@ def performance(
     Returns
     -------
     dict of str to ndarray of shape (S,)
-        Keys in :data:`MEASURES`. ``relative_bias`` and ``relative_error_model_se`` are in percent.
+        Keys in :data:`MEASURES`. ``relative_bias`` and ``relative_error_model_se`` are in percent;
+        ``type_s`` and ``exaggeration`` are those of :func:`sign_and_magnitude`.
         ``failures`` counts NaN replicates, ``n_ok`` the rest. Measures that need two successes are NaN
         with fewer.
 
@@ -214,12 +349,13 @@ def performance(
         )
 
         zero = np.abs(theta) < 1e-12
-        relative_bias = np.where(zero, np.nan, 100.0 * bias / np.where(zero, 1.0, theta))
+        relative_bias = np.where(zero, np.nan, 100.0 * bias / np.abs(np.where(zero, 1.0, theta)))
         relative_bias_mcse = np.where(zero, np.nan, 100.0 * bias_mcse / np.abs(np.where(zero, 1.0, theta)))
 
     coverage, coverage_mcse = _proportion((ci_low <= theta) & (theta <= ci_high), ok, count)
     be_coverage, be_coverage_mcse = _proportion((ci_low <= mean) & (mean <= ci_high), ok, count)
     power, power_mcse = _proportion(p_value <= alpha, ok, count)
+    errors = sign_and_magnitude(estimate, p_value, theta, alpha)
     return {
         "mean": mean,
         "bias": bias,
@@ -242,6 +378,7 @@ def performance(
         "be_coverage_mcse": be_coverage_mcse,
         "power": power,
         "power_mcse": power_mcse,
+        **errors,
         "failures": failures,
         "n_ok": count.astype(int),
     }

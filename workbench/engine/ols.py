@@ -267,7 +267,7 @@ def cholesky_fit(S, n, outcome: int, regressors, wanted, names=None, *, toleranc
     tail = [j for j in dict.fromkeys(wanted) if j != 0 and 0 <= j < m] + [0]
     order = [j for j in range(m) if j not in tail] + tail
     cols = np.array([regressors[j] for j in order] + [outcome])
-    A = S[:, cols[:, None], cols]
+    A = S if np.array_equal(cols, np.arange(S.shape[-1])) else S[:, cols[:, None], cols]
     diag = np.diagonal(A, axis1=1, axis2=2)
     if not (diag > 0.0).all():
         return None  # a constant column: the sweep names it

@@ -59,7 +59,7 @@ import numpy as np
 from workbench.engine.chunks import ChunkDraws
 from workbench.engine.fitplan import Plan, fit_plan
 from workbench.engine.fitting import FitResult, fit_chunk
-from workbench.engine.metrics import performance
+from workbench.engine.metrics import joint_power, performance
 from workbench.engine.ols import selected_names, t_inference
 from workbench.engine.streams import seed_entropy, seed_sequence
 from workbench.engine.threads import blas_threads
@@ -188,8 +188,9 @@ class ReplicateArrays:
 
     def score(self) -> dict[str, np.ndarray]:
         """Performance of each strategy's exposure estimate against its truth
-        (:func:`workbench.engine.metrics.performance`; arrays of shape (S,))."""
-        return performance(
+        (:func:`workbench.engine.metrics.performance`; arrays of shape (S,)), with the joint power of the
+        exposure and every ``also`` effect (:func:`workbench.engine.metrics.joint_power`)."""
+        measures = performance(
             self.estimate,
             self.se,
             self.ci_low,
@@ -199,6 +200,8 @@ class ReplicateArrays:
             self.alpha,
             truth_mcse=self.truth_mcse,
         )
+        measures.update(joint_power(self.p_value, self.also_p_value, self.alpha))
+        return measures
 
     def score_also(self, variable: int, truth: float) -> dict[str, np.ndarray]:
         """Performance of the ``also`` variable at index ``variable`` against ``truth`` (its arrow's

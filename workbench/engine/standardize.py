@@ -30,12 +30,50 @@ Examples
 from __future__ import annotations
 
 import numpy as np
-from scipy.special import expit
 
 from workbench.engine.logistic import LogitFit
 from workbench.errors import SimulationError
 
-__all__ = ["standardized_contrast"]
+__all__ = ["standardized_contrast", "CACHE_BYTES"]
+
+CACHE_BYTES = 2**20
+"""Working set aimed at per block of replicates, in bytes (a share of the processor's L2 cache)."""
+
+
+def _sigmoid(eta: np.ndarray) -> np.ndarray:
+    """``1 / (1 + exp(-eta))`` in place (an overflow of exp gives exactly 0, as it should)."""
+    with np.errstate(over="ignore"):
+        np.negative(eta, out=eta)
+        np.exp(eta, out=eta)
+    eta += 1.0
+    return np.reciprocal(eta, out=eta)
+
+
+def _means_and_gradients(Xt: np.ndarray, beta: np.ndarray, j: int, binary: bool):
+    """Mean predictions ``m1``, ``m0`` (B,) with the exposure (column ``j``) set to 1 and 0 (or shifted by
+    +1 and as observed) and their gradients ``g1``, ``g0`` (B, p), for one block of designs (B, p, n)."""
+    B, p, n = Xt.shape
+    x = Xt[:, j, :]
+    bj = beta[:, j : j + 1]
+    predictions = np.empty((B, 2, n))  # rows: exposure set to 1 (or shifted), to 0 (or as observed)
+    eta0 = predictions[:, 1, :]
+    np.matmul(beta[:, None, :], Xt, out=eta0[:, None, :])
+    if binary:
+        eta0 -= x * bj
+    np.add(eta0, bj, out=predictions[:, 0, :])
+    _sigmoid(predictions)
+    means = predictions.mean(axis=2)
+    weights = np.subtract(1.0, predictions)
+    weights *= predictions  # p (1 - p)
+    # d m / d beta = mean over rows of p (1 - p) x_row, with the exposure column at its set value.
+    gradients = np.matmul(Xt, np.swapaxes(weights, 1, 2)) / n  # (B, p, 2)
+    g1, g0 = gradients[:, :, 0], gradients[:, :, 1]
+    if binary:
+        g1[:, j] = weights[:, 0, :].mean(axis=1)
+        g0[:, j] = 0.0
+    else:  # x + 1 in the shifted predictions
+        g1[:, j] += weights[:, 0, :].mean(axis=1)
+    return means[:, 0], means[:, 1], g1, g0
 
 
 def standardized_contrast(
@@ -98,27 +136,16 @@ def standardized_contrast(
         )
     X = np.asarray(X, dtype=float)
     j = int(exposure_column)
-    beta = fit.coef
-    n = X.shape[1]
-    eta = np.matmul(X, beta[..., None])[..., 0]
-    x = X[..., j]
-    bj = beta[:, j : j + 1]
-    if exposure_kind == "binary":
-        eta1 = eta + (1.0 - x) * bj
-        eta0 = eta - x * bj
-        x1, x0 = np.ones_like(x), np.zeros_like(x)
-    else:
-        eta1 = eta + bj
-        eta0 = eta
-        x1, x0 = x + 1.0, x
-    p1, p0 = expit(eta1), expit(eta0)
-    w1, w0 = p1 * (1.0 - p1), p0 * (1.0 - p0)
-    m1, m0 = p1.mean(axis=1), p0.mean(axis=1)
-    # d m / d beta = mean over rows of p (1 - p) x_row, with the exposure column at its set value.
-    g1 = np.matmul(w1[:, None, :], X)[:, 0, :] / n
-    g0 = np.matmul(w0[:, None, :], X)[:, 0, :] / n
-    g1[:, j] = np.mean(w1 * x1, axis=1)
-    g0[:, j] = np.mean(w0 * x0, axis=1)
+    Xt = np.swapaxes(X, 1, 2)  # (R, p, n): each column's rows contiguous for a design from design_matrix
+    R, p, n = Xt.shape
+    m1, m0 = np.empty(R), np.empty(R)
+    g1, g0 = np.empty((R, p)), np.empty((R, p))
+    size = int(np.clip(CACHE_BYTES // max(8 * n * (p + 6), 1), 1, max(R, 1)))
+    for start in range(0, R, size):
+        block = slice(start, min(start + size, R))
+        m1[block], m0[block], g1[block], g0[block] = _means_and_gradients(
+            Xt[block], fit.coef[block], j, exposure_kind == "binary"
+        )
     with np.errstate(divide="ignore", invalid="ignore"):
         if scale == "difference":
             estimate = m1 - m0

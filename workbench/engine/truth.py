@@ -16,6 +16,12 @@
   causes replaces the 0/1 draw (same mean, smaller Monte Carlo error). ``scale = "log_odds_ratio"`` reports
   ``logit(E[Y_1]) - logit(E[Y_0])`` with a delta-method Monte Carlo SE.
 
+  When the outcome is continuous and so is every variable on a causal path from the exposure to it, the
+  equations the intervention recomputes are linear, so the contrast is the same number in every draw (the
+  sum over causal paths of the products of effects, whatever the binary variables elsewhere do): the first
+  :data:`EXACT_DRAWS` draws of the same stream then give it to rounding, with a Monte Carlo SE of 0 up to
+  rounding (:func:`truth_draws`).
+
 Results are cached per scenario graph and question, so repeated simulations pay once.
 
 References
@@ -39,6 +45,8 @@ from workbench.scenario.model import Scenario, Strategy
 __all__ = [
     "TRUTH_DRAWS",
     "TRUTH_SEED",
+    "EXACT_DRAWS",
+    "truth_draws",
     "KIND_WORDS",
     "Truth",
     "true_effect",
@@ -51,6 +59,8 @@ __all__ = [
 
 TRUTH_DRAWS = 2**20
 TRUTH_SEED = 19_340_161
+EXACT_DRAWS = 2**10
+"""Draws of a simulated intervention whose contrast is the same in every draw (see :func:`truth_draws`)."""
 _CHUNK = 2**16
 
 
@@ -147,6 +157,46 @@ def _world_orders(st, x: int, y: int) -> tuple[tuple[int, ...], tuple[int, ...]]
     return first, tuple(j for j in first if j in descendants)
 
 
+def truth_draws(variables: tuple, arrows: tuple, exposure: str, outcome: str) -> int:
+    """The draws :func:`simulated_effect` uses: :data:`EXACT_DRAWS` when the outcome and every variable on a
+    causal path from the exposure to it (the exposure excepted) are continuous, else :data:`TRUTH_DRAWS`.
+
+    In that case every equation the intervention changes is linear in its causes, so the outcome's change
+    is the sum over causal paths of the products of the arrows' effects times the exposure's change (Wright
+    1934), the same in every draw: more draws add nothing but rounding (common practice, no source).
+
+    Examples
+    --------
+    >>> from workbench import load_preset
+    >>> sc = load_preset("restriction")
+    >>> truth_draws(sc.variables, sc.arrows, sc.question.exposure, sc.question.outcome) == EXACT_DRAWS
+    True
+    >>> sc = load_preset("binary_outcome")
+    >>> truth_draws(sc.variables, sc.arrows, sc.question.exposure, sc.question.outcome) == TRUTH_DRAWS
+    True
+    """
+    binary = {v.name for v in variables if v.type == "binary"}
+    if outcome in binary:
+        return TRUTH_DRAWS
+    children: dict[str, list[str]] = {}
+    parents: dict[str, list[str]] = {}
+    for a in arrows:
+        children.setdefault(a.source, []).append(a.target)
+        parents.setdefault(a.target, []).append(a.source)
+
+    def reach(start: str, step: dict) -> set:
+        seen, todo = {start}, [start]
+        while todo:
+            for nxt in step.get(todo.pop(), ()):
+                if nxt not in seen:
+                    seen.add(nxt)
+                    todo.append(nxt)
+        return seen
+
+    on_paths = (reach(exposure, children) & reach(outcome, parents)) - {exposure}
+    return TRUTH_DRAWS if on_paths & binary else EXACT_DRAWS
+
+
 @functools.lru_cache(maxsize=128)
 def simulated_effect(
     variables: tuple, arrows: tuple, exposure: str, outcome: str, scale: str
@@ -154,8 +204,9 @@ def simulated_effect(
     """The effect of ``exposure`` on ``outcome`` by simulated intervention, and its Monte Carlo SE.
 
     The graph is given as a scenario's ``variables`` and ``arrows`` tuples (cached per graph, question and
-    scale). :data:`TRUTH_DRAWS` noise draws from :data:`TRUTH_SEED` are pushed through the structural
-    equations in both worlds (module notes); :func:`true_effect` calls this where no closed form applies.
+    scale). :func:`truth_draws` noise draws (:data:`TRUTH_DRAWS`, or :data:`EXACT_DRAWS` when the contrast
+    is the same in every draw) from :data:`TRUTH_SEED` are pushed through the structural equations in both
+    worlds (module notes); :func:`true_effect` calls this where no closed form applies.
 
     Examples
     --------
@@ -169,7 +220,15 @@ def simulated_effect(
     from scipy import special
 
     from workbench.engine.generate import evaluate, graph_structure
+    from workbench.engine.threads import blas_threads
 
+    with blas_threads():  # the calibration and the small products below: one BLAS thread (threads.py)
+        return _simulated_effect(
+            variables, arrows, exposure, outcome, scale, special, evaluate, graph_structure
+        )
+
+
+def _simulated_effect(variables, arrows, exposure, outcome, scale, special, evaluate, graph_structure):
     st = graph_structure(variables, arrows)
     x = st.index(exposure)
     y = st.index(outcome)
@@ -184,16 +243,18 @@ def simulated_effect(
     # the first world needs only the outcome's ancestors; the second starts from the first world's values
     # and recomputes only the exposure's descendants among them (the others are the same in both worlds)
     first, second = _world_orders(st, x, y)
+    draws = truth_draws(variables, arrows, exposure, outcome)
+    chunk = min(_CHUNK, draws)
     sums = np.zeros(2)
     cross = np.zeros((2, 2))
     done = 0
-    z = np.empty((_CHUNK, st.k))
+    z = np.empty((chunk, st.k))
     # the equations run variable by variable: one contiguous row per variable (same numbers as the draws'
     # (draws, variables) layout, elementwise, but without a strided pass per variable)
-    rows = np.empty((st.k, _CHUNK))
+    rows = np.empty((st.k, chunk))
     values = np.empty_like(rows)
-    pair = np.empty((2, _CHUNK))
-    while done < TRUTH_DRAWS:
+    pair = np.empty((2, chunk))
+    while done < draws:
         rng.standard_normal(out=z)
         np.copyto(rows, z.T)
         for w, (world, order) in enumerate(zip(worlds, (first, second), strict=True)):
@@ -210,7 +271,7 @@ def simulated_effect(
             pair[w] = values[y]
         sums += pair.sum(axis=1)
         cross += pair @ pair.T
-        done += _CHUNK
+        done += chunk
     N = float(done)
     means = sums / N
     cov = (cross / N - np.outer(means, means)) * N / (N - 1) / N  # covariance of the two means
@@ -221,6 +282,10 @@ def simulated_effect(
         value = float(means[0] - means[1])
         grad = np.array([1.0, -1.0])
     mcse = float(np.sqrt(max(grad @ cov @ grad, 0.0)))
+    if draws < _CHUNK and scale == "difference":
+        # one chunk: the SD of the per-draw contrast itself, free of the cancellation in the moments above
+        # (which would leave a rounding residue of about 1e-9 where the contrast is the same in every draw)
+        mcse = float(np.std(pair[0] - pair[1], ddof=1) / np.sqrt(N))
     return value, mcse
 
 
@@ -241,7 +306,8 @@ def true_effect(scenario: Scenario, scale: str | None = None) -> Truth:
     Notes
     -----
     See the module docstring for the definitions. The simulated intervention uses ``2**20`` draws with common
-    random numbers for the two worlds; its Monte Carlo SE is the SD of the per-draw contrast over
+    random numbers for the two worlds (:data:`EXACT_DRAWS` where the contrast is the same in every draw,
+    :func:`truth_draws`); its Monte Carlo SE is the SD of the per-draw contrast over
     ``sqrt(draws)`` (delta method for the log odds ratio).
 
     References
@@ -266,7 +332,8 @@ def true_effect(scenario: Scenario, scale: str | None = None) -> Truth:
         value = float(total_effects(scenario)[names.index(q.exposure), names.index(q.outcome)])
         return Truth(value, 0.0, "closed form", words, 0, scale)
     value, mcse = simulated_effect(scenario.variables, scenario.arrows, q.exposure, q.outcome, scale)
-    return Truth(value, mcse, "simulated intervention", words, TRUTH_DRAWS, scale)
+    draws = truth_draws(scenario.variables, scenario.arrows, q.exposure, q.outcome)
+    return Truth(value, mcse, "simulated intervention", words, draws, scale)
 
 
 KIND_WORDS = {

@@ -54,7 +54,7 @@ from workbench.formatting.phrases import (
 )
 from workbench.graph.build import build_graph
 
-__all__ = ["ASSUMPTION_NOTE", "Story", "explain", "consequences_html"]
+__all__ = ["ASSUMPTION_NOTE", "Story", "explain", "consequences_html", "also_sentences"]
 
 #: The note shown beside every result: the graph is an assumption.
 ASSUMPTION_NOTE = ASSUMPTION
@@ -391,9 +391,25 @@ def _run_paragraphs(ctx: _Context, row: dict, names) -> list[str]:
             found += f", of the wrong sign in {wrong:.0%}"
         numbers.append(found)
     paragraphs = ["In the simulation, " + "; ".join(numbers) + "."] if numbers else []
+    paragraphs += _sign_magnitude_sentence(ctx, row, power)
     if row.get("note"):
         paragraphs.append(_sentence(str(row["note"]), names))
     return paragraphs
+
+
+def _sign_magnitude_sentence(ctx: _Context, row: dict, power: float | None) -> list[str]:
+    """Gelman & Carlin's (2014) warning at low power: a significant estimate overstates the effect (the
+    exaggeration ratio, when power < 0.8 and the ratio > 1.2) and may have the wrong sign (type S, when over
+    1%)."""
+    ratio, type_s = _number(row.get("exaggeration")), _number(row.get("type_s"))
+    if power is None or power >= 0.8 or ratio is None or ratio <= 1.2:
+        return []
+    n = getattr(ctx.result, "n", None)
+    where = f"At n = {n:,}" if isinstance(n, int) else "At this sample size"
+    text = f"{where} a significant estimate overstates the effect {ratio:.1f}-fold on average"
+    if type_s is not None and type_s > 0.01:
+        text += f", and {type_s:.0%} of the significant estimates have the wrong sign"
+    return [text + " (Gelman & Carlin's exaggeration ratio)."]
 
 
 def _wrong_sign(ctx: _Context, name: str, truth: float | None) -> float | None:
@@ -574,3 +590,33 @@ def consequences_html(report: CheckReport | None, strategy: str = "") -> str:
             + "</table>"
         )
     return "<div class='wb-consequences' style='font-size:12px'>" + "".join(parts) + "</div>"
+
+
+def also_sentences(result) -> list[str]:
+    """One plain sentence per strategy and ``also`` effect of a simulation: how often the study detects that
+    effect, how far off it is, and how much the correlation with the other regressors inflates its variance
+    (the closed-form VIF, :func:`workbench.engine.metrics.variance_inflation`); empty without ``also``.
+
+    Examples
+    --------
+    >>> from workbench import load_preset, simulate
+    >>> also_sentences(simulate(load_preset("two_exposures"), replicates=200, seed=1))[0][:40]
+    'Strategy adjust_heating also estimates t'
+    """
+    if result is None or not result.arrays.also_names:
+        return []
+    sentences = []
+    for r in result.also_table().to_dict(orient="records"):
+        text = (
+            f"Strategy {r['strategy']} also estimates the direct effect of {r['variable']} (true value "
+            f"{r['truth']:.3g}): it found it in {r['power']:.0%} of studies of n = {result.n:,}, "
+            f"off by {r['bias']:+.3g} on average"
+        )
+        vif = _number(r.get("vif"))
+        if vif is not None and vif > 1.05:
+            text += (
+                f"; its correlation with the other variables in the model makes its variance {vif:.1f} times "
+                "what it would be alone (variance inflation factor)"
+            )
+        sentences.append(text + ".")
+    return sentences

@@ -27,11 +27,21 @@ import math
 
 import numpy as np
 import pandas as pd
+from bokeh.layouts import column as bokeh_column
 from bokeh.layouts import gridplot
 from bokeh.models import ColumnDataSource, FixedTicker, Legend, LegendItem, Range1d, Span
 from bokeh.plotting import figure
 
-from workbench.report.style import FONT, legend_above, n_axis, strategy_colours, style_figure
+from workbench.report.style import (
+    FONT,
+    fit_to_width,
+    legend_above,
+    legend_below,
+    n_axis,
+    scale_of,
+    strategy_colours,
+    style_figure,
+)
 
 __all__ = [
     "truth_groups",
@@ -84,6 +94,7 @@ def _ridge(
         x_range=Range1d(lo - pad, hi + pad),
     )
     style_figure(fig)
+    fit_to_width(fig, width)
     for i, name in enumerate(reversed(names)):
         v = values[name]
         v = v[np.isfinite(v)]
@@ -396,16 +407,20 @@ def _target_items(fig, table: pd.DataFrame, target_power: float) -> list[LegendI
     )
     hidden_x = [float(table["n"].min())] * 2
     hidden_y = [-5.0, -5.0]
-    return [
+    items = [
         LegendItem(
             label=f"target power {target_power:g}; ▼ smallest n",
             renderers=[fig.line(hidden_x, hidden_y, line_color="#000000", line_dash="dotted")],
-        ),
-        LegendItem(
-            label="analytic approximation (dashed)",
-            renderers=[fig.line(hidden_x, hidden_y, line_color="#555555", line_dash="dashed")],
-        ),
+        )
     ]
+    if "analytic_power" in table and table["analytic_power"].notna().any():  # only when one is drawn
+        items.append(
+            LegendItem(
+                label="analytic approximation (dashed)",
+                renderers=[fig.line(hidden_x, hidden_y, line_color="#555555", line_dash="dashed")],
+            )
+        )
+    return items
 
 
 def power_figure(plan_result, *, target_power: float, width: int = 700):
@@ -452,7 +467,9 @@ def power_figure(plan_result, *, target_power: float, width: int = 700):
         if len(smallest):
             _mark_smallest_n(fig, smallest, name, colours[name], target_power)
     items += _target_items(fig, table, target_power)
-    fig.add_layout(Legend(items=items, label_text_font_size=FONT, border_line_color=None, spacing=2), "right")
+    fit_to_width(fig, width)
+    fig.height = 380 + 18 * math.ceil(len(items) / 2)  # room for the legend below, as it wraps
+    legend_below(fig, items)  # below and wrapped: many strategies never run over the plot or each other
     n_axis(fig, table["n"])
     return fig
 
@@ -460,7 +477,9 @@ def power_figure(plan_result, *, target_power: float, width: int = 700):
 def by_n_figure(
     plan_result, column: str, *, title: str, y_label: str, width: int = 520, zero_line: bool = False
 ):
-    """One performance measure (``bias``, ``emp_se``, ...) against n, one line per strategy.
+    """One performance measure (``bias``, ``emp_se``, ...) against n, one line per strategy; strategies on
+    different scales (risk difference, log odds ratio: :func:`workbench.report.style.scale_of`) get one panel
+    each, stacked in a Bokeh ``column``, so no axis mixes two scales.
 
     Examples
     --------
@@ -473,6 +492,34 @@ def by_n_figure(
     table = plan_result.table
     names = list(dict.fromkeys(table["strategy"]))
     colours = strategy_colours(names)
+    smallest = plan_result.smallest_n
+    scales: dict[str, list[str]] = {}
+    estimands = (
+        dict(zip(smallest["strategy"], smallest["estimand"], strict=True)) if "estimand" in smallest else {}
+    )
+    for name in names:
+        scales.setdefault(scale_of(estimands.get(name, "")), []).append(name)
+    panels = [
+        _by_n_panel(
+            table,
+            group,
+            colours,
+            column,
+            title=title + (f": {scale}" if len(scales) > 1 else ""),
+            y_label=y_label,
+            width=width,
+            zero_line=zero_line,
+        )
+        for scale, group in scales.items()
+    ]
+    return (
+        panels[0] if len(panels) == 1 else bokeh_column(*panels, sizing_mode="stretch_width", max_width=width)
+    )
+
+
+def _by_n_panel(table, names, colours, column, *, title, y_label, width, zero_line):
+    """One panel of :func:`by_n_figure`: the strategies ``names``, all on one scale."""
+    table = table[table["strategy"].isin(names)]
     fig = figure(
         width=width,
         height=300,
@@ -502,6 +549,7 @@ def by_n_figure(
         items.append(LegendItem(label=name, renderers=renderers))
     if zero_line:
         fig.add_layout(Span(location=0, dimension="width", line_color="#000000", line_dash="dotted"))
+    fit_to_width(fig, width)
     legend_above(fig, items)
     n_axis(fig, table["n"])
     return fig

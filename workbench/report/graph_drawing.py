@@ -25,7 +25,7 @@ import networkx as nx
 from bokeh.models import Arrow, ColumnDataSource, HoverTool, Legend, LegendItem, Range1d, VeeHead
 from bokeh.plotting import figure
 
-from workbench.report.style import EDGE_COLOUR, FONT, ROLE_STYLE, style_figure
+from workbench.report.style import EDGE_COLOUR, FONT, ROLE_STYLE, fit_to_width, style_figure
 from workbench.scenario.model import Scenario
 
 __all__ = ["ROLE_STYLE", "primary_role", "graph_layout", "graph_figure"]
@@ -626,7 +626,8 @@ def graph_figure(
     adjust : sequence of str
         The strategy's adjustment set (drawn with a thick black ring).
     width, height : int
-        Size of the plotting area in pixels (fixed so that arrow heads stop at the nodes' edges).
+        Size of the plotting area in pixels (arrow heads stop at the nodes' edges at this size); in a
+        narrower container the figure shrinks in width, down to 520 pixels.
 
     Returns
     -------
@@ -654,4 +655,5 @@ def graph_figure(
     _draw_names(fig, name_at, frame, adjusted)
     items += _marking_items(fig, frame, adjusted, verdict)
     _add_legend_and_hover(fig, items, node_renderers)
+    fit_to_width(fig, fig.width, smallest=min(fig.width, 520))  # narrower windows: shrink, never scroll
     return fig

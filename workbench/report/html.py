@@ -36,6 +36,7 @@ from bokeh.layouts import gridplot, row
 from bokeh.resources import Resources
 
 from workbench import __version__
+from workbench.formatting.markup import text_html
 from workbench.formatting.numbers import fmt_mcse
 from workbench.report import dataset_figures, figures, graph_drawing, tables
 from workbench.report.explain import ASSUMPTION_NOTE, consequences_html, explain
@@ -150,6 +151,9 @@ def _plan_section(plan, models: dict) -> dict:
         section["also_smallest_n_table"] = (
             tables.also_smallest_n_table(also_n) if also_n is not None and len(also_n) else ""
         )
+        sentence = plan.all_effects_sentence()
+        if sentence:
+            section["also_smallest_n_table"] += f'<p class="wb-all-effects">{text_html(sentence)}</p>'
     return section
 
 
@@ -183,6 +187,7 @@ def build_report(
     plan=None,
     dataset: pd.DataFrame | None = None,
     covariate: str | None = None,
+    sensitivity=None,
 ) -> str:
     """The report as one HTML document, rendered from the template :data:`TEMPLATE`.
 
@@ -197,6 +202,8 @@ def build_report(
         A sample-size plan of ``scenario``.
     dataset : DataFrame, optional
         One simulated dataset for the one-dataset figures, with ``covariate`` colouring the points.
+    sensitivity : SensitivityResult, optional
+        A sensitivity analysis (:func:`workbench.analysis.sensitivity.sensitivity`): adds its section.
 
     Returns
     -------
@@ -234,7 +241,14 @@ def build_report(
     if dataset is not None:
         models["dataset"] = _dataset_figure(scenario, dataset, covariate)
     script, divs = components(models)
-    return _environment().get_template(TEMPLATE).render(context, bokeh_script=script, figures=divs)
+    page = _environment().get_template(TEMPLATE).render(context, bokeh_script=script, figures=divs)
+    if sensitivity is not None:  # an optional section, built (escaped) by report.sensitivity_figures
+        from workbench.report.sensitivity_figures import sensitivity_section
+
+        page = page.replace(
+            '<section id="scenario">', sensitivity_section(sensitivity) + '<section id="scenario">', 1
+        )
+    return page
 
 
 def write_report(path: str | os.PathLike, scenario: Scenario, **kwargs) -> None:

@@ -32,6 +32,10 @@ __all__ = [
     "style_figure",
     "n_axis",
     "legend_above",
+    "legend_below",
+    "legend_columns",
+    "fit_to_width",
+    "scale_of",
 ]
 
 #: The eight Okabe-Ito colours.
@@ -122,27 +126,106 @@ def n_axis(fig, sizes: Iterable[float]) -> None:
     fig.xaxis.ticker = FixedTicker(ticks=ticks, minor_ticks=[])
 
 
-def legend_above(fig, items) -> None:
-    """Put a horizontal legend with ``items`` (``LegendItem``) above the plot, where it covers no data.
+#: About how wide one character of a legend label is at :data:`FONT`, and what a legend entry adds (its
+#: glyph, padding and spacing), in pixels: enough to keep wrapped entries from running into each other.
+_CHAR_PX, _ENTRY_PX = 6.6, 34
+
+
+def legend_columns(labels: Sequence[str], width: int) -> int:
+    """How many legend entries fit side by side in ``width`` pixels (the widest label sets the column).
 
     Examples
     --------
-    >>> from bokeh.models import LegendItem
-    >>> from bokeh.plotting import figure
-    >>> fig = figure(width=300, height=200)
-    >>> legend_above(fig, [LegendItem(label="a", renderers=[fig.line([0, 1], [0, 1])])])
-    >>> fig.above[0].orientation
-    'horizontal'
+    >>> legend_columns(["unadjusted", "adjust_soil"], 540)
+    4
+    >>> legend_columns(["standardized_adjust_fragility"] * 5, 530)
+    2
     """
+    widest = max((len(label) for label in labels), default=1)
+    return max(1, int((width - 20) // (widest * _CHAR_PX + _ENTRY_PX)))
+
+
+def _label_text(item) -> str:
+    label = item.label
+    return str(getattr(label, "value", label.get("value", "") if isinstance(label, dict) else label))
+
+
+def _legend(fig, items, place: str) -> None:
+    labels = [_label_text(item) for item in items]
+    width = fig.max_width or fig.width or 600
     fig.add_layout(
         Legend(
             items=items,
             label_text_font_size=FONT,
             border_line_color=None,
             orientation="horizontal",
+            ncols=min(len(items), legend_columns(labels, width)) or 1,
             padding=2,
             margin=2,
             spacing=8,
         ),
-        "above",
+        place,
     )
+
+
+def legend_above(fig, items) -> None:
+    """Put a horizontal legend with ``items`` (``LegendItem``) above the plot, where it covers no data; it
+    wraps into rows when the entries do not fit side by side (:func:`legend_columns`).
+
+    Examples
+    --------
+    >>> from bokeh.models import LegendItem
+    >>> from bokeh.plotting import figure
+    >>> fig = figure(width=300, height=200)
+    >>> legend_above(fig, [LegendItem(label=f"strategy_{i}", renderers=[fig.line([0, 1], [0, 1])]) for i in range(5)])
+    >>> fig.above[0].orientation, fig.above[0].ncols
+    ('horizontal', 2)
+    """
+    _legend(fig, items, "above")
+
+
+def legend_below(fig, items) -> None:
+    """:func:`legend_above`, below the plot (under the x axis).
+
+    Examples
+    --------
+    >>> from bokeh.models import LegendItem
+    >>> from bokeh.plotting import figure
+    >>> fig = figure(width=300, height=200)
+    >>> legend_below(fig, [LegendItem(label="a", renderers=[fig.line([0, 1], [0, 1])])])
+    >>> fig.below[-1].ncols
+    1
+    """
+    _legend(fig, items, "below")
+
+
+def fit_to_width(fig, width: int, smallest: int = 320) -> None:
+    """Let a figure shrink to its container, from ``width`` pixels down to ``smallest``, so two figures side
+    by side fit a narrower window instead of making it scroll sideways.
+
+    Examples
+    --------
+    >>> from bokeh.plotting import figure
+    >>> fig = figure(width=530, height=200)
+    >>> fit_to_width(fig, 530)
+    >>> fig.sizing_mode, fig.max_width, fig.min_width
+    ('stretch_width', 530, 320)
+    """
+    fig.sizing_mode = "stretch_width"
+    fig.max_width = width
+    fig.min_width = min(smallest, width)
+
+
+def scale_of(estimand: str) -> str:
+    """The measurement scale of an estimand, for keeping one scale per axis: ``log odds ratio``, ``risk
+    difference`` or ``difference``.
+
+    Examples
+    --------
+    >>> scale_of("conditional log odds ratio"), scale_of("marginal risk difference"), scale_of("total effect")
+    ('log odds ratio', 'risk difference', 'difference')
+    """
+    text = str(estimand)
+    if "log odds" in text:
+        return "log odds ratio"
+    return "risk difference" if "risk difference" in text else "difference"

@@ -43,6 +43,8 @@ __all__ = [
     "flags",
     "performance_table",
     "signals_table",
+    "change_in_estimate",
+    "CHANGE_NOTE",
     "strategies_table",
     "smallest_n_table",
     "also_smallest_n_table",
@@ -191,6 +193,8 @@ class _Columns:
             "RMSE",
             f"coverage of {1 - alpha:.0%} CI",
             "power",
+            "type S (wrong sign, of significant)",
+            "exaggeration (significant)",
             "failed fits",
         ]
 
@@ -278,6 +282,8 @@ def _measure_cells(r: Any, name: str, alpha: float) -> list[str]:
             title=COVERAGE_FLAG_TEXT if flag["coverage"] else "",
         ),
         _cell(name, "power", _get(r, "power"), mcse=_get(r, "power_mcse")),
+        _cell(name, "type_s", _get(r, "type_s"), mcse=_get(r, "type_s_mcse")),
+        _cell(name, "exaggeration", _get(r, "exaggeration"), mcse=_get(r, "exaggeration_mcse"), digits=2),
         _cell(name, "failures", _get(r, "failures"), digits=0),
     ]
 
@@ -332,8 +338,53 @@ def performance_table(table: pd.DataFrame, *, alpha: float, table_id: str = "per
     return out
 
 
+#: What the change-in-estimate column of :func:`signals_table` shows.
+CHANGE_NOTE = (
+    "Change in estimate: how far the strategy's average estimate over the simulated studies lies from the "
+    "unadjusted model's (same model kind), in % of the size of the unadjusted average: "
+    "100 x (mean - unadjusted mean) / |unadjusted mean|. When the unadjusted average lies within one "
+    "empirical SE of 0, a percentage of it means nothing; the column then gives the change itself, in the "
+    "estimate's units, marked 'units'. When the unadjusted fit is not a listed strategy, the column gives the "
+    "median over studies of the same change in % of each study's |unadjusted estimate|."
+)
+
+
+def change_in_estimate(table: pd.DataFrame) -> dict[str, tuple[float | None, str]]:
+    """Per strategy, the change in estimate against its unadjusted reference and its kind: ``"%"`` (percent
+    of the unadjusted average), ``"units"`` (the unadjusted average is within one empirical SE of 0, so the
+    difference of averages is given instead), ``"% median"`` (the reference is not in the table: the median of
+    the per-study relative change) or ``""`` (unknown). :data:`CHANGE_NOTE` says it in words.
+
+    Examples
+    --------
+    >>> rows = [{"name": "u", "reference": "u", "mean": -2.0, "emp_se": 0.5},
+    ...         {"name": "a", "reference": "u", "mean": -1.5, "emp_se": 0.6},
+    ...         {"name": "z", "reference": "w", "mean": 0.3, "emp_se": 0.6},
+    ...         {"name": "w", "reference": "w", "mean": 0.1, "emp_se": 0.6}]
+    >>> change_in_estimate(pd.DataFrame(rows))
+    {'u': (0.0, '%'), 'a': (25.0, '%'), 'z': (0.2, 'units'), 'w': (0.0, 'units')}
+    """
+    by_name = {str(r["name"]): r for _, r in table.iterrows()}
+    out: dict[str, tuple[float | None, str]] = {}
+    for name, r in by_name.items():
+        ref = by_name.get(str(_get(r, "reference")))
+        mean = _get(r, "mean")
+        if ref is not None and mean is not None and _get(ref, "mean") is not None:
+            ref_mean, ref_se = float(ref["mean"]), _get(ref, "emp_se")
+            if ref_se is not None and abs(ref_mean) < float(ref_se):
+                out[name] = (float(mean) - ref_mean, "units")
+            else:
+                out[name] = (100.0 * (float(mean) - ref_mean) / abs(ref_mean), "%")
+        elif _get(r, "change_in_estimate_median") is not None:
+            out[name] = (100.0 * float(r["change_in_estimate_median"]), "% median")
+        else:
+            out[name] = (None, "")
+    return out
+
+
 def signals_table(table: pd.DataFrame, *, table_id: str = "signals") -> str:
-    """Change in estimate against the unadjusted strategy, SE ratio and the exposure's VIF per strategy.
+    """Change in estimate against the unadjusted strategy (:func:`change_in_estimate`, defined under the
+    table by :data:`CHANGE_NOTE`), SE ratio and the exposure's VIF per strategy.
 
     Examples
     --------
@@ -344,23 +395,32 @@ def signals_table(table: pd.DataFrame, *, table_id: str = "signals") -> str:
     """
     head = (
         "strategy",
-        "median change in estimate vs unadjusted",
-        "share of replicates with change > 10%",
+        "change in estimate vs unadjusted (%)",
+        "share of studies with change > 10%",
         "SE ratio vs unadjusted",
         "VIF of the exposure",
     )
+    changes = change_in_estimate(table)
     rows = []
     for _, r in table.iterrows():
         name = str(r["name"])
+        value, kind = changes[name]
+        change = _cell(name, "change_in_estimate", value, digits=1)
+        if kind in ("units", "% median"):
+            marker = "units" if kind == "units" else "median"
+            change = change.replace("</td>", f' <span class="mcse">({marker})</span></td>', 1)
         cells = [
             f"<td>{text_html(name)}</td>",
-            _cell(name, "change_in_estimate_median", _get(r, "change_in_estimate_median")),
-            _cell(name, "share_change_over_10pct", _get(r, "share_change_over_10pct")),
+            change.replace("<td", f'<td data-kind="{attr_html(kind)}"', 1),
+            _cell(
+                name, "share_change_over_10pct", _get(r, "share_change_over_10pct"), digits=1, percent=True
+            ),
             _cell(name, "se_ratio", _get(r, "se_ratio")),
             _cell(name, "vif", _get(r, "vif"), digits=2),
         ]
         rows.append("<tr>" + "".join(cells) + "</tr>")
-    return _html_table(table_id, head, rows)
+    note = f'<p class="wb-note" style="font-size:12px;margin:2px 0 6px 0">{text_html(CHANGE_NOTE)}</p>'
+    return _html_table(table_id, head, rows) + note
 
 
 def strategies_table(checks: Iterable[StrategyCheck], *, table_id: str = "verdicts") -> str:

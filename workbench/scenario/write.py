@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import errno
 import os
+import re
 import stat
 import tempfile
 from pathlib import Path
@@ -22,7 +23,7 @@ import tomli_w
 
 from workbench.scenario.model import Scenario
 
-__all__ = ["scenario_to_dict", "dumps_scenario", "write_text_atomically", "save_scenario"]
+__all__ = ["scenario_to_dict", "dumps_scenario", "dumps_tables", "write_text_atomically", "save_scenario"]
 
 
 # --------------------------------------------------------------------------------------------------------
@@ -53,15 +54,14 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
     out["question"] = question
     variables: dict[str, Any] = {}
     for v in scenario.variables:
-        table: dict[str, Any] = {"type": v.type}
+        table: dict[str, Any] = {} if v.label is None else {"label": v.label}
+        table["type"] = v.type
         if v.is_binary:
             table["proportion"] = v.proportion
         else:
             table["noise_sd"] = v.noise_sd
             table["baseline"] = v.baseline
         table["observed"] = v.observed
-        if v.label is not None:
-            table["label"] = v.label
         if v.position is not None:
             table["position"] = list(v.position)
         variables[v.name] = table
@@ -109,7 +109,92 @@ def dumps_scenario(scenario: Scenario, *, include_default_strategies: bool = Tru
     >>> loads_scenario(dumps_scenario(sc)) == sc
     True
     """
-    return tomli_w.dumps(scenario_to_dict(scenario, include_default_strategies=include_default_strategies))
+    return dumps_tables(scenario_to_dict(scenario, include_default_strategies=include_default_strategies))
+
+
+#: The longest line of a long string in the written file, its key and closing backslash included (as in the
+#: presets).
+TEXT_WIDTH = 113
+
+
+def _string(text: str) -> str:
+    """A TOML basic string (tomli_w escapes exactly what the format asks)."""
+    return tomli_w.dumps({"k": text})[4:-1]
+
+
+def _long_string(text: str, key: str) -> str:
+    """A long string as a multi-line basic string whose lines end in a backslash (the line break and the
+    next line's leading spaces are then not part of the value), so an edit shows as a change of a line."""
+    import textwrap
+
+    lead = len(key) + 6  # key = """
+    if lead + len(text) <= TEXT_WIDTH or any(c in text for c in '\\"\n\t') or "  " in text:
+        return _string(text)
+    words = textwrap.wrap(
+        text, width=TEXT_WIDTH - 2, initial_indent=" " * lead, break_long_words=False, break_on_hyphens=False
+    )
+    words[0] = words[0][lead:]
+    if " ".join(words) != text:
+        return _string(text)
+    return '"""' + " \\\n".join(words) + '"""'
+
+
+def _value(value: Any) -> str:
+    """One TOML value on one line: arrays and tables inline."""
+    if isinstance(value, dict):
+        inner = ", ".join(f"{_key(k)} = {_value(v)}" for k, v in value.items())
+        return "{ " + inner + " }" if inner else "{}"
+    if isinstance(value, (list, tuple)):
+        return "[" + ", ".join(_value(v) for v in value) + "]"
+    if isinstance(value, str):
+        return _string(value)
+    return tomli_w.dumps({"k": value})[4:-1]
+
+
+def _key(key: str) -> str:
+    """A bare key when it may be one, else a quoted key."""
+    return key if re.fullmatch(r"[A-Za-z0-9_-]+", key) else _string(key)
+
+
+def _pairs(table: dict) -> list[str]:
+    return [
+        f"{_key(k)} = {_long_string(v, _key(k)) if isinstance(v, str) else _value(v)}"
+        for k, v in table.items()
+        if not isinstance(v, dict) or k == "restrict"
+    ]
+
+
+def dumps_tables(data: dict) -> str:
+    """Scenario tables (:func:`scenario_to_dict`) as TOML text laid out as the presets and the docs are:
+    top-level keys, ``[question]``, one ``[variables.name]`` table per variable, one ``[[arrows]]`` and one
+    ``[[strategies]]`` table per entry, ``[study]``; arrays and restrictions inline, long text wrapped.
+
+    One value sits on one line, so a line diff of two saved files shows exactly what changed.
+
+    Examples
+    --------
+    >>> print(dumps_tables({"title": "t", "arrows": [{"from": "a", "to": "b", "effect": 0.5}],
+    ...                     "study": {"sample_sizes": [50, 100]}}))
+    title = "t"
+    <BLANKLINE>
+    [[arrows]]
+    from = "a"
+    to = "b"
+    effect = 0.5
+    <BLANKLINE>
+    [study]
+    sample_sizes = [50, 100]
+    <BLANKLINE>
+    """
+    blocks = [_pairs({k: v for k, v in data.items() if not isinstance(v, (dict, list))})]
+    for key, value in data.items():
+        if key == "variables":
+            blocks += [[f"[variables.{_key(name)}]", *_pairs(table)] for name, table in value.items()]
+        elif isinstance(value, dict):
+            blocks.append([f"[{_key(key)}]", *_pairs(value)])
+        elif isinstance(value, list):
+            blocks += [[f"[[{_key(key)}]]", *_pairs(table)] for table in value]
+    return "\n\n".join("\n".join(block) for block in blocks if block) + "\n"
 
 
 def write_text_atomically(path: str | os.PathLike, text: str) -> None:
