@@ -128,7 +128,8 @@ class _ChunkFitter:
         self.y = index[plan.outcome]
         self.masked = {}  # (restrict, match) -> (masked cross-products, rows kept)
         self.logits = {}  # regressors -> (design, LogitFit)
-        if isinstance(S, FactoredCrossproducts):  # the factor's columns the leading-set fits use, in one product
+        # the factor's columns the leading-set fits use, in one product
+        if isinstance(S, FactoredCrossproducts):
             S.prepare([(self.y, [index[i] for i in f.regressors], _wanted(f)) for f in plan.fits if f.fixed])
 
     @property
