@@ -186,11 +186,12 @@ def simulated_large_sample(scenario: Scenario) -> dict[str, LargeSample]:
         estimates, ses, ratio = figures[s.name]
         _, scale, _ = estimand(model_kind(s, binary), scenario, s.adjust)
         truth = true_effect(scenario, scale)
-        sd = float(np.nanstd(estimates, ddof=1))
+        finite = estimates[np.isfinite(estimates)]  # every batch fails for a constant regressor
+        sd = float(np.std(finite, ddof=1)) if finite.size > 1 else float("nan")
         out[s.name] = LargeSample(
-            estimate=float(np.nanmean(estimates)),
-            mcse=sd / np.sqrt(np.isfinite(estimates).sum()),
-            se_factor=float(np.nanmean(ses)) * np.sqrt(m),
+            estimate=float(np.mean(finite)) if finite.size else float("nan"),
+            mcse=sd / np.sqrt(finite.size) if finite.size else float("nan"),
+            se_factor=float(np.mean(ses[np.isfinite(ses)])) * np.sqrt(m) if finite.size else float("nan"),
             emp_se_factor=sd * np.sqrt(m),
             se_ratio=ratio,
             truth=float(truth.value),
@@ -256,7 +257,10 @@ def _sandwich_ratio(raw: np.ndarray, total: np.ndarray, mean: np.ndarray, y: int
     cross-product matrix, so its HC0 variance is ``sum_i c_i^2 e_i^2`` (White 1980, from memory)."""
     n = raw.shape[1]
     cols = np.asarray(regressors)
-    inverse = np.linalg.inv(total[np.ix_(cols, cols)])
+    try:
+        inverse = np.linalg.inv(total[np.ix_(cols, cols)])
+    except np.linalg.LinAlgError:  # a constant or collinear regressor (noise_sd = 0): no ratio to report
+        return float("nan")
     beta = inverse @ total[cols, y]
     w = inverse[0]
     ee, meat = 0.0, 0.0

@@ -47,7 +47,6 @@ Examples
 from __future__ import annotations
 
 import graphlib
-import math
 import os
 import re
 import tomllib
@@ -58,7 +57,6 @@ from typing import Any
 from workbench.errors import ScenarioError, shown
 from workbench.scenario.constraints import (
     MAX_ARROWS,
-    MAX_SELECTION_CANDIDATES,
     MAX_VARIABLES,
     check_setting,
 )
@@ -73,8 +71,6 @@ from workbench.scenario.limits import (
     MAX_MAGNITUDE,
     MAX_NAME,
     MAX_SAMPLE_SIZES,
-    MAX_STRATEGIES,
-    MAX_STRATEGY_NAME,
     MAX_SUMMARY,
     MAX_TITLE,
     MIN_NOISE_SD,
@@ -86,21 +82,18 @@ from workbench.scenario.limits import (
     read_scenario_text,
 )
 from workbench.scenario.model import (
-    MODELS,
     NAME_PATTERN,
     SCALES,
-    SELECTIONS,
-    STRATEGY_NAME_PATTERN,
     TARGETS,
     VARIABLE_TYPES,
     Arrow,
     Question,
     Scenario,
-    Strategy,
     Study,
     Variable,
     minimum_study_size,
 )
+from workbench.scenario.parse_strategies import parse_strategies
 
 __all__ = ["parse_scenario", "parse_scenario_text", "read_scenario", "check_sizes"]
 
@@ -112,7 +105,6 @@ _TOP_KEYS = ("title", "summary", "question", "variables", "arrows", "strategies"
 _QUESTION_KEYS = ("exposure", "outcome", "target", "scale", "also")
 _VARIABLE_KEYS = ("type", "noise_sd", "baseline", "proportion", "observed", "label", "position")
 _ARROW_KEYS = ("from", "to", "effect")
-_STRATEGY_KEYS = ("name", "adjust", "model", "standardize", "selection", "restrict", "match")
 _STUDY_KEYS = ("n", "replicates", "seed", "alpha", "sample_sizes", "target_power", "target_halfwidth")
 
 
@@ -342,108 +334,6 @@ def _parse_study(data: dict) -> Study:
     return Study(n, replicates, seed, alpha, tuple(sorted(set(sizes))), target_power, target_halfwidth)
 
 
-def _parse_adjust(table: dict, where: str, by_name: dict[str, Variable], question: Question) -> list[str]:
-    """A strategy's ``adjust``: observed variables other than the exposure and the outcome, each once."""
-    exposure, outcome = question.exposure, question.outcome
-    adjust: list[str] = []
-    for j, var in enumerate(_get(table, "adjust", "list", where, []), start=1):
-        place = f"{where}.adjust[{j}]"
-        _known(var, list(by_name), place)
-        if var == exposure:
-            raise ScenarioError(f"'{var}' is the exposure; it is always in the model", where=place)
-        if var == outcome:
-            raise ScenarioError(f"'{var}' is the outcome and cannot be adjusted for", where=place)
-        if not by_name[var].observed:
-            raise ScenarioError(
-                f"'{var}' is latent (observed = false) and cannot be adjusted for", where=place
-            )
-        if var in adjust:
-            raise ScenarioError(f"'{var}' is listed twice", where=place)
-        adjust.append(var)
-    return adjust
-
-
-def _parse_selection(table: dict, where: str, model: str, outcome_binary: bool, adjust: list[str]):
-    """A strategy's ``selection`` rule: OLS on a continuous outcome, 1 to 10 candidates in ``adjust``."""
-    selection = _get(table, "selection", "str", where, None)
-    if selection is None:
-        return None
-    _choice(selection, SELECTIONS, f"{where}.selection")
-    if model != "ols" or outcome_binary:
-        raise ScenarioError(
-            'selection applies to model = "ols" with a continuous outcome only', where=f"{where}.selection"
-        )
-    if not adjust:
-        raise ScenarioError(
-            "a selection rule needs candidate covariates in 'adjust'", where=f"{where}.selection"
-        )
-    if len(adjust) > MAX_SELECTION_CANDIDATES:
-        raise ScenarioError(
-            f"at most {MAX_SELECTION_CANDIDATES} candidate covariates with a selection rule, got {len(adjust)}",
-            where=f"{where}.adjust",
-        )
-    return selection
-
-
-def _parse_strategy(
-    i: int, table: Any, by_name: dict[str, Variable], question: Question, taken: set[str]
-) -> Strategy:
-    """Strategy ``i`` (counted from 1): a unique name, its set, model, options and design."""
-    where = f"strategies[{i}]"
-    if not isinstance(table, dict):
-        raise ScenarioError(f"must be a table, got {_type_name(table)}", where=where)
-    _check_keys(table, _STRATEGY_KEYS, where)
-    name = _get(table, "name", "str", where, required=True).strip()
-    if not name:
-        raise ScenarioError("must not be empty", where=f"{where}.name")
-    if not STRATEGY_NAME_PATTERN.fullmatch(name):
-        raise ScenarioError(
-            f"a strategy name must be a letter, then letters, digits or '_', at most {MAX_STRATEGY_NAME} "
-            f"characters, got {shown(name)}",
-            where=f"{where}.name",
-        )
-    if name in taken:
-        raise ScenarioError(f"duplicate strategy name '{name}'", where=f"{where}.name")
-    exposure, outcome = question.exposure, question.outcome
-    outcome_binary = by_name[outcome].is_binary
-    adjust = _parse_adjust(table, where, by_name, question)
-    model = _choice(_get(table, "model", "str", where, "ols"), MODELS, f"{where}.model")
-    if model == "logit" and not outcome_binary:
-        raise ScenarioError(
-            f"'logit' needs a binary outcome; '{outcome}' is continuous", where=f"{where}.model"
-        )
-    standardize = _get(table, "standardize", "bool", where, False)
-    if standardize and model != "logit":
-        raise ScenarioError(
-            'standardize = true applies to model = "logit" only', where=f"{where}.standardize"
-        )
-    selection = _parse_selection(table, where, model, outcome_binary, adjust)
-    restrict = _parse_restrict(table, where, by_name, exposure, outcome, adjust)
-    if restrict and (model != "ols" or outcome_binary):
-        raise ScenarioError(
-            'restrict applies to model = "ols" with a continuous outcome only', where=f"{where}.restrict"
-        )
-    match = _parse_match(table, where, by_name, exposure, outcome, adjust, model)
-    return Strategy(name, tuple(adjust), model, standardize, selection, restrict, match)
-
-
-def _parse_strategies(
-    data: dict, by_name: dict[str, Variable], question: Question
-) -> tuple[tuple[Strategy, ...], bool]:
-    """The ``[[strategies]]`` and whether the file gives the key (an empty list is an error)."""
-    strategy_list = _get(data, "strategies", "list", "", None)
-    if strategy_list is not None and len(strategy_list) > MAX_STRATEGIES:
-        raise ScenarioError(
-            f"at most {MAX_STRATEGIES} strategies, got {len(strategy_list)}", where="strategies"
-        )
-    strategies: list[Strategy] = []
-    for i, table in enumerate(strategy_list or [], start=1):
-        strategies.append(_parse_strategy(i, table, by_name, question, {s.name for s in strategies}))
-    if strategy_list is not None and not strategies:
-        raise ScenarioError("lists no strategy; remove the key to get the default set", where="strategies")
-    return tuple(strategies), strategy_list is not None
-
-
 def parse_scenario(data: dict) -> Scenario:
     """Build and validate a scenario from the parsed TOML tables.
 
@@ -488,88 +378,12 @@ def parse_scenario(data: dict) -> Scenario:
     check_scales(variables, arrows)
     question = _parse_question(data, by_name)
     study = _parse_study(data)
-    strategies, given = _parse_strategies(data, by_name, question)
+    strategies, given = parse_strategies(data, by_name, question)
     scenario = Scenario(
         title, question, variables, arrows, strategies, study, summary, strategies_given=given
     )
     check_sizes(scenario)
     return scenario
-
-
-def _parse_restrict(table: dict, where: str, by_name: dict, exposure: str, outcome: str, adjust) -> tuple:
-    """``restrict = { var = 0 }`` (binary: keep units with that value) or ``{ var = [low, high] }``
-    (continuous: keep units inside the closed interval)."""
-    spec = _get(table, "restrict", "table", where, {})
-    out = []
-    for name, value in spec.items():
-        place = place_of(f"{where}.restrict", name)
-        _known(name, list(by_name), place)
-        if name in (exposure, outcome):
-            role = "exposure" if name == exposure else "outcome"
-            raise ScenarioError(f"'{name}' is the {role} and cannot be restricted on", where=place)
-        if not by_name[name].observed:
-            raise ScenarioError(
-                f"'{name}' is latent (observed = false) and cannot be restricted on", where=place
-            )
-        if by_name[name].is_binary:
-            if name in adjust:
-                raise ScenarioError(
-                    f"'{name}' is also in 'adjust': after restriction it is constant; drop it from 'adjust'",
-                    where=place,
-                )
-            if isinstance(value, bool) or not isinstance(value, int) or value not in (0, 1):
-                raise ScenarioError(
-                    f"'{name}' is binary: give the value to keep, 0 or 1, got {shown(value)}", where=place
-                )
-            out.append((name, int(value)))
-            continue
-        if (
-            not isinstance(value, list)
-            or len(value) != 2
-            or not all(isinstance(v, int | float) and not isinstance(v, bool) for v in value)
-        ):
-            raise ScenarioError(
-                f"'{name}' is continuous: give the interval to keep as [low, high], got {shown(value)}",
-                where=place,
-            )
-        try:
-            low, high = float(value[0]), float(value[1])
-        except OverflowError:  # an integer beyond the largest double
-            low = high = math.inf
-        if not (math.isfinite(low) and math.isfinite(high)) or not low < high:
-            raise ScenarioError(f"the interval must have finite low < high, got {shown(value)}", where=place)
-        out.append((name, (low, high)))
-    return tuple(out)
-
-
-def _parse_match(table: dict, where: str, by_name: dict, exposure: str, outcome: str, adjust, model) -> tuple:
-    """``match = ["shift", ...]``: observed binary variables to match exactly on (binary exposure, continuous
-    outcome, ``model = "ols"`` only)."""
-    spec = _get(table, "match", "list", where, [])
-    if not spec:
-        return ()
-    place = f"{where}.match"
-    if not by_name[exposure].is_binary:
-        raise ScenarioError(f"matching needs a binary exposure; '{exposure}' is continuous", where=place)
-    if by_name[outcome].is_binary:
-        raise ScenarioError(f"matching needs a continuous outcome; '{outcome}' is binary", where=place)
-    if model != "ols":
-        raise ScenarioError(f'matching applies to model = "ols" only, got {model!r}', where=place)
-    out: list[str] = []
-    for j, name in enumerate(spec, start=1):
-        here = f"{place}[{j}]"
-        _known(name, list(by_name), here)
-        if name in (exposure, outcome):
-            role = "exposure" if name == exposure else "outcome"
-            raise ScenarioError(f"'{name}' is the {role} and cannot be matched on", where=here)
-        if not by_name[name].observed:
-            raise ScenarioError(f"'{name}' is latent (observed = false) and cannot be matched on", where=here)
-        if not by_name[name].is_binary:
-            raise ScenarioError(f"'{name}' is continuous; exact matching needs a binary variable", where=here)
-        if name in out:
-            raise ScenarioError(f"'{name}' is listed twice", where=here)
-        out.append(name)
-    return tuple(out)
 
 
 def check_sizes(scenario: Scenario) -> None:
