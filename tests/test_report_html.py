@@ -155,6 +155,10 @@ def test_every_section_is_there_with_a_run_and_a_plan(tmp_path):
     for section in ("graph", "estimates", "sample-size", "stories", "scenario"):
         assert f'<section id="{section}">' in page
     assert "Separating the effects" in page
+    # the precision view and the joint power of the two effects (issue 14 items 3 and 5), figure titles in the
+    # embedded Bokeh document (common practice, no source)
+    assert "Precision: confidence-interval half-width against n" in page
+    assert "Power to detect every effect in the same study" in page
     assert "No simulation was run" not in page
     assert page.count('<section class="story') == len(sc.strategies)
 

@@ -119,6 +119,8 @@ class SweepResult:
         The seed every cell used.
     replicates : int
     engine : str
+        The engine asked for (``"auto"`` lets each cell choose: the exact engine for a linear-Gaussian cell,
+        the raw one otherwise, as :func:`workbench.simulate` does).
     cells : int
         Cells in the grid.
     table : pandas.DataFrame

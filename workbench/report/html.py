@@ -38,7 +38,7 @@ from bokeh.resources import Resources
 from workbench import __version__
 from workbench.formatting.markup import text_html
 from workbench.formatting.numbers import fmt_mcse
-from workbench.report import dataset_figures, figures, graph_drawing, tables
+from workbench.report import dataset_figures, figures, graph_drawing, plan_figures, tables
 from workbench.report.explain import ASSUMPTION_NOTE, consequences_html, explain
 from workbench.scenario.model import Scenario
 from workbench.scenario.write import dumps_scenario, write_text_atomically
@@ -143,8 +143,10 @@ def _plan_section(plan, models: dict) -> dict:
         ncols=2,
         toolbar_location=None,
     )
+    models["precision"] = plan_figures.precision_figure(plan, width=1080)
     section = {"smallest_n_table": tables.smallest_n_table(plan.smallest_n), "separation": False}
     if plan.also_table is not None and len(plan.also_table):
+        models["joint_power"] = plan_figures.joint_power_figure(plan, width=1080)
         models["separation"] = figures.separation_figure(plan.also_table, plan.table, width=530)
         also_n = plan.also_smallest_n
         section["separation"] = True
