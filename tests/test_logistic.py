@@ -259,3 +259,43 @@ def test_exactly_singular_and_non_finite_designs_fail_quietly(capfd):
     assert np.isfinite(coef[0]).all() and np.isnan(se[1:]).all()
     out, err = capfd.readouterr()
     assert out == "" and err == ""
+
+
+def test_large_n_subsample_start_reaches_the_statsmodels_optimum():
+    """Source: statsmodels ``Logit`` (Newton, its own start) as the reference optimum. From n = 8,000 rows on
+    the fit starts from a fit of every k-th row and binary columns share their square's row; neither may
+    move the estimates: they must agree with statsmodels to 1e-8 (issue 12's bar), the SEs too."""
+    sm = pytest.importorskip("statsmodels.api")
+    X, y = _draw(31, R=3, n=9000)
+    fit = fit_logit_batch(X, y)
+    assert not fit.failed.any()
+    assert fit.iterations.max() <= 4  # common practice, no source: a start within sampling error
+    for r in range(3):
+        ref = sm.Logit(y[r], np.ascontiguousarray(X[r])).fit(disp=0, tol=1e-12)
+        np.testing.assert_allclose(fit.coef[r], ref.params, rtol=0, atol=1e-8)
+        np.testing.assert_allclose(fit.se[r], ref.bse, rtol=0, atol=1e-8)
+
+
+@pytest.mark.parametrize("n", [60, 1000, 9000])
+def test_default_stopping_rule_is_within_1e_9_of_a_tight_fit(n):
+    """Source: the same Newton iterations run to ``tol=1e-14`` (half the decrement, Boyd & Vandenberghe 2004,
+    sec. 9.5.1). The default rule, ``1e-11 n``, stops one quadratic step from the optimum at any n."""
+    X, y = _draw(32, R=6, n=n)
+    tight = fit_logit_batch(X, y, tol=1e-14)
+    default = fit_logit_batch(X, y)
+    np.testing.assert_array_equal(default.failed, tight.failed)
+    np.testing.assert_allclose(default.coef, tight.coef, rtol=0, atol=1e-9, equal_nan=True)
+    np.testing.assert_allclose(default.cov, tight.cov, rtol=0, atol=1e-9, equal_nan=True)
+
+
+@pytest.mark.parametrize("n", [500, 9000])
+def test_complete_separation_is_found_at_small_and_large_n(n):
+    """Source: Albert & Anderson (1984): y = 1 exactly when x > 0 is completely separated by x, so no
+    maximum-likelihood estimate exists. Neither the large-n subsample start nor the default stopping rule
+    (which scales with n only away from fitted probabilities near 0 or 1) may turn it into a good fit."""
+    x = np.random.default_rng(33).normal(size=(1, n))
+    X = np.ones((1, n, 2))
+    X[..., 1] = x
+    fit = fit_logit_batch(X, (x > 0).astype(float))
+    assert fit.failure.tolist() == ["complete separation"]
+    assert np.isnan(fit.coef).all()

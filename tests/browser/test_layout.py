@@ -24,10 +24,7 @@ from .conftest import DEEP_TEXT
 pytestmark = pytest.mark.browser
 
 PROBE = (Path(__file__).parent / "layout_probe.js").read_text(encoding="utf-8")
-TABS = ("Graph", "Estimates", "Sample size", "Explain", "Export")
-#: The Explain tab's dataset figures (workbench/report/dataset_figures.py, 570 + 470 px side by side) are
-#: wider than the main column at 1280 px; they are not this test's to change.
-KNOWN_WIDE = {(1280, "Explain")}
+TABS = ("Graph", "Estimates", "Sample size", "Explain", "Export", "Sensitivity", "Sweep")
 
 
 def _layout_faults(page, width: int) -> list[str]:
@@ -68,12 +65,6 @@ def _pick(tab, name: str) -> None:
     raise AssertionError(f"the page never showed the preset {name}")
 
 
-@pytest.mark.xfail(
-    strict=False,
-    reason="known faults found by this test, not yet fixed: the Variables table's tabulator columns run past "
-    "its box (app/editors.py); the performance and signals tables of selection_by_significance are wider than "
-    "the main column (report/tables.py, app/estimates_tab.py); at 1280 px the page is still 1356 px wide",
-)
 @pytest.mark.parametrize("width,height", [(1440, 900), (1280, 800)])
 def test_every_preset_and_tab_fits_the_window(server, browser, width, height):
     context, tab, requests = _open(browser, server, width, height)
@@ -84,8 +75,6 @@ def test_every_preset_and_tab_fits_the_window(server, browser, width, height):
             for tab_name in TABS:
                 tab.locator(".wb-tabs .bk-tab", has_text=tab_name).first.click()
                 tab.wait_for_timeout(1500 if tab_name in ("Estimates", "Sample size") else 700)
-                if (width, tab_name) in KNOWN_WIDE:
-                    continue
                 found = _layout_faults(tab, width)
                 if found:
                     faults[f"{name} / {tab_name}"] = found[:5]

@@ -189,7 +189,7 @@ def cost_features(plan, engine: str, n: int, replicates: int, k: int, fits=None)
     features["raw_crossproducts"] = R * n * k * k
     for f in fits:
         size = (len(f.regressors) + 1) ** 2
-        if f.kind in ("logit", "logit_std"):
+        if f.kind in ("logit", "logit_std", "poisson", "poisson_robust"):  # IRLS fits of about one cost
             features["logistic_fit"] += R * n * size * (1.5 if f.kind == "logit_std" else 1.0)
         elif f.kind != "ols" or f.masked:
             features["row_fit"] += R * n * size

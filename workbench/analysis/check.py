@@ -31,6 +31,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
+from workbench.analysis.implied import ImpliedMoments, implied_moments_of
 from workbench.analysis.large_sample import (
     LARGE_SAMPLE_N,
     LARGE_SAMPLE_SEED,
@@ -308,6 +309,8 @@ class CheckReport:
     intercepts: dict[str, float] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
     adjust_consequences: dict[str, dict[str, Consequence | None]] = field(default_factory=dict)
+    implied: ImpliedMoments | None = None
+    """The implied correlations of the observed variables and each R^2 (:mod:`workbench.analysis.implied`)."""
 
     def _consequence_json(self, key: str) -> dict[str, Any]:
         return {
@@ -347,6 +350,7 @@ class CheckReport:
                 "notes": self.notes,
                 "assumption": ASSUMPTION,
             }
+            | (self.implied.to_dict() if self.implied is not None else {})
         )
 
     def parts(self) -> list:
@@ -393,6 +397,8 @@ class CheckReport:
         settled = [f"Optimal valid set: {optimal}  [{self.optimal_note}]"]
         settled += [f"Calibrated intercept of {name}: {value:.4f}" for name, value in self.intercepts.items()]
         parts.append(Paragraph(tuple(settled)))
+        if self.implied is not None:
+            parts.extend(self.implied.parts())
         parts.append(Bullets(tuple(self.notes), "Notes"))
         parts.append(Paragraph((ASSUMPTION,)))
         return parts
@@ -637,4 +643,5 @@ def check(scenario: Scenario) -> CheckReport:
         intercepts=intercepts,
         notes=_report_notes(scenario, paths, minimal),
         adjust_consequences=consequences(scenario),
+        implied=implied_moments_of(scenario),
     )

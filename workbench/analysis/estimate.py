@@ -36,6 +36,7 @@ import pandas as pd
 from workbench.engine.design import design_mask
 from workbench.engine.logistic import design_matrix, fit_logit_batch
 from workbench.engine.ols import crossproducts, ols_fit, select_covariates, selected_names, t_inference
+from workbench.engine.poisson import fit_poisson_batch
 from workbench.engine.robust import ols_hc3_batch
 from workbench.engine.standardize import standardized_contrast
 from workbench.engine.truth import estimand, model_kind
@@ -144,6 +145,16 @@ def _lpm(X: np.ndarray, y: np.ndarray):
     return coef[0, 1], robust_se[0, 1], failure
 
 
+def _poisson(X: np.ndarray, y: np.ndarray, kind: str):
+    """Poisson regression (log link), sandwich or model-based SE: (estimate, se, failure or None)."""
+    p = X.shape[1] + 1
+    rows = np.column_stack([X, y])[None]
+    fit = fit_poisson_batch(design_matrix(rows, 0, list(range(1, p - 1))), rows[:, :, p - 1])
+    failure = str(fit.failure[0]) if fit.failed[0] else None
+    se = fit.se("classical" if kind == "poisson" else "robust")
+    return fit.coef[0, 1], se[0, 1], failure
+
+
 def _logit(X: np.ndarray, y: np.ndarray, kind: str, scenario: Scenario):
     """Logistic regression, plain or standardised on the question's scale: (estimate, se, failure or
     None)."""
@@ -183,8 +194,10 @@ def _strategy_row(scenario: Scenario, s: Strategy, columns: dict, alpha: float) 
     elif kind == "ols":
         fit = ols_fit(X, y, names)
         est, se, df, failure = fit.coef[0], fit.se[0], float(fit.df), fit.failure
-    elif kind == "lpm":
+    elif kind in ("lpm", "ols_hc3"):
         est, se, failure = _lpm(X, y)
+    elif kind in ("poisson", "poisson_robust"):
+        est, se, failure = _poisson(X, y, kind)
     else:
         est, se, failure = _logit(X, y, kind, scenario)
     if failure is not None:

@@ -47,7 +47,7 @@ class VariablesEditor(pn.viewable.Viewer):
         self.table = pn.widgets.Tabulator(
             self._frame(),
             show_index=False,
-            layout="fit_data_table",
+            layout="fit_columns",
             selectable=False,
             editors={
                 "name": {"type": "input"},
@@ -61,6 +61,9 @@ class VariablesEditor(pn.viewable.Viewer):
             },
             formatters={
                 "observed": {"type": "tickCross"},
+                "label": {"type": "textarea"},
+                "name": {"type": "textarea"},
+                "role": {"type": "textarea"},
                 **{
                     key: NumberFormatter(format="0.[0000]", nan_format="-", null_format="-")
                     for key in self._NUMBERS
@@ -68,6 +71,19 @@ class VariablesEditor(pn.viewable.Viewer):
             },
             titles={"noise_sd": "noise SD", "observed": "observed (click)"},
             buttons={"remove": "<span title='delete this variable'>✕</span>"},
+            # Fixed columns that fit MAIN_WIDTH - 40 whatever the names; long names and labels wrap.
+            widths={
+                "name": 150,
+                "role": 100,
+                "type": 85,
+                "noise_sd": 70,
+                "baseline": 90,
+                "proportion": 106,
+                "observed": 100,
+                "label": 149,
+                "remove": 30,
+            },
+            configuration={"columnDefaults": {"headerWordWrap": True}},
             css_classes=["wb-variables"],
             max_height=300,
             width=MAIN_WIDTH - 40,

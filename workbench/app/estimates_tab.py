@@ -107,7 +107,7 @@ class EstimatesView(TabView):
                 "intervals cover the truth (dashed), vermillion ones miss it.",
                 styles=NOTE_STYLE,
             ),
-            pn.GridBox(*[pn.pane.Bokeh(f) for f in intervals], ncols=4),
+            pn.GridBox(*[pn.pane.Bokeh(f, margin=(0, 2)) for f in intervals], ncols=4),
             html_pane(tables.signals_table(result.table) + SIGNALS_NOTE, css_classes=["wb-signals"]),
             *([html_pane(result.also_html(), css_classes=["wb-also"])] if result.arrays.also_names else []),
         ]

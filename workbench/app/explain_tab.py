@@ -98,9 +98,9 @@ class ExplainView(TabView):
             self.plots.objects = [placeholder(text_markdown(sample.message) or "No dataset drawn.")]
             return
         q = wb.scenario.question
-        objects = [pn.pane.Bokeh(dataset_scatter(data, q.exposure, q.outcome, sample.covariate, width=570))]
+        objects = [pn.pane.Bokeh(dataset_scatter(data, q.exposure, q.outcome, sample.covariate, width=480))]
         if sample.covariate:
-            objects.append(pn.pane.Bokeh(dataset_groups(data, q.exposure, sample.covariate, width=470)))
+            objects.append(pn.pane.Bokeh(dataset_groups(data, q.exposure, sample.covariate, width=400)))
         self.plots.objects = objects
         latent = ", ".join(data.attrs.get("latent", [])) or "none"
         colour = f", coloured by {sample.covariate}" if sample.covariate else ""

@@ -13,6 +13,7 @@ from workbench.app.state import ScenarioState
 from workbench.app.strategies_editor import StrategiesEditor
 from workbench.app.widgets import ErrorBox
 from workbench.formatting.markup import text_html
+from workbench.formatting.tables import render_html
 from workbench.report.explain import consequences_html
 from workbench.report.graph_drawing import graph_figure
 from workbench.scenario.write import dumps_tables, scenario_to_dict
@@ -92,6 +93,7 @@ class GraphView(pn.viewable.Viewer):
         self.verdict = pn.pane.HTML("", width=300, css_classes=["wb-verdict"])
         self.truth = pn.pane.HTML("", width=300, css_classes=["wb-truth"])
         self.controls = pn.pane.HTML("", width=300, css_classes=["wb-controls"])
+        self.implied = pn.pane.HTML("", width=290, css_classes=["wb-implied"])
         self.state.param.watch(self._refresh, ["scenario", "selected_strategy", "report"])
         self._refresh()
 
@@ -125,12 +127,14 @@ class GraphView(pn.viewable.Viewer):
         verdict = state.verdict()
         adjust = state.scenario.strategy(state.selected_strategy).adjust if state.selected_strategy else ()
         self.pane.object = graph_figure(
-            state.scenario, report.roles if report else None, verdict, adjust=adjust, width=700, height=370
+            state.scenario, report.roles if report else None, verdict, adjust=adjust, width=600, height=370
         )
         self._show_question()
         self.truth.object = self._truth_html()
         self.verdict.object = verdict_html(state.selected_strategy, verdict)
         self.controls.object = consequences_html(report, state.selected_strategy)
+        implied = report.implied if report is not None else None
+        self.implied.object = render_html(implied.parts()) if implied is not None else ""
 
     def _show_question(self) -> None:
         """Set the selectors to the scenario's question and strategies."""
@@ -172,6 +176,7 @@ class GraphView(pn.viewable.Viewer):
             self.highlight,
             self.verdict,
             self.controls,
+            pn.Card(self.implied, title="Implied correlations and R^2", collapsed=True, width=300),
             width=320,
         )
         return pn.Row(self.pane, side, margin=0)

@@ -101,7 +101,9 @@ class SampleSizeView(TabView):
             pn.Row(
                 *[
                     pn.pane.Bokeh(f)
-                    for f in figures.separation_figure(also, result.table, width=530, grid=False)
+                    for f in figures.separation_figure(
+                        also, result.table, width=(MAIN_WIDTH - 60) // 2, grid=False
+                    )
                 ],
                 css_classes=["wb-separation"],
             ),

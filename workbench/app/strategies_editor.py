@@ -132,7 +132,7 @@ class StrategiesEditor(pn.viewable.Viewer):
             css_classes=["wb-suggest"],
         )
         self.suggest.on_click(lambda e: self.add_suggested())
-        self.sets = pn.pane.HTML("", styles=NOTE_STYLE)
+        self.sets = pn.pane.HTML("", styles=NOTE_STYLE, width=MAIN_WIDTH - 40)
         self._signature = None
         self.state.param.watch(self._refresh, ["scenario", "report"])
         self._refresh()

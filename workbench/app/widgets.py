@@ -45,7 +45,19 @@ PRIMARY_BUTTON_CSS = """
 :host .bk-btn:hover, :host .bk-btn:hover a { background-color: #005f96 !important; }
 :host .bk-btn[disabled] { opacity: 0.55; }
 """
-_TABLE_STYLE = f"<style>{tables.TABLE_CSS}</style>"
+#: The dashboard's tables are narrower than the report's: the main column is MAIN_WIDTH wide at a
+#: 1280-pixel window, so cells pad less, headers wrap at about 80 px and long words break inside their own
+#: cell (never into the next), and text columns wrap sooner.
+_DASHBOARD_TABLE_CSS = f"""
+table.wb {{ font-size: 11.5px; max-width: {MAIN_WIDTH - 10}px; }}
+table.wb th {{ padding: 4px 3px; max-width: 84px; overflow-wrap: anywhere; }}
+table.wb td {{ padding: 3px 3px; }}
+table.wb span.mcse {{ font-size: 10.5px; }}
+table.wb th.text, table.wb td.text {{ padding-left: 6px; }}
+table.wb td.text div {{ max-width: 180px; min-width: 48px; overflow-wrap: break-word; }}
+table.wb td:first-child {{ white-space: normal; overflow-wrap: anywhere; min-width: 72px; }}
+"""
+_TABLE_STYLE = f"<style>{tables.TABLE_CSS}{_DASHBOARD_TABLE_CSS}</style>"
 
 
 def slug(text: str) -> str:

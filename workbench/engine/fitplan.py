@@ -47,9 +47,10 @@ class Fit:
     name : str
     adjust : tuple of str
         The adjustment set (the candidates of a selection rule).
-    kind : {"ols", "lpm", "logit", "logit_std"}
+    kind : {"ols", "lpm", "logit", "logit_std", "ols_hc3", "poisson", "poisson_robust"}
         Classical OLS from cross-products, OLS with HC3 SEs (the linear probability model), logistic
-        regression, standardised logistic contrast.
+        regression, standardised logistic contrast, OLS with HC3 SEs on a continuous outcome, Poisson
+        regression with model-based SEs, modified Poisson (HC0 sandwich SEs).
     regressors : tuple of int
         Variable indices (file order), exposure first.
     also : tuple of int
@@ -59,8 +60,8 @@ class Fit:
     reported : bool
         A strategy of the scenario (False for a hidden reference).
     estimand, scale, note : str
-        What the estimate targets in words, the truth's scale (``"difference"`` or ``"log_odds_ratio"``), a
-        note on it.
+        What the estimate targets in words, the truth's scale (``"difference"``, ``"log_odds_ratio"`` or
+        ``"log_risk_ratio"``), a note on it.
     selection : str or None
         A data-driven rule choosing among ``adjust`` in each replicate.
     restrict : tuple of (int, value)

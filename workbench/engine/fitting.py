@@ -7,8 +7,10 @@ Each fit of the plan (:mod:`workbench.engine.fitplan`) is computed for all repli
 - a restricted or matched fit from the masked cross-products of the rows it keeps
   (:mod:`workbench.engine.design`, :func:`workbench.engine.ols.masked_crossproducts`); replicates with fewer
   than ``p + 2`` kept units fail with a counted reason;
-- the linear probability model (OLS on a binary outcome) with HC3 SEs from the rows
-  (:func:`workbench.engine.robust.ols_hc3_batch`);
+- the linear probability model (OLS on a binary outcome), and OLS on a continuous outcome with ``se =
+  "hc3"``, with HC3 SEs from the rows (:func:`workbench.engine.robust.ols_hc3_batch`);
+- Poisson regression (log link) from the rows (:func:`workbench.engine.poisson.fit_poisson_batch`), with
+  the HC0 sandwich (modified Poisson) or model-based SEs; both with one set share one fit;
 - logistic regression from the rows (:func:`workbench.engine.logistic.fit_logit_batch`), plain or
   standardised (:func:`workbench.engine.standardize.standardized_contrast`); both forms with one set share
   one fit.
@@ -42,6 +44,7 @@ from workbench.engine.factored import FactoredCrossproducts
 from workbench.engine.fitplan import Fit, Plan
 from workbench.engine.logistic import design_matrix, fit_logit_batch
 from workbench.engine.ols import BatchFit, fit_crossproducts, fit_selected, masked_crossproducts
+from workbench.engine.poisson import fit_poisson_batch
 from workbench.engine.robust import ols_hc3_batch
 from workbench.engine.standardize import standardized_contrast
 
@@ -128,6 +131,7 @@ class _ChunkFitter:
         self.y = index[plan.outcome]
         self.masked = {}  # (restrict, match) -> (masked cross-products, rows kept)
         self.logits = {}  # regressors -> (design, LogitFit)
+        self.poissons = {}  # regressors -> PoissonFit
         # the factor's columns the leading-set fits use, in one product
         if isinstance(S, FactoredCrossproducts):
             S.prepare([(self.y, [index[i] for i in f.regressors], _wanted(f)) for f in plan.fits if f.fixed])
@@ -171,6 +175,18 @@ class _ChunkFitter:
             reasons["HC3 SE undefined: a row with leverage 1"] += int(extra.sum())
         return coef[:, 1:], se[:, 1:], batch.failed | hc3_failed
 
+    def poisson(self, f: Fit):
+        """Poisson regression, sandwich (``poisson_robust``) or model-based SEs: (coef, se, failed, reasons)."""
+        if f.regressors not in self.poissons:  # both SE kinds with one set share a fit
+            rows = self.rows()
+            X = design_matrix(rows, self.plan.exposure, list(f.regressors[1:]))
+            self.poissons[f.regressors] = fit_poisson_batch(X, rows[:, :, self.plan.outcome])
+        fit = self.poissons[f.regressors]
+        failed = fit.failed
+        reasons = Counter(str(r) for r in fit.failure[failed])
+        se = fit.se("classical" if f.kind == "poisson" else "robust")
+        return fit.coef[:, 1:], se[:, 1:], failed, reasons
+
     def logit(self, f: Fit):
         """Logistic regression, plain or standardised: (coef, se, failed, reasons)."""
         if f.regressors not in self.logits:  # plain and standardised logit with one set share a fit
@@ -198,8 +214,10 @@ class _ChunkFitter:
         reasons = Counter(batch.reasons)
         if f.kind == "ols":
             coef, se, failed = batch.coef, batch.se, batch.failed
-        elif f.kind == "lpm":
+        elif f.kind in ("lpm", "ols_hc3"):
             coef, se, failed = self.lpm(f, batch, reasons)
+        elif f.kind in ("poisson", "poisson_robust"):
+            coef, se, failed, reasons = self.poisson(f)
         else:
             coef, se, failed, reasons = self.logit(f)
         return _result(

@@ -11,12 +11,14 @@ Fitting
     occur it starts from one reweighted least-squares step from the linear probability fit (its fitted
     values clipped to [0.02, 0.98]), provided that point has a higher log-likelihood than the intercept-only
     fit (intercept ``logit(mean y)``, slopes 0), and from the intercept-only fit otherwise; elsewhere from
-    zero. The start only saves iterations (about two of six); the estimates are the same optimum either way.
+    zero. From 8,000 rows on, the fit of every k-th row (about 2,000 rows) is the start where it succeeds.
+    The start only saves iterations (about two of six); the estimates are the same optimum either way.
     Each iteration solves the Newton system after scaling the information matrix to unit diagonal
     (equilibration); when a step would move some linear predictor by more than 1 (a bound from the column
     maxima), the step is halved while the log-likelihood would fall. Iteration stops when half the Newton
     decrement
-    ``score' info^-1 score`` is at most ``tol`` (Boyd & Vandenberghe 2004, sec. 9.5.1); the step computed
+    ``score' info^-1 score`` is at most ``tol`` (Boyd & Vandenberghe 2004, sec. 9.5.1; by default 1e-10, or
+    ``1e-11 n`` for a small step far from separation, see :func:`fit_logit_batch`); the step computed
     there is still applied, so the returned coefficients are one quadratic step beyond the stopping point.
     The covariance is the inverse of the observed information ``X' W X`` at the returned coefficients (for
     the logit link observed and expected information coincide), as in ``statsmodels`` ``Logit``.
@@ -82,6 +84,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from workbench.engine.logit_products import ColumnProducts
 from workbench.errors import SimulationError
 
 __all__ = [
@@ -103,6 +106,11 @@ _SINGULAR = 1e-12  # smallest eigenvalue of the unit-diagonal information matrix
 _HALVINGS = 30
 _MIN_BLOCK = 8  # replicates per block at least
 _START_CLIP = 0.02  # linear-probability fitted values clipped to [0.02, 0.98] for the start (tuned)
+_SUBSAMPLE_FROM = 8000  # from this many rows on, the start is the fit of a subsample of rows
+_SUBSAMPLE_ROWS = 2000  # about this many rows in it (every k-th row)
+_SUBSAMPLE_TOL = 1e-6  # its stopping rule: only a start
+_TOL = 1e-10  # the default stopping rule: half the Newton decrement at most this, or
+_TOL_PER_ROW = 1e-11  # at most this times n where the step moves no linear predictor by more than _MOVING
 _EXTREME_ETA = 18.0  # |eta| beyond this puts a fitted probability within about 1.5e-8 of 0 or 1
 
 
@@ -226,59 +234,6 @@ def _residuals_and_weights(y: np.ndarray, mu: np.ndarray, out: np.ndarray) -> np
     return out
 
 
-class _Products:
-    """Score ``X'(y - mu)`` and information ``X' diag(mu (1 - mu)) X`` of one block of replicates.
-
-    With few columns (p <= 8) the block's columns and the products of its column pairs are laid out once, as
-    the rows of one (B, m, n) array: the p columns first, then the products ``x_i x_j`` (i <= j) that are
-    not already among them (with a first column of ones, ``x_0 x_j = x_j``, so only the pairs of the other
-    columns). Score and information then cost one batched product of that array with the two rows
-    ``[y - mu, mu (1 - mu)]`` per iteration: one pass over the rows. Otherwise a batched matrix product.
-    """
-
-    def __init__(self, Xt: np.ndarray, ones_first: bool):
-        B, p, n = Xt.shape
-        self.p = p
-        self.upper = np.triu_indices(p)
-        self.rows = None
-        if p <= 8:
-            first = 1 if ones_first else 0
-            pairs = [(i, j) for i, j in zip(*self.upper, strict=True) if i >= first]
-            self.rows = np.empty((B, p + len(pairs), n))
-            self.rows[:, :p, :] = Xt
-            where = {}
-            for k, (i, j) in enumerate(pairs):
-                np.multiply(Xt[:, i, :], Xt[:, j, :], out=self.rows[:, p + k, :])
-                where[i, j] = p + k
-            if ones_first:  # x_0 x_0 = 1 is row 0 (its sum is n), x_0 x_j = x_j is row j
-                where.update({(0, j): j for j in range(p)})
-            self.index = np.array([where[i, j] for i, j in zip(*self.upper, strict=True)])
-
-    def __call__(self, Xt, work, rows=None):
-        """Score (B, p) and information (B, p, p) for the replicates ``rows`` (all when None); ``work``
-        (B, 2, n) holds the residuals ``y - mu`` and the weights ``mu (1 - mu)``."""
-        if self.rows is None:
-            score = np.matmul(Xt, work[:, 0, :, None])[..., 0]
-            return score, self.information(Xt, work[:, 1, :], rows)
-        both = np.matmul(self.rows if rows is None else self.rows[rows], np.swapaxes(work, 1, 2))
-        return both[:, : self.p, 0], self._square(both[:, :, 1])
-
-    def information(self, Xt, weights, rows=None):
-        """``X' diag(weights) X``, shape (B, p, p), for the replicates ``rows`` (all when None)."""
-        if self.rows is None:
-            return np.matmul(Xt * weights[:, None, :], np.swapaxes(Xt, 1, 2))
-        products = self.rows if rows is None else self.rows[rows]
-        return self._square(np.matmul(products, weights[..., None])[..., 0])
-
-    def _square(self, values):
-        """The symmetric (B, p, p) matrices from the sums of the product rows (B, m)."""
-        info = np.empty((len(values), self.p, self.p))
-        upper = values[:, self.index]
-        info[:, self.upper[0], self.upper[1]] = upper
-        info[:, self.upper[1], self.upper[0]] = upper
-        return info
-
-
 def _linear_probability_start(Xt, y, products, start, work):
     """A starting point one reweighted least-squares step from the linear probability fit.
 
@@ -294,7 +249,7 @@ def _linear_probability_start(Xt, y, products, start, work):
         Transposed designs of the block.
     y : ndarray of shape (B, n)
         0/1 outcomes.
-    products : _Products
+    products : ColumnProducts
         Products of the block's column pairs.
     start : ndarray of shape (B,), bool
         Replicates to compute the start for (others get zeros).
@@ -396,7 +351,7 @@ def _usable_data(X: np.ndarray, y: np.ndarray):
     return Xt, y, finite, binary
 
 
-def _starting_point(Xt, y, products: _Products, usable, ones, work):
+def _starting_point(Xt, y, products: ColumnProducts, usable, ones, work):
     """Starting coefficients (R, p), linear predictors (R, n) and log-likelihoods (R,) (module notes).
 
     Where the first column is a column of ones (``ones``, per replicate) and both outcomes occur: the
@@ -429,6 +384,31 @@ def _starting_point(Xt, y, products: _Products, usable, ones, work):
     return beta, eta, loglik
 
 
+def _start(X, Xt, y, products: ColumnProducts, usable, ones, work, max_iter: int):
+    """Starting coefficients, linear predictors and log-likelihoods (NaN: not yet known) of a block.
+
+    With many rows (``n >= _SUBSAMPLE_FROM``) the fit of every ``k``-th row (about ``_SUBSAMPLE_ROWS`` rows)
+    is the start where it succeeded: it is within sampling error of the full fit, so two or three Newton
+    iterations on all rows finish the work. Elsewhere, and where the subsample fit failed, the start of
+    :func:`_starting_point`. The optimum reached is the same either way.
+    """
+    R, p, n = Xt.shape
+    good = np.zeros(R, dtype=bool)
+    if n >= _SUBSAMPLE_FROM:
+        every = n // _SUBSAMPLE_ROWS
+        sub = _fit_block(X[:, ::every], y[:, ::every], max_iter, (_SUBSAMPLE_TOL, _SUBSAMPLE_TOL))
+        good = usable & ~sub.failed
+        if good.all():
+            beta = sub.coef
+            return beta, np.matmul(beta[:, None, :], Xt)[:, 0, :], np.full(R, np.nan)
+    beta, eta, loglik = _starting_point(Xt, y, products, usable, ones, work)
+    if good.any():
+        beta[good] = sub.coef[good]
+        eta[good] = np.matmul(sub.coef[good, None, :], Xt[good])[:, 0, :]
+        loglik[good] = np.nan
+    return beta, eta, loglik
+
+
 class _Newton:
     """The Newton-Raphson iterations of one block of replicates, all together (module notes).
 
@@ -437,15 +417,17 @@ class _Newton:
     zero step), afterwards on copies of the active rows.
     """
 
-    def __init__(self, Xt, y, products: _Products, beta, eta, loglik, usable, tol: float, vectors):
+    def __init__(self, Xt, y, products: ColumnProducts, beta, eta, loglik, usable, tol, vectors):
         R, p, n = Xt.shape
-        self.Xt, self.y, self.products, self.tol = Xt, y, products, tol
+        self.Xt, self.y, self.products = Xt, y, products
+        self.tol, self.polish_tol = tol  # (strict, for a step that moves no linear predictor by 1e-3)
         self.beta, self.eta, self.loglik = beta, eta, loglik
         self.last_step = np.zeros((R, p))
         self.mu = np.empty((R, n))
         self.shift = np.empty((R, n))
         self.vectors = vectors  # (R, 2, n): residuals and weights
-        self.column_size = np.max(np.abs(Xt), axis=2)  # (R, p): bounds |x' step| <= |step| . column_size
+        # (R, p): bounds |x' step| <= |step| . column_size
+        self.column_size = np.maximum(Xt.max(axis=2), -Xt.min(axis=2))
         self.iterations = np.zeros(R, dtype=int)
         self.stopped = np.zeros(R, dtype=bool)  # stopping rule met
         self.singular = np.zeros(R, dtype=bool)
@@ -484,7 +466,14 @@ class _Newton:
         else:
             self._take_steps(step, shift, eta, rows, keep, new_loglik, whole)
         self.singular[rows[bad]] = True
-        done = rows[keep & (decrement / 2.0 <= self.tol)]
+        half = decrement / 2.0
+        polish = keep & (half <= self.polish_tol) & (np.sum(np.abs(step) * column_size, axis=1) <= _MOVING)
+        if (
+            polish.any()
+        ):  # only where no fitted probability is near 0 or 1 (so no separation can be certified)
+            at = rows[polish]
+            polish[polish] = np.maximum(self.eta[at].max(axis=1), -self.eta[at].min(axis=1)) <= _EXTREME_ETA
+        done = rows[keep & ((half <= self.tol) | polish)]
         self.stopped[done] = True
         self.active[done] = False
         self.active[rows[bad]] = False
@@ -573,14 +562,14 @@ def _failure_reasons(newton: _Newton, singular_at_end, separated, complete, fini
     return failure
 
 
-def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> LogitFit:
+def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: tuple[float, float]) -> LogitFit:
     """:func:`fit_logit_batch` on one block of replicates, single-threaded."""
     Xt, y, finite, binary = _usable_data(X, y)
     usable = finite & binary
     ones = np.all(Xt[:, 0, :] == 1.0, axis=1)
-    products = _Products(Xt, ones_first=bool(np.all(ones | ~usable)))
+    products = ColumnProducts(Xt, ones_first=bool(np.all(ones | ~usable)))
     vectors = np.empty((Xt.shape[0], 2, Xt.shape[2]))
-    beta, eta, loglik = _starting_point(Xt, y, products, usable, ones, vectors)
+    beta, eta, loglik = _start(X, Xt, y, products, usable, ones, vectors, max_iter)
     newton = _Newton(Xt, y, products, beta, eta, loglik, usable, tol, vectors)
     for _ in range(max_iter):
         if not newton.iterate():
@@ -604,7 +593,7 @@ def _fit_block(X: np.ndarray, y: np.ndarray, max_iter: int, tol: float) -> Logit
     )
 
 
-def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10, workers: int = 1) -> LogitFit:
+def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float | None = None, workers: int = 1) -> LogitFit:
     """Fit a logistic regression to each of R replicates at once (Newton-Raphson, batched).
 
     Parameters
@@ -615,8 +604,12 @@ def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10, workers: in
         Outcomes, 0 or 1.
     max_iter : int, default 50
         Newton iterations at most.
-    tol : float, default 1e-10
+    tol : float, optional
         Stop when half the Newton decrement (the predicted rise of the log-likelihood) is at most this.
+        By default at most ``1e-10``, or at most ``1e-11 n`` where the step moves no linear predictor by
+        more than 1e-3 and every fitted probability is further than about 1e-8 from 0 and 1 (the
+        decrement grows with the rows; after the step taken there the coefficients are within about
+        1e-10 of the optimum at any n, while a fit heading for separation iterates to the strict rule).
     workers : int, default 1
         Threads sharing the blocks of replicates (NumPy releases the interpreter lock in its array work).
         Worth raising only on an otherwise idle machine with spare processors; the results do not depend
@@ -673,8 +666,10 @@ def fit_logit_batch(X, y, *, max_iter: int = 50, tol: float = 1e-10, workers: in
     blocks = [slice(start, min(start + size, R)) for start in range(0, R, size)] or [slice(0, 0)]
     workers = max(1, min(int(workers), len(blocks)))
 
+    tol = (_TOL, _TOL_PER_ROW * n) if tol is None else (float(tol), float(tol))
+
     def fit(block: slice) -> LogitFit:
-        return _fit_block(X[block], y[block], int(max_iter), float(tol))
+        return _fit_block(X[block], y[block], int(max_iter), tol)
 
     if workers == 1:
         parts = [fit(block) for block in blocks]

@@ -14,7 +14,11 @@
 
   descendants of the exposure recomputed each time. For a binary outcome the outcome's probability given its
   causes replaces the 0/1 draw (same mean, smaller Monte Carlo error). ``scale = "log_odds_ratio"`` reports
-  ``logit(E[Y_1]) - logit(E[Y_0])`` with a delta-method Monte Carlo SE.
+  ``logit(E[Y_1]) - logit(E[Y_0])`` and ``scale = "log_risk_ratio"`` reports ``log(E[Y_1]) - log(E[Y_0])``
+  (the marginal log risk ratio; for a continuous exposure the log ratio of the risks after and before the
+  one-unit shift), both with a delta-method Monte Carlo SE. A Poisson fit is scored against the log risk
+  ratio: unadjusted it targets it; adjusted it targets a conditional log risk ratio, equal to the marginal one
+  only when the risk ratio does not vary with the covariates (a logistic outcome equation makes it vary).
 
   When the outcome is continuous and so is every variable on a causal path from the exposure to it, the
   equations the intervention recomputes are linear, so the contrast is the same number in every draw (the
@@ -78,7 +82,7 @@ class Truth:
         What the number means, in words.
     draws : int
         Draws of the simulated intervention (0 for a closed form).
-    scale : {"difference", "log_odds_ratio"}
+    scale : {"difference", "log_odds_ratio", "log_risk_ratio"}
     """
 
     value: float
@@ -132,11 +136,11 @@ def _words(scenario: Scenario, scale: str) -> str:
     else:
         contrast = f"if every unit's '{x.name}' were one unit higher versus as it is"
     if y.is_binary:
-        what = (
-            "difference in the share of '{y}' = 1"
-            if scale == "difference"
-            else "log odds ratio of '{y}' = 1 (marginal, over the whole population)"
-        ).format(y=y.name)
+        what = {
+            "difference": "difference in the share of '{y}' = 1",
+            "log_odds_ratio": "log odds ratio of '{y}' = 1 (marginal, over the whole population)",
+            "log_risk_ratio": "log risk ratio of '{y}' = 1 (marginal, over the whole population)",
+        }[scale].format(y=y.name)
     else:
         what = f"difference in the mean of '{y.name}'"
     return f"{what} {contrast}"
@@ -278,6 +282,9 @@ def _simulated_effect(variables, arrows, exposure, outcome, scale, special, eval
     if scale == "log_odds_ratio":
         value = float(special.logit(means[0]) - special.logit(means[1]))
         grad = np.array([1.0 / (means[0] * (1 - means[0])), -1.0 / (means[1] * (1 - means[1]))])
+    elif scale == "log_risk_ratio":
+        value = float(np.log(means[0]) - np.log(means[1]))
+        grad = np.array([1.0 / means[0], -1.0 / means[1]])
     else:
         value = float(means[0] - means[1])
         grad = np.array([1.0, -1.0])
@@ -295,7 +302,7 @@ def true_effect(scenario: Scenario, scale: str | None = None) -> Truth:
     Parameters
     ----------
     scenario : Scenario
-    scale : {"difference", "log_odds_ratio"}, optional
+    scale : {"difference", "log_odds_ratio", "log_risk_ratio"}, optional
         Default the question's scale. A binary outcome's strategies may target a different scale from the
         question's (a linear probability model estimates a difference).
 
@@ -341,13 +348,19 @@ KIND_WORDS = {
     "lpm": "linear probability model",
     "logit": "logistic",
     "logit_std": "standardised logistic",
+    "ols_hc3": "OLS with HC3 SEs",
+    "poisson": "Poisson, model-based SEs",
+    "poisson_robust": "modified Poisson",
 }
 """Words for each kind of fit (see :func:`model_kind`)."""
 
 
 def model_kind(strategy: Strategy, binary_outcome: bool) -> str:
     """The kind of fit a strategy is: ``"ols"`` (classical OLS, continuous outcome), ``"lpm"`` (OLS on a
-    binary outcome: the linear probability model, HC3 SEs), ``"logit"`` or ``"logit_std"`` (standardised).
+    binary outcome: the linear probability model, HC3 SEs), ``"logit"`` or ``"logit_std"`` (standardised),
+    ``"ols_hc3"`` (OLS on a continuous outcome with ``se = "hc3"``), ``"poisson_robust"`` (modified Poisson:
+    log link, HC0 sandwich SEs, the default for ``model = "poisson"``) or ``"poisson"`` (``se =
+    "classical"``: model-based SEs).
 
     Examples
     --------
@@ -356,7 +369,11 @@ def model_kind(strategy: Strategy, binary_outcome: bool) -> str:
     """
     if strategy.model == "logit":
         return "logit_std" if strategy.standardize else "logit"
-    return "lpm" if binary_outcome else "ols"
+    if strategy.model == "poisson":
+        return "poisson" if strategy.se == "classical" else "poisson_robust"
+    if binary_outcome:
+        return "lpm"
+    return "ols_hc3" if strategy.se == "hc3" else "ols"
 
 
 def estimand(kind: str, scenario: Scenario, adjust: tuple[str, ...] = ()) -> tuple[str, str, str]:
@@ -367,7 +384,7 @@ def estimand(kind: str, scenario: Scenario, adjust: tuple[str, ...] = ()) -> tup
     -------
     words : str
         For example ``"marginal risk difference"`` or ``"conditional log odds ratio"``.
-    scale : {"difference", "log_odds_ratio"}
+    scale : {"difference", "log_odds_ratio", "log_risk_ratio"}
         The scale of the true effect it is compared with (:func:`true_effect` with that ``scale``).
     note : str
         Empty, or why the estimate and its truth differ even without bias (non-collapsibility).
@@ -380,11 +397,20 @@ def estimand(kind: str, scenario: Scenario, adjust: tuple[str, ...] = ()) -> tup
     """
     q = scenario.question
     per_unit = "" if scenario.exposure.is_binary else " per unit"
-    if kind == "ols":
+    if kind in ("ols", "ols_hc3"):
         target = "direct effect" if q.target == "direct" else "total effect"
         return f"{target} (difference in means{per_unit})", "difference", ""
     if kind == "lpm":
         return f"marginal risk difference{per_unit}", "difference", ""
+    if kind in ("poisson", "poisson_robust"):
+        if not adjust:
+            return f"marginal log risk ratio{per_unit}", "log_risk_ratio", ""
+        note = (
+            "conditional log risk ratio scored against the marginal log risk ratio; they are equal only when "
+            "the risk ratio does not vary with the adjusted covariates (no effect modification on that "
+            "scale; a logistic outcome equation has some)"
+        )
+        return f"conditional log risk ratio{per_unit}", "log_risk_ratio", note
     if kind == "logit_std":
         words = "marginal risk difference" if q.scale == "difference" else "marginal log odds ratio"
         return f"{words}{per_unit}", q.scale, ""

@@ -45,6 +45,7 @@ __all__ = [
     "TARGETS",
     "SCALES",
     "MODELS",
+    "SE_KINDS",
     "SELECTIONS",
     "CHANGE_THRESHOLD",
 ]
@@ -56,8 +57,10 @@ STRATEGY_NAME_PATTERN = re.compile(r"\A[A-Za-z][A-Za-z0-9_]{0,59}\Z")
 """A strategy name: like a variable name, at most 60 characters (the default strategies' names go up to 60)."""
 VARIABLE_TYPES = ("continuous", "binary")
 TARGETS = ("total", "direct")
-SCALES = ("difference", "log_odds_ratio")
-MODELS = ("ols", "logit")
+SCALES = ("difference", "log_odds_ratio", "log_risk_ratio")
+MODELS = ("ols", "logit", "poisson")
+SE_KINDS = ("classical", "hc3", "robust")
+"""The standard errors a strategy may ask for (``se``): model-based, HC3 (OLS) or the HC0 sandwich (Poisson)."""
 SELECTIONS = ("p_value", "change_in_estimate")
 """The data-driven covariate selection rules (``selection`` of a strategy)."""
 CHANGE_THRESHOLD = 0.10
@@ -97,6 +100,9 @@ class Variable:
     observed: bool = True
     label: str | None = None
     position: tuple[float, float] | None = None
+    r_squared: float | None = None
+    """Continuous only: the share of variance explained by the causes, as the file gave it (it set
+    ``noise_sd``; :mod:`workbench.scenario.elicit`), else None."""
 
     @property
     def is_binary(self) -> bool:
@@ -111,11 +117,13 @@ class Variable:
 @dataclass(frozen=True)
 class Arrow:
     """A direct causal effect ``source -> target`` of size ``effect`` (mean scale for a continuous target,
-    log-odds scale for a binary one)."""
+    log-odds scale for a binary one). ``standardized`` keeps a ``standardized_effect`` the file gave (the
+    raw ``effect`` was converted from it; :mod:`workbench.scenario.elicit`), else None."""
 
     source: str
     target: str
     effect: float
+    standardized: float | None = None
 
 
 @dataclass(frozen=True)
@@ -127,7 +135,8 @@ class Strategy:
     name : str
     adjust : tuple of str
         Observed variables other than the exposure and the outcome.
-    model : {"ols", "logit"}
+    model : {"ols", "logit", "poisson"}
+        ``poisson``: log link (binary outcome: the modified Poisson log risk ratio, Zou 2004).
     standardize : bool
         ``logit`` only: report the marginal contrast by standardisation over the sample.
     selection : {None, "p_value", "change_in_estimate"}
@@ -140,6 +149,9 @@ class Strategy:
         Design-stage exact matching (binary exposure, continuous outcome, ``ols``): within each stratum of
         these observed binary variables, exposed and unexposed units are paired 1:1 and unpaired units are
         dropped (``docs/scenario-format.md``).
+    se : {None, "classical", "hc3", "robust"}
+        The standard error asked for; None: the model's default (classical for OLS on a continuous outcome
+        and for logit, HC3 for a linear probability model, the HC0 sandwich for Poisson).
     """
 
     name: str
@@ -149,6 +161,7 @@ class Strategy:
     selection: str | None = None
     restrict: tuple[tuple[str, int | tuple[float, float]], ...] = ()
     match: tuple[str, ...] = ()
+    se: str | None = None
 
     @property
     def n_coefficients(self) -> int:

@@ -60,6 +60,7 @@ from workbench.scenario.constraints import (
     MAX_VARIABLES,
     check_setting,
 )
+from workbench.scenario.elicit import read_arrow_effect, read_r_squared, resolve_elicited
 from workbench.scenario.fields import check_keys as _check_keys
 from workbench.scenario.fields import choice as _choice
 from workbench.scenario.fields import get_field as _get
@@ -103,8 +104,8 @@ __all__ = ["parse_scenario", "parse_scenario_text", "read_scenario", "check_size
 # --------------------------------------------------------------------------------------------------------
 _TOP_KEYS = ("title", "summary", "question", "variables", "arrows", "strategies", "study")
 _QUESTION_KEYS = ("exposure", "outcome", "target", "scale", "also")
-_VARIABLE_KEYS = ("type", "noise_sd", "baseline", "proportion", "observed", "label", "position")
-_ARROW_KEYS = ("from", "to", "effect")
+_VARIABLE_KEYS = ("type", "noise_sd", "baseline", "proportion", "observed", "label", "position", "r_squared")
+_ARROW_KEYS = ("from", "to", "effect", "standardized_effect")
 _STUDY_KEYS = ("n", "replicates", "seed", "alpha", "sample_sizes", "target_power", "target_halfwidth")
 
 
@@ -166,7 +167,7 @@ def _parse_variable(name: str, table: Any) -> Variable:
     label = _get(table, "label", "str", where)
     position = _parse_position(table, where)
     if vtype == "binary":
-        for key in ("noise_sd", "baseline"):
+        for key in ("noise_sd", "baseline", "r_squared"):
             if key in table:
                 raise ScenarioError(
                     "applies to continuous variables only; a binary variable is set by 'proportion'",
@@ -178,9 +179,10 @@ def _parse_variable(name: str, table: Any) -> Variable:
         raise ScenarioError(
             'applies to binary variables only (set type = "binary")', where=f"{where}.proportion"
         )
+    r_squared = read_r_squared(table, where)
     noise_sd = _parse_noise_sd(table, where, name)
     baseline = check_magnitude(_get(table, "baseline", "number", where, 0.0), f"{where}.baseline")
-    return Variable(name, "continuous", noise_sd, baseline, None, observed, label, position)
+    return Variable(name, "continuous", noise_sd, baseline, None, observed, label, position, r_squared)
 
 
 def _check_acyclic(names: list[str], arrows: list[Arrow]) -> None:
@@ -223,11 +225,7 @@ def _parse_arrow(i: int, table: Any, names: list[str], seen: dict[tuple[str, str
     _check_keys(table, _ARROW_KEYS, where)
     source = _known(_get(table, "from", "str", where, required=True), names, f"{where}.from")
     target = _known(_get(table, "to", "str", where, required=True), names, f"{where}.to")
-    effect = check_magnitude(
-        _get(table, "effect", "number", where, required=True),
-        f"{where}.effect",
-        what="larger effects overflow the simulation",
-    )
+    effect, standardized = read_arrow_effect(table, where)
     if source == target:
         raise ScenarioError(f"an arrow from '{source}' to itself is not allowed", where=where)
     if (source, target) in seen:
@@ -235,7 +233,7 @@ def _parse_arrow(i: int, table: Any, names: list[str], seen: dict[tuple[str, str
             f"duplicate arrow {source} -> {target} (also arrows[{seen[(source, target)]}])", where=where
         )
     seen[(source, target)] = i
-    return Arrow(source, target, effect)
+    return Arrow(source, target, effect, standardized)
 
 
 def _parse_arrows(data: dict, names: list[str]) -> tuple[Arrow, ...]:
@@ -289,9 +287,9 @@ def _parse_question(data: dict, by_name: dict[str, Variable]) -> Question:
     target = _choice(_get(q, "target", "str", "question", "total"), TARGETS, "question.target")
     scale = _choice(_get(q, "scale", "str", "question", "difference"), SCALES, "question.scale")
     outcome_binary = by_name[outcome].is_binary
-    if scale == "log_odds_ratio" and not outcome_binary:
+    if scale in ("log_odds_ratio", "log_risk_ratio") and not outcome_binary:
         raise ScenarioError(
-            f"'log_odds_ratio' needs a binary outcome; '{outcome}' is continuous", where="question.scale"
+            f"'{scale}' needs a binary outcome; '{outcome}' is continuous", where="question.scale"
         )
     if target == "direct" and outcome_binary:
         raise ScenarioError(
@@ -375,6 +373,8 @@ def parse_scenario(data: dict) -> Scenario:
     variables = _parse_variables(data)
     by_name = {v.name: v for v in variables}
     arrows = _parse_arrows(data, list(by_name))
+    variables, arrows = resolve_elicited(data, variables, arrows)
+    by_name = {v.name: v for v in variables}
     check_scales(variables, arrows)
     question = _parse_question(data, by_name)
     study = _parse_study(data)

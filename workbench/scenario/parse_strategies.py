@@ -20,6 +20,7 @@ from workbench.scenario.fields import type_name as _type_name
 from workbench.scenario.limits import MAX_STRATEGIES, MAX_STRATEGY_NAME
 from workbench.scenario.model import (
     MODELS,
+    SE_KINDS,
     SELECTIONS,
     STRATEGY_NAME_PATTERN,
     Question,
@@ -29,7 +30,15 @@ from workbench.scenario.model import (
 
 __all__ = ["parse_strategies", "STRATEGY_KEYS"]
 
-STRATEGY_KEYS = ("name", "adjust", "model", "standardize", "selection", "restrict", "match")
+STRATEGY_KEYS = ("name", "adjust", "model", "standardize", "selection", "restrict", "match", "se")
+
+_SE_ALLOWED = {
+    ("ols", False): ("classical", "hc3"),
+    ("ols", True): ("hc3",),
+    ("logit", True): ("classical",),
+    ("poisson", True): ("robust", "classical"),
+}
+"""For (model, binary outcome), the ``se`` values allowed, the default first."""
 
 
 def _parse_adjust(table: dict, where: str, by_name: dict[str, Variable], question: Question) -> list[str]:
@@ -98,9 +107,10 @@ def _parse_strategy(
     outcome_binary = by_name[outcome].is_binary
     adjust = _parse_adjust(table, where, by_name, question)
     model = _choice(_get(table, "model", "str", where, "ols"), MODELS, f"{where}.model")
-    if model == "logit" and not outcome_binary:
+    if model in ("logit", "poisson") and not outcome_binary:
+        later = " (count outcomes are not supported yet)" if model == "poisson" else ""
         raise ScenarioError(
-            f"'logit' needs a binary outcome; '{outcome}' is continuous", where=f"{where}.model"
+            f"'{model}' needs a binary outcome; '{outcome}' is continuous{later}", where=f"{where}.model"
         )
     standardize = _get(table, "standardize", "bool", where, False)
     if standardize and model != "logit":
@@ -114,7 +124,39 @@ def _parse_strategy(
             'restrict applies to model = "ols" with a continuous outcome only', where=f"{where}.restrict"
         )
     match = _parse_match(table, where, by_name, exposure, outcome, adjust, model)
-    return Strategy(name, tuple(adjust), model, standardize, selection, restrict, match)
+    se = _parse_se(table, where, model, outcome_binary, bool(selection or restrict or match))
+    if standardize and question.scale == "log_risk_ratio":
+        raise ScenarioError(
+            "standardize = true reports a difference or a log odds ratio; for question.scale = "
+            '"log_risk_ratio" use model = "poisson"',
+            where=f"{where}.standardize",
+        )
+    return Strategy(name, tuple(adjust), model, standardize, selection, restrict, match, se)
+
+
+def _parse_se(table: dict, where: str, model: str, outcome_binary: bool, designed: bool) -> str | None:
+    """A strategy's ``se``: one the model allows (:data:`_SE_ALLOWED`); None when not given."""
+    se = _get(table, "se", "str", where, None)
+    if se is None:
+        return None
+    place = f"{where}.se"
+    _choice(se, SE_KINDS, place)
+    allowed = _SE_ALLOWED[(model, outcome_binary)]
+    if se not in allowed:
+        outcome = "a binary" if outcome_binary else "a continuous"
+        hint = {
+            ("ols", True): "; the linear probability model always uses HC3",
+            ("poisson", True): '; "robust" is the HC0 sandwich of the modified Poisson fit (Zou 2004)',
+        }.get((model, outcome_binary), "")
+        choices = " or ".join(f'"{a}"' for a in allowed)
+        raise ScenarioError(
+            f'model = "{model}" with {outcome} outcome allows se = {choices}, got "{se}"{hint}', where=place
+        )
+    if se == "hc3" and not outcome_binary and designed:
+        raise ScenarioError(
+            'se = "hc3" cannot be combined with selection, restrict or match yet', where=place
+        )
+    return se
 
 
 def parse_strategies(

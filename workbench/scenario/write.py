@@ -53,20 +53,29 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
         question["also"] = list(q.also)
     out["question"] = question
     variables: dict[str, Any] = {}
+    standardized_targets = {a.target for a in scenario.arrows if a.standardized is not None}
     for v in scenario.variables:
         table: dict[str, Any] = {} if v.label is None else {"label": v.label}
         table["type"] = v.type
         if v.is_binary:
             table["proportion"] = v.proportion
+        elif v.r_squared is not None:
+            table["r_squared"] = v.r_squared
+            table["baseline"] = v.baseline
         else:
-            table["noise_sd"] = v.noise_sd
+            if v.name not in standardized_targets:  # standardized arrows set noise_sd (scenario/elicit.py)
+                table["noise_sd"] = v.noise_sd
             table["baseline"] = v.baseline
         table["observed"] = v.observed
         if v.position is not None:
             table["position"] = list(v.position)
         variables[v.name] = table
     out["variables"] = variables
-    out["arrows"] = [{"from": a.source, "to": a.target, "effect": a.effect} for a in scenario.arrows]
+    out["arrows"] = [
+        {"from": a.source, "to": a.target}
+        | ({"effect": a.effect} if a.standardized is None else {"standardized_effect": a.standardized})
+        for a in scenario.arrows
+    ]
     if include_default_strategies or scenario.strategies_given:
         strategies = []
         for s in scenario.strategies:
@@ -81,6 +90,8 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
                 }
             if s.match:
                 table["match"] = list(s.match)
+            if s.se is not None:
+                table["se"] = s.se
             strategies.append(table)
         out["strategies"] = strategies
     st = scenario.study
