@@ -424,3 +424,29 @@ def test_a_result_shown_again_says_it_was_computed_in_this_session():
     assert "this session" in wb.simulation.message
     fresh = Workbench(preset="common_cause", live=False, background=False)
     assert fresh.simulation.message == ""  # nothing run in a new session: nothing claimed
+
+
+def test_the_sidebar_shows_the_whole_title_under_the_preset_picker():
+    """The closed select cuts long titles, so the full title wraps under it and follows the scenario
+    (common practice, no source)."""
+    from workbench.app.sidebar import Sidebar
+
+    bench = Workbench(preset="lpm_misspecified")
+    sidebar = Sidebar(workbench=bench)
+    assert "a valid set in a misspecified linear probability model" in sidebar.title.object
+    bench.scenario_state.load_preset("mediator")
+    assert load_preset("mediator").title in sidebar.title.object
+
+
+def test_a_standardized_arrow_edit_switches_the_target_and_says_so(state):
+    """Typing a standardized size for one arrow switches every arrow into that variable; the other arrows
+    keep their standardized sizes b * sd(cause) / sd(target) (Wright 1934), and the note says what changed."""
+    state.load_preset("common_cause")
+    assert state.set_arrow(1, standardized=0.3)
+    assert "now use standardized effects" in state.note
+    assert [a.standardized for a in state.scenario.arrows][1:] == [0.3, pytest.approx(0.239247, abs=1e-6)]
+    assert state.set_arrow(2, effect=0.1)  # back to raw sizes, converted
+    assert all(a.standardized is None for a in state.scenario.arrows)
+    assert state.set_arrow(1, standardized=0.9)
+    assert not state.set_arrow(2, standardized=0.9)  # R^2 = b' R b = 0.81 + 0.81 + 2(0.81)(0.5145) > 1
+    assert "must be below 1" in state.error and state.scenario.arrows[2].standardized != 0.9

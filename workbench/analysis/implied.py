@@ -3,7 +3,11 @@
 For a graph whose variables are continuous, or binary without causes of their own, the covariance is known
 in closed form (:func:`workbench.scenario.elicit.implied_moments`, the linear recursion of Wright's path
 rules; Bollen 1989, ch. 4); the correlations are ``Sigma_ij / sqrt(Sigma_ii Sigma_jj)`` and a continuous
-variable's R^2 is the share of its variance its causes explain, ``1 - noise_sd^2 / Sigma_jj``. A binary
+variable's R^2 is the share of its variance its causes explain, ``1 - noise_sd^2 / Sigma_jj``; the
+exposure's variance inflation factor in a strategy is ``VIF = 1 / (1 - R^2_x|Z)`` with ``R^2_x|Z`` the
+share of the exposure's variance its adjustment set ``Z`` explains, ``Sigma_xZ Sigma_ZZ^-1 Sigma_Zx /
+Sigma_xx`` (the large-sample factor by which adjusting for ``Z`` widens the exposure's SE, before the
+residual variance of the outcome changes; Fox & Monette 1992, JASA 87:178-183, from memory). A binary
 variable with causes has no closed form: its R^2 and the matrix are then not shown, and :attr:`note` says
 why. People can compare these numbers with what they know of real data before trusting the graph's sizes.
 
@@ -24,7 +28,7 @@ Examples
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -55,12 +59,16 @@ class ImpliedMoments:
         Per variable (latent ones too): the share of its variance explained by its direct causes.
     note : str or None
         Why the matrix is not shown, else None.
+    exposure_vif : dict of str to float or None
+        Per strategy: the exposure's variance inflation factor from its adjustment set (1.0 without
+        covariates; None where the covariance has no closed form).
     """
 
     names: tuple[str, ...]
     correlation: np.ndarray | None
     r_squared: dict[str, float | None]
     note: str | None = None
+    exposure_vif: dict[str, float | None] = field(default_factory=dict)
 
     def to_dict(self) -> dict[str, Any]:
         """The ``implied_correlation`` (``{"variables": [...], "matrix": [[...]]}`` or None) and
@@ -68,7 +76,12 @@ class ImpliedMoments:
         matrix = None
         if self.correlation is not None:
             matrix = {"variables": list(self.names), "matrix": self.correlation.tolist()}
-        return {"implied_correlation": matrix, "r_squared": dict(self.r_squared), "implied_note": self.note}
+        return {
+            "implied_correlation": matrix,
+            "r_squared": dict(self.r_squared),
+            "implied_note": self.note,
+            "exposure_vif": dict(self.exposure_vif),
+        }
 
     def parts(self) -> list:
         """The correlation table and the R^2 line, as report parts."""
@@ -85,6 +98,11 @@ class ImpliedMoments:
             )
             out.append(Table(spec, rows, "Implied correlations of the observed variables"))
         lines = [f"R^2 (share of each variable's variance its causes explain): {r2}"]
+        if self.exposure_vif:
+            vif = ", ".join(f"{n} {'-' if v is None else f'{v:.2f}'}" for n, v in self.exposure_vif.items())
+            lines.append(
+                f"Variance inflation of the exposure's estimate by each strategy's covariates: {vif}"
+            )
         if self.note:
             lines.append(self.note)
         out.append(Paragraph(tuple(lines)))
@@ -102,6 +120,7 @@ def implied_moments_of(scenario: Scenario) -> ImpliedMoments:
     0.5145
     """
     names, sigma, known = implied_moments(scenario.variables, scenario.arrows)
+    vif = {s.name: _exposure_vif(scenario, s.adjust, sigma, known) for s in scenario.strategies}
     r_squared: dict[str, float | None] = {}
     for i, v in enumerate(scenario.variables):
         has_causes = any(a.target == v.name for a in scenario.arrows)
@@ -114,9 +133,28 @@ def implied_moments_of(scenario: Scenario) -> ImpliedMoments:
     observed = [i for i, v in enumerate(scenario.variables) if v.observed]
     observed_names = tuple(names[i] for i in observed)
     if not all(known[i] for i in observed):
-        return ImpliedMoments(observed_names, None, r_squared, NOT_SHOWN)
+        return ImpliedMoments(observed_names, None, r_squared, NOT_SHOWN, vif)
     sub = sigma[np.ix_(observed, observed)]
     sd = np.sqrt(np.diag(sub))
     with np.errstate(invalid="ignore", divide="ignore"):
         corr = sub / np.outer(sd, sd)
-    return ImpliedMoments(observed_names, corr, r_squared)
+    return ImpliedMoments(observed_names, corr, r_squared, None, vif)
+
+
+def _exposure_vif(scenario: Scenario, adjust, sigma: np.ndarray, known: list[bool]) -> float | None:
+    """``Sigma_xx / (Sigma_xx - Sigma_xZ Sigma_ZZ^-1 Sigma_Zx)`` for the adjustment set ``adjust``; None
+    without a closed form, inf when ``Z`` determines the exposure."""
+    index = {v.name: i for i, v in enumerate(scenario.variables)}
+    x = index[scenario.question.exposure]
+    z = [index[name] for name in adjust if name in index]
+    if not known[x] or not all(known[i] for i in z):
+        return None
+    if not z:
+        return 1.0
+    s_xz = sigma[x, z]
+    try:
+        explained = float(s_xz @ np.linalg.solve(sigma[np.ix_(z, z)], s_xz))
+    except np.linalg.LinAlgError:
+        return None
+    left = float(sigma[x, x]) - explained
+    return float(sigma[x, x] / left) if left > 1e-12 * sigma[x, x] else float("inf")

@@ -8,6 +8,7 @@ valid change.
 
 from __future__ import annotations
 
+import numpy as np
 import pandas as pd
 import panel as pn
 import param
@@ -16,6 +17,7 @@ from bokeh.models.widgets.tables import NumberFormatter
 from workbench.app.state import ScenarioState
 from workbench.app.widgets import MAIN_WIDTH, NOTE_STYLE, ErrorBox
 from workbench.report.graph_drawing import ROLE_STYLE, primary_role
+from workbench.scenario.elicit import standardized_effects
 
 __all__ = ["VariablesEditor", "ArrowsEditor", "TomlEditor", "as_number"]
 
@@ -165,11 +167,19 @@ class ArrowsEditor(pn.viewable.Viewer):
             layout="fit_data_table",
             selectable=False,
             editors=self._editors(),
-            titles={"from": "from (cause)", "to": "to (effect)", "effect": "effect size"},
+            titles={
+                "from": "from (cause)",
+                "to": "to (effect)",
+                "effect": "effect size",
+                "standardized": "standardized (SD per SD)",
+            },
+            formatters={
+                "standardized": NumberFormatter(format="0.[000]", nan_format="-", null_format="-"),
+            },
             buttons={"remove": "<span title='delete this arrow'>✕</span>"},
             css_classes=["wb-arrows"],
             max_height=300,
-            width=500,
+            width=550,
         )
         self.table.on_edit(self._edited)
         self.table.on_click(self._clicked)
@@ -204,15 +214,19 @@ class ArrowsEditor(pn.viewable.Viewer):
             "from": {"type": "list", "values": names},
             "to": {"type": "list", "values": names},
             "effect": {"type": "number", "step": 0.05},
+            "standardized": {"type": "number", "step": 0.05},
         }
 
     def _frame(self) -> pd.DataFrame:
-        arrows = self.state.scenario.arrows
+        scenario = self.state.scenario
+        arrows = scenario.arrows
+        standardized = standardized_effects(scenario.variables, arrows)
         return pd.DataFrame(
             {
                 "from": [a.source for a in arrows],
                 "to": [a.target for a in arrows],
                 "effect": [a.effect for a in arrows],
+                "standardized": [np.nan if b is None else b for b in standardized],
             }
         )
 
@@ -239,19 +253,25 @@ class ArrowsEditor(pn.viewable.Viewer):
         if index is None or index >= len(arrows):
             self.slider.disabled = True
             return
-        effect = arrows[index].effect
-        reach = max(2.0, 2 * abs(effect))
-        self.slider.param.update(start=-reach, end=reach, value=effect, disabled=False)
+        arrow = arrows[index]
+        standardized = arrow.standardized is not None
+        effect = arrow.standardized if standardized else arrow.effect
+        reach = 1.0 if standardized else max(2.0, 2 * abs(effect))
+        label = "Standardized effect (SD per SD)" if standardized else "Effect size"
+        self.slider.param.update(start=-reach, end=reach, value=effect, label=label, disabled=False)
 
     def _slid(self, event):
         index = self.slider_arrow.value
-        if index is not None and event.new is not None:
-            self.state.set_arrow(index, effect=round(float(event.new), 6))
+        if index is not None and event.new is not None and index < len(self.state.scenario.arrows):
+            key = "standardized" if self.state.scenario.arrows[index].standardized is not None else "effect"
+            self.state.set_arrow(index, **{key: round(float(event.new), 6)})
 
     def _edited(self, event):
-        key = {"from": "source", "to": "target", "effect": "effect"}.get(event.column)
+        key = {"from": "source", "to": "target", "effect": "effect", "standardized": "standardized"}.get(
+            event.column
+        )
         if key is not None:
-            value = as_number(event.value) if key == "effect" else event.value
+            value = as_number(event.value) if key in ("effect", "standardized") else event.value
             self.state.set_arrow(event.row, **{key: value})
 
     def _clicked(self, event):
@@ -262,14 +282,16 @@ class ArrowsEditor(pn.viewable.Viewer):
         help_text = pn.pane.Markdown(
             "Each arrow is a direct causal effect: the change in the effect variable per unit of the cause "
             "(mean scale for a continuous variable, log-odds scale for a binary one). Edit a cell and press "
-            "Enter; the graph, roles, verdicts and truth update at once.",
-            width=360,
+            "Enter; the graph, roles, verdicts and truth update at once. *standardized* is the same effect in "
+            "SDs of the effect per SD of the cause: type one there to give the sizes into that variable that "
+            "way (its noise SD then follows; `standardized_effect` in the file).",
+            width=340,
             styles=NOTE_STYLE,
         )
         slider_text = pn.pane.Markdown(
             "**Try an effect size**: pick an arrow and drag the slider. On a linear-Gaussian graph "
             "the simulation re-runs when you let go.",
-            width=360,
+            width=340,
             styles=NOTE_STYLE,
         )
         return pn.Row(

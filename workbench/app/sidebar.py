@@ -7,6 +7,7 @@ bounds are those of :data:`workbench.scenario.constraints.STUDY_SETTINGS`, and t
 
 from __future__ import annotations
 
+import html
 import io
 
 import panel as pn
@@ -51,6 +52,12 @@ class Sidebar(pn.viewable.Viewer):
         )
         self.preset.param.watch(self._preset_chosen, "value")
         state.param.watch(self._source_changed, "source")
+        # The closed select cuts long titles; the full title of the scenario in effect wraps under it.
+        self.title = pn.pane.HTML(
+            "", css_classes=["wb-scenario-title"], width=SIDEBAR_WIDTH - 20, margin=(0, 10, 4, 10)
+        )
+        state.param.watch(self._show_title, "scenario")
+        self._show_title()
         self.upload = UploadInput(
             on_file=state.upload,
             on_refused=state.refuse_upload,
@@ -139,6 +146,12 @@ class Sidebar(pn.viewable.Viewer):
         else:  # the same preset again, after a file was opened: load it anew
             state.load_preset(event.new)
 
+    def _show_title(self, *_):
+        title = html.escape(self.workbench.scenario_state.scenario.title)
+        self.title.object = (
+            f"<div style='font-size:12px;line-height:1.3;color:#333;overflow-wrap:anywhere'>{title}</div>"
+        )
+
     def _source_changed(self, *_):
         """After a file is opened the preset list says so; choosing any preset (even the one shown before)
         then loads it."""
@@ -185,6 +198,7 @@ class Sidebar(pn.viewable.Viewer):
         return pn.Column(
             head,
             self.preset,
+            self.title,
             pn.pane.Markdown(
                 f"**Open a scenario file** (TOML, at most {MAX_UPLOAD_BYTES // 1024} KiB)",
                 margin=(6, 10, 0, 10),

@@ -322,10 +322,22 @@ class ScenarioState(param.Parameterized):
         return self._edit("arrows", change)
 
     def set_arrow(
-        self, index: int, *, source: str | None = None, target: str | None = None, effect: Any = None
+        self,
+        index: int,
+        *,
+        source: str | None = None,
+        target: str | None = None,
+        effect: Any = None,
+        standardized: Any = None,
     ) -> bool:
-        """Change the arrow at ``index`` (counted from 0): its source, target or effect."""
-        changes = {k: v for k, v in (("from", source), ("to", target), ("effect", effect)) if v is not None}
+        """Change the arrow at ``index`` (counted from 0): its source, target, raw effect or standardized
+        effect (a switch of kind switches every arrow into that target: :func:`edit.set_arrow_size`)."""
+        if effect is not None or standardized is not None:
+            return self._edit(
+                "arrows",
+                lambda data: edit.set_arrow_size(data, index, effect=effect, standardized=standardized),
+            )
+        changes = {k: v for k, v in (("from", source), ("to", target)) if v is not None}
         return self._edit("arrows", lambda data: self._arrow(data, index).update(changes))
 
     # --- question and study ----------------------------------------------------------------------------

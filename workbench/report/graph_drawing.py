@@ -2,7 +2,8 @@
 
 :func:`graph_figure` draws in named steps: the positions (:func:`graph_layout`), the frame that maps them to
 pixels, the places of the names and effect labels (a greedy search for the least covered spot), the arrows
-(thick and dashed along a path a strategy leaves open, faded along a blocked one), the nodes (one glyph per
+(line width by the standardized size of the effect; thicker, black and dashed along a path a strategy leaves
+open, faded along a blocked one, so the two differ in greyscale print too), the nodes (one glyph per
 role, latent variables hollow and dashed, the adjustment set ringed; a variable's further roles as small
 badges beside it), the names and the legend below the drawing, where it never covers a node. Every role has
 its own colour and marker (:data:`workbench.report.style.ROLE_STYLE`) and a legend line.
@@ -26,6 +27,7 @@ from bokeh.models import Arrow, ColumnDataSource, HoverTool, Legend, LegendItem,
 from bokeh.plotting import figure
 
 from workbench.report.style import EDGE_COLOUR, FONT, ROLE_STYLE, fit_to_width, style_figure
+from workbench.scenario.elicit import standardized_effects
 from workbench.scenario.model import Scenario
 
 __all__ = ["ROLE_STYLE", "primary_role", "graph_layout", "graph_figure"]
@@ -349,6 +351,21 @@ def _blank_figure(frame: _Frame, title: str | None):
     return fig
 
 
+def _arrow_widths(scenario: Scenario) -> dict[tuple[str, str], float]:
+    """Each arrow's line width in pixels, 1.2 to 4.2 by its standardized size (|b*| capped at 1); an arrow
+    whose standardized size has no closed form (into a binary variable, say) by its |effect| relative to
+    the largest such |effect|, on the same range."""
+    standardized = standardized_effects(scenario.variables, scenario.arrows)
+    raw_max = max(
+        (abs(a.effect) for a, b in zip(scenario.arrows, standardized, strict=True) if b is None), default=0
+    )
+    out = {}
+    for a, b in zip(scenario.arrows, standardized, strict=True):
+        size = abs(b) if b is not None else (abs(a.effect) / raw_max if raw_max > 0 else 0.0)
+        out[(a.source, a.target)] = 1.2 + 3.0 * min(1.0, size)
+    return out
+
+
 def _arrow_data(scenario: Scenario, pos, frame: _Frame, verdict, label_at) -> tuple[dict, dict]:
     """The arrows' geometry and style (cut short of the nodes' edges; open paths thick and dashed, the
     rest faded when a verdict is shown) and their effect labels' places and text."""
@@ -358,6 +375,7 @@ def _arrow_data(scenario: Scenario, pos, frame: _Frame, verdict, label_at) -> tu
         open_edges = _path_edges(verdict.open_paths)
         blocked_edges = _path_edges(verdict.blocked_paths) - open_edges
     sx, sy = frame.sx, frame.sy
+    width_of = _arrow_widths(scenario)
     arrows: dict[str, list] = {k: [] for k in ("x0", "y0", "x1", "y1", "width", "alpha", "dash", "colour")}
     labels: dict[str, list] = {k: [] for k in ("x", "y", "text", "alpha")}
     for a, at in zip(scenario.arrows, label_at, strict=True):
@@ -372,15 +390,15 @@ def _arrow_data(scenario: Scenario, pos, frame: _Frame, verdict, label_at) -> tu
         arrows["y0"].append(ay + (by - ay) * cut)
         arrows["x1"].append(bx - (bx - ax) * cut)
         arrows["y1"].append(by - (by - ay) * cut)
-        arrows["width"].append(4.0 if is_open else 1.8)
-        arrows["alpha"].append(0.25 if faded else 1.0)
+        arrows["width"].append(width_of[edge] + (1.5 if is_open else 0.0))
+        arrows["alpha"].append(0.3 if faded else 1.0)
         arrows["dash"].append("dashed" if is_open else "solid")
         arrows["colour"].append("#000000" if is_open else EDGE_COLOUR)
         lx, ly = frame.to_data(at)
         labels["x"].append(lx)
         labels["y"].append(ly)
         labels["text"].append(_effect_text(a.effect))
-        labels["alpha"].append(0.35 if faded else 1.0)
+        labels["alpha"].append(0.7 if faded else 1.0)
     return arrows, labels
 
 
@@ -577,8 +595,16 @@ def _marking_items(fig, frame: _Frame, adjusted: set[str], verdict) -> list[Lege
     return items
 
 
+def _legend_columns(items: list[LegendItem], width: int) -> int:
+    """As many legend entries a row (at most five) as fit ``width`` pixels at the longest label (about
+    6.5 pixels a character at the figure's font, plus the glyph, standoff and spacing)."""
+    longest = max((len(str(item.label.value)) for item in items), default=1)
+    fits = int((width - 8) // (22 + 4 + 12 + 6.5 * longest))
+    return max(1, min(5, len(items), fits))
+
+
 def _add_legend_and_hover(fig, items: list[LegendItem], node_renderers: list) -> None:
-    """The legend below the drawing (up to five entries a row) and the nodes' hover text."""
+    """The legend below the drawing (as many entries a row as fit, up to five) and the nodes' hover text."""
     legend = Legend(
         items=items,
         label_text_font_size=FONT,
@@ -589,7 +615,7 @@ def _add_legend_and_hover(fig, items: list[LegendItem], node_renderers: list) ->
         margin=4,
         border_line_color=None,
         orientation="horizontal",
-        ncols=min(5, max(1, len(items))),
+        ncols=_legend_columns(items, fig.width),
         label_standoff=4,
     )
     fig.add_layout(legend, "below")

@@ -59,7 +59,13 @@ from workbench.scenario.fields import get_field
 from workbench.scenario.limits import MAX_MAGNITUDE, MIN_NOISE_SD, check_magnitude
 from workbench.scenario.model import Arrow, Variable
 
-__all__ = ["read_arrow_effect", "read_r_squared", "resolve_elicited", "implied_moments"]
+__all__ = [
+    "read_arrow_effect",
+    "read_r_squared",
+    "resolve_elicited",
+    "implied_moments",
+    "standardized_effects",
+]
 
 
 def read_arrow_effect(table: dict, where: str) -> tuple[float, float | None]:
@@ -278,3 +284,29 @@ def resolve_elicited(
             noise_sd = _noise_for_r_squared(v, into, sigma, index)
         by_name[name] = dataclasses.replace(v, noise_sd=noise_sd)
     return tuple(by_name[v.name] for v in variables), tuple(arrows)
+
+
+def standardized_effects(variables, arrows) -> list[float | None]:
+    """Each arrow's standardized effect: the one the file gave, else ``effect * sd(cause) / sd(target)``
+    from the implied covariance; None for a binary target or where no closed form exists.
+
+    Examples
+    --------
+    >>> from workbench import load_preset
+    >>> sc = load_preset("common_cause")
+    >>> [round(b, 4) for b in standardized_effects(sc.variables, sc.arrows)]  # 0.6 / sqrt(1.36); 0.5 / sqrt(1.485); ...
+    [0.5145, 0.4103, 0.2392]
+    """
+    names, sigma, known = implied_moments(variables, arrows)
+    index = {n: k for k, n in enumerate(names)}
+    binary = {v.name for v in variables if v.is_binary}
+    out: list[float | None] = []
+    for a in arrows:
+        i, j = index[a.source], index[a.target]
+        if a.standardized is not None:
+            out.append(a.standardized)
+        elif a.target in binary or not (known[i] and known[j]) or not sigma[j, j] > 0:
+            out.append(None)
+        else:
+            out.append(float(a.effect * math.sqrt(sigma[i, i] / sigma[j, j])))
+    return out
