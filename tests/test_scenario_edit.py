@@ -171,3 +171,20 @@ def test_a_restriction_round_trips_through_its_text():
     assert edit.parse_restriction(table, where="x") == table
     with pytest.raises(ScenarioError, match="^strategies.a.restrict: write the units to keep"):
         edit.parse_restriction("shift = [", where="strategies.a.restrict")
+
+
+def test_renaming_and_removing_follow_modifiers_and_interactions():
+    """A rename reaches varies_with keys and interactions; removing the modifier drops it from the arrows
+    and from the strategies' adjust and interactions (the interaction needs the covariate adjusted for),
+    and the note says so (common practice, no source: an edit must leave a file that parses)."""
+    from workbench import load_preset, scenario_from_dict, scenario_to_dict
+    from workbench.scenario.edit import remove_variable, rename_variable
+
+    data = scenario_to_dict(load_preset("varying_effect"))
+    renamed = scenario_from_dict(rename_variable(data, "skill", "prior_skill").data)
+    assert any(dict(a.varies_with).get("prior_skill") == 1.5 for a in renamed.arrows)
+    assert any(s.interactions == ("prior_skill",) for s in renamed.strategies)
+    edited = remove_variable(data, "skill")
+    sc = scenario_from_dict(edited.data)
+    assert all(not a.varies_with for a in sc.arrows) and all(not s.interactions for s in sc.strategies)
+    assert "no longer vary with skill" in edited.note

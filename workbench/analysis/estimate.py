@@ -6,6 +6,8 @@ Each strategy regresses the outcome on an intercept, the exposure and its adjust
   and p-value with ``n - p`` degrees of freedom (as ``statsmodels`` ``OLS``);
 * ``model = "ols"`` with a binary outcome: the linear probability model with HC3 robust SE and normal
   interval (as ``statsmodels`` ``OLS(...).fit(cov_type="HC3")``);
+* ``interactions``: OLS with exposure x (covariate - sample mean) terms; the sample-averaged effect with a
+  delta-method SE and a normal interval (:mod:`workbench.engine.interactions`);
 * ``model = "logit"``: logistic regression by Newton-Raphson, SE from the inverse information and normal
   interval (as ``statsmodels`` ``Logit``); with ``standardize = true`` the marginal contrast on the question's
   scale by standardisation over the rows, with a delta-method SE.
@@ -34,6 +36,7 @@ import numpy as np
 import pandas as pd
 
 from workbench.engine.design import design_mask
+from workbench.engine.interactions import fit_interactions
 from workbench.engine.logistic import design_matrix, fit_logit_batch
 from workbench.engine.ols import crossproducts, ols_fit, select_covariates, selected_names, t_inference
 from workbench.engine.poisson import fit_poisson_batch
@@ -145,6 +148,18 @@ def _lpm(X: np.ndarray, y: np.ndarray):
     return coef[0, 1], robust_se[0, 1], failure
 
 
+def _interaction(X: np.ndarray, y: np.ndarray, s: Strategy):
+    """OLS with exposure x covariate terms: the sample-averaged effect and its delta-method SE (estimate,
+    se, failure or None); :mod:`workbench.engine.interactions`."""
+    if len(y) < s.n_coefficients + 1:
+        return np.nan, np.nan, f"too few rows: n = {len(y)} for {s.n_coefficients} coefficients"
+    data = np.column_stack([X, y]).T[None]  # (1, variables, rows): exposure, adjust..., outcome
+    p = X.shape[1] - 1
+    fit = fit_interactions(data, 0, range(1, p + 1), [s.adjust.index(v) for v in s.interactions], p + 1)
+    failure = "; ".join(fit.reasons) if fit.failed[0] else None
+    return fit.averaged[0], fit.averaged_se[0], failure
+
+
 def _poisson(X: np.ndarray, y: np.ndarray, kind: str):
     """Poisson regression (log link), sandwich or model-based SE: (estimate, se, failure or None)."""
     p = X.shape[1] + 1
@@ -196,6 +211,8 @@ def _strategy_row(scenario: Scenario, s: Strategy, columns: dict, alpha: float) 
         est, se, df, failure = fit.coef[0], fit.se[0], float(fit.df), fit.failure
     elif kind in ("lpm", "ols_hc3"):
         est, se, failure = _lpm(X, y)
+    elif kind == "ols_interaction":
+        est, se, failure = _interaction(X, y, s)
     elif kind in ("poisson", "poisson_robust"):
         est, se, failure = _poisson(X, y, kind)
     else:

@@ -26,6 +26,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from workbench.analysis.interaction_table import interaction_parts, interaction_rows
 from workbench.analysis.large_sample import model_word, with_model_verdicts
 from workbench.engine.fitplan import fit_plan, is_valid_set, strategy_is_valid
 from workbench.engine.metrics import variance_inflation
@@ -385,6 +386,8 @@ class SimulationResult:
             out["conditional_log_odds_ratio"] = self.conditional_log_odds_ratio
         if self.arrays.also_names:
             out["also"] = self.also_table().to_dict(orient="records")
+        if rows := interaction_rows(self.scenario, self.arrays):
+            out["interactions"] = rows
         return to_jsonable(out)
 
     def to_json(self, indent: int | None = 2) -> str:
@@ -451,6 +454,7 @@ class SimulationResult:
             Table(spec, records, "Estimates with their Monte Carlo SEs in brackets"),
             Bullets(tuple(notes), "Notes"),
             *self._also_parts(),
+            *interaction_parts(self.scenario, self.arrays),
             Paragraph((REMINDER,)),
         ]
 

@@ -47,10 +47,11 @@ class Fit:
     name : str
     adjust : tuple of str
         The adjustment set (the candidates of a selection rule).
-    kind : {"ols", "lpm", "logit", "logit_std", "ols_hc3", "poisson", "poisson_robust"}
+    kind : {"ols", "lpm", "logit", "logit_std", "ols_hc3", "poisson", "poisson_robust", "ols_interaction"}
         Classical OLS from cross-products, OLS with HC3 SEs (the linear probability model), logistic
         regression, standardised logistic contrast, OLS with HC3 SEs on a continuous outcome, Poisson
-        regression with model-based SEs, modified Poisson (HC0 sandwich SEs).
+        regression with model-based SEs, modified Poisson (HC0 sandwich SEs), OLS with exposure x covariate
+        terms (the sample-averaged effect).
     regressors : tuple of int
         Variable indices (file order), exposure first.
     also : tuple of int
@@ -68,6 +69,9 @@ class Fit:
         Restrictions by variable index (see :func:`workbench.engine.design.restriction_mask`).
     match : tuple of int
         Variable indices matched on exactly.
+    interactions : tuple of int
+        ``ols_interaction`` only: positions in ``adjust`` of the covariates that also enter as exposure x
+        (covariate - sample mean) terms (:mod:`workbench.engine.interactions`).
     """
 
     name: str
@@ -83,6 +87,7 @@ class Fit:
     selection: str | None = None
     restrict: tuple = ()
     match: tuple[int, ...] = ()
+    interactions: tuple[int, ...] = ()
 
     @property
     def masked(self) -> bool:
@@ -168,7 +173,16 @@ def strategy_is_valid(scenario: Scenario, strategy) -> bool:
 
 
 def _fit(
-    scenario: Scenario, name, adjust, kind, reported, reference=-1, selection=None, restrict=(), match=()
+    scenario: Scenario,
+    name,
+    adjust,
+    kind,
+    reported,
+    reference=-1,
+    selection=None,
+    restrict=(),
+    match=(),
+    interactions=(),
 ):
     """One :class:`Fit` from a strategy's names (variables turned into file-order indices)."""
     names = scenario.names
@@ -190,6 +204,7 @@ def _fit(
         selection,
         tuple((names.index(v), value) for v, value in restrict),
         tuple(names.index(v) for v in match),
+        tuple(adjust.index(v) for v in interactions),
     )
 
 
@@ -202,12 +217,13 @@ def _with_references(scenario: Scenario, fits: list[Fit]) -> list[Fit]:
     hidden: list[Fit] = []
     resolved = []
     for f in fits:
-        ref = next((j for j, g in enumerate(fits) if g.kind == f.kind and not g.adjust and g.fixed), None)
+        kind = "ols" if f.kind == "ols_interaction" else f.kind  # no covariate, no interaction: plain OLS
+        ref = next((j for j, g in enumerate(fits) if g.kind == kind and not g.adjust and g.fixed), None)
         if ref is None:
-            ref = next((len(fits) + j for j, g in enumerate(hidden) if g.kind == f.kind), None)
+            ref = next((len(fits) + j for j, g in enumerate(hidden) if g.kind == kind), None)
         if ref is None:
             ref = len(fits) + len(hidden)
-            hidden.append(_fit(scenario, f"(unadjusted {KIND_WORDS[f.kind]})", (), f.kind, False, ref))
+            hidden.append(_fit(scenario, f"(unadjusted {KIND_WORDS[kind]})", (), kind, False, ref))
         resolved.append(ref)
     return [dataclasses.replace(f, reference=r) for f, r in zip(fits, resolved, strict=True)] + hidden
 
@@ -246,6 +262,7 @@ def fit_plan(scenario: Scenario) -> Plan:
             s.selection,
             s.restrict,
             s.match,
+            s.interactions,
         )
         for s in scenario.strategies
     ]

@@ -11,6 +11,8 @@ Each fit of the plan (:mod:`workbench.engine.fitplan`) is computed for all repli
   "hc3"``, with HC3 SEs from the rows (:func:`workbench.engine.robust.ols_hc3_batch`);
 - Poisson regression (log link) from the rows (:func:`workbench.engine.poisson.fit_poisson_batch`), with
   the HC0 sandwich (modified Poisson) or model-based SEs; both with one set share one fit;
+- OLS with exposure x covariate terms from the rows (:func:`workbench.engine.interactions.fit_interactions`):
+  the sample-averaged effect with its delta-method SE;
 - logistic regression from the rows (:func:`workbench.engine.logistic.fit_logit_batch`), plain or
   standardised (:func:`workbench.engine.standardize.standardized_contrast`); both forms with one set share
   one fit.
@@ -42,6 +44,7 @@ import numpy as np
 from workbench.engine.design import design_mask
 from workbench.engine.factored import FactoredCrossproducts
 from workbench.engine.fitplan import Fit, Plan
+from workbench.engine.interactions import fit_interactions
 from workbench.engine.logistic import design_matrix, fit_logit_batch
 from workbench.engine.ols import BatchFit, fit_crossproducts, fit_selected, masked_crossproducts
 from workbench.engine.poisson import fit_poisson_batch
@@ -72,6 +75,9 @@ class FitResult:
         The bit pattern of the candidates a selection rule kept; -1 otherwise.
     retained : ndarray of shape (r,)
         Units kept by a restriction or matching; NaN otherwise.
+    interaction_estimate, interaction_se : ndarray of shape (r,) or None
+        ``ols_interaction`` only: the coefficient of the first exposure x covariate term and its classical
+        SE (NaN where the fit failed); None for other fits.
     """
 
     estimate: np.ndarray
@@ -84,6 +90,8 @@ class FitResult:
     df: np.ndarray
     selected: np.ndarray
     retained: np.ndarray
+    interaction_estimate: np.ndarray | None = None
+    interaction_se: np.ndarray | None = None
 
 
 def _wanted(f: Fit) -> list[int]:
@@ -207,8 +215,26 @@ class _ChunkFitter:
             se[:, 0] = est_se
         return coef, se, failed, reasons
 
+    def interaction(self, f: Fit) -> FitResult:
+        """OLS with exposure x covariate terms: the sample-averaged effect, delta-method SE (normal
+        intervals, ``df = inf``), the adjustment set's coefficients for the ``also`` figures."""
+        fit = fit_interactions(
+            self.data, self.plan.exposure, f.regressors[1:], f.interactions, self.plan.outcome, self.names
+        )
+        coef = np.column_stack([fit.averaged, fit.adjusted])
+        se = np.column_stack([fit.averaged_se, fit.adjusted_se])
+        R = coef.shape[0]
+        batch = BatchFit(coef, se, fit.df, fit.failed, Counter(fit.reasons), fit.vif)
+        none = np.full(R, np.nan)
+        result = _result(f, coef, se, fit.failed, Counter(fit.reasons), batch, none, np.full(R, -1), none)
+        result.interaction_estimate = np.where(result.failed, np.nan, fit.coef[:, 1])
+        result.interaction_se = np.where(result.failed, np.nan, fit.coef_se[:, 1])
+        return result
+
     def fit(self, f: Fit) -> FitResult:
         """One fit of the plan on the chunk."""
+        if f.kind == "ols_interaction":
+            return self.interaction(f)
         batch, kept = self.ols(f)
         R = self.source.shape[0]
         reasons = Counter(batch.reasons)

@@ -59,6 +59,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 from scipy import special
 
+from workbench.engine.modifiers import add_modification, with_modifiers
 from workbench.engine.streams import generator
 from workbench.errors import SimulationError
 from workbench.scenario.constraints import check_setting
@@ -113,6 +114,7 @@ class Structure:
     binary: np.ndarray
     intercept: np.ndarray
     noise_sd: np.ndarray
+    modified: tuple = ()  # modified arrows (workbench.engine.modifiers.ModifiedArrow), in arrow order
 
     @property
     def k(self) -> int:
@@ -370,7 +372,7 @@ def graph_structure(variables: tuple, arrows: tuple) -> Structure:
     """
     bare = _bare_structure(variables, arrows)
     if not bare.binary.any():
-        return bare
+        return with_modifiers(bare, variables, arrows)
     proportions = {v.name: v.proportion for v in variables if v.type == "binary"}
     intercept = bare.intercept.copy()
     rng = np.random.default_rng(CALIBRATION_SEED)
@@ -384,7 +386,8 @@ def graph_structure(variables: tuple, arrows: tuple) -> Structure:
         _calibrate_in_order(bare, order, children, drawn, proportions, intercept)
     finally:
         drawn.close()
-    return Structure(bare.names, bare.order, bare.parents, bare.binary, intercept, bare.noise_sd)
+    calibrated = Structure(bare.names, bare.order, bare.parents, bare.binary, intercept, bare.noise_sd)
+    return with_modifiers(calibrated, variables, arrows)
 
 
 def structure(scenario: Scenario) -> Structure:
@@ -559,6 +562,8 @@ def evaluate(
             for i, e in zip(idx, eff, strict=True):
                 np.multiply(v[i], e, out=scratch)
                 v[j] += scratch
+            if st.modified:
+                add_modification(st, j, v, scratch)
         if intervention is not None and j == target:
             if intervention[0] != "shift":
                 raise ValueError(f"evaluate: unknown intervention {intervention[0]!r}")

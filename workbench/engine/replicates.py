@@ -63,6 +63,7 @@ from workbench.engine.metrics import joint_power, performance
 from workbench.engine.ols import selected_names, t_inference
 from workbench.engine.streams import seed_entropy, seed_sequence
 from workbench.engine.threads import blas_threads
+from workbench.engine.truth import KIND_WORDS
 from workbench.errors import SimulationError
 from workbench.scenario.constraints import check_setting
 from workbench.scenario.model import Scenario, minimum_study_size
@@ -126,6 +127,9 @@ class ReplicateArrays:
         Each strategy's selection rule.
     retained_n : ndarray of shape (R, S)
         Units kept by a restricted strategy in each replicate; NaN for unrestricted ones.
+    interaction_estimate, interaction_se : ndarray of shape (R, S)
+        The coefficient of the first exposure x covariate term of an ``interactions`` strategy and its
+        classical SE; NaN for the other strategies (:mod:`workbench.engine.interactions`).
 
     Examples
     --------
@@ -170,6 +174,8 @@ class ReplicateArrays:
     candidates: list[tuple[str, ...]]
     selection: list[str | None]
     retained_n: np.ndarray
+    interaction_estimate: np.ndarray | None = None
+    interaction_se: np.ndarray | None = None
 
     def selected_sets(self, s: int) -> list[tuple[tuple[str, ...], float]]:
         """The sets strategy ``s`` selected, most frequent first, each with its share of the replicates
@@ -247,8 +253,20 @@ def choose_engine(scenario: Scenario, n: int, engine: str = "auto") -> str:
     if not scenario.is_linear_gaussian:
         if engine == "exact":
             binary = [v.name for v in scenario.variables if v.is_binary]
+            modified = [f"{x.source} -> {x.target}" for x in scenario.arrows if x.varies_with]
+            why = (
+                f"every variable continuous; binary: {', '.join(binary)}"
+                if binary
+                else f"constant effects; varies_with on {', '.join(modified)}"
+            )
+            raise SimulationError(f"engine: 'exact' needs {why} (use 'raw' or 'auto')")
+        return "raw"
+    rows_fit = next((f for f in plan.fits if f.kind != "ols"), None)
+    if rows_fit is not None:  # the exact engine draws cross-products only, never the rows these fits need
+        if engine == "exact":
             raise SimulationError(
-                f"engine: 'exact' needs every variable continuous; binary: {', '.join(binary)} (use 'raw' or 'auto')"
+                f"engine: 'exact' cannot fit strategy '{rows_fit.name}' ({KIND_WORDS[rows_fit.kind]}), which "
+                "needs the rows; use 'raw' or 'auto'"
             )
         return "raw"
     if n - 1 < len(plan.used):
@@ -312,6 +330,8 @@ class _Collector:
         self.df = np.full((replicates, fits), np.nan)
         self.selected = np.full((replicates, fits), -1, dtype=np.int64)
         self.retained = np.full((replicates, fits), np.nan)
+        self.interaction_estimate = np.full((replicates, fits), np.nan)
+        self.interaction_se = np.full((replicates, fits), np.nan)
 
     def put(self, start: int, size: int, results: list[FitResult]) -> None:
         """Store one chunk's results for replicates ``start`` to ``start + size``."""
@@ -327,6 +347,9 @@ class _Collector:
             self.vif[rows, j] = result.vif
             self.failed[rows, j] = result.failed
             self.reasons[j].update(result.reasons)
+            if result.interaction_estimate is not None:
+                self.interaction_estimate[rows, j] = result.interaction_estimate
+                self.interaction_se[rows, j] = result.interaction_se
 
 
 def _interval_df(plan: Plan, n: int, store: _Collector) -> np.ndarray:
@@ -386,6 +409,8 @@ def _replicate_arrays(plan: Plan, store: _Collector, df: np.ndarray, **run) -> R
         candidates=[f.adjust for f in fits],
         selection=[f.selection for f in fits],
         retained_n=store.retained[:, shown],
+        interaction_estimate=store.interaction_estimate[:, shown],
+        interaction_se=store.interaction_se[:, shown],
         **run,
     )
 

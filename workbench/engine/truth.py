@@ -26,6 +26,12 @@
   :data:`EXACT_DRAWS` draws of the same stream then give it to rounding, with a Monte Carlo SE of 0 up to
   rounding (:func:`truth_draws`).
 
+  A modified arrow (``varies_with``, :mod:`workbench.engine.modifiers`) is part of the equations the
+  intervention recomputes, so the contrast averages every unit's own effect: along the arrow ``effect +
+  sum(c (E[m | do] - E[m]))``, just ``effect`` when the modifier ``m`` does not descend from the exposure.
+  Such a graph is never linear-Gaussian, and its contrast varies from draw to draw: all
+  :data:`TRUTH_DRAWS` are used.
+
 Results are cached per scenario graph and question, so repeated simulations pay once.
 
 References
@@ -163,7 +169,8 @@ def _world_orders(st, x: int, y: int) -> tuple[tuple[int, ...], tuple[int, ...]]
 
 def truth_draws(variables: tuple, arrows: tuple, exposure: str, outcome: str) -> int:
     """The draws :func:`simulated_effect` uses: :data:`EXACT_DRAWS` when the outcome and every variable on a
-    causal path from the exposure to it (the exposure excepted) are continuous, else :data:`TRUTH_DRAWS`.
+    causal path from the exposure to it (the exposure excepted) are continuous and none of them is the
+    target of a modified arrow (``varies_with``), else :data:`TRUTH_DRAWS`.
 
     In that case every equation the intervention changes is linear in its causes, so the outcome's change
     is the sum over causal paths of the products of the arrows' effects times the exposure's change (Wright
@@ -198,7 +205,8 @@ def truth_draws(variables: tuple, arrows: tuple, exposure: str, outcome: str) ->
         return seen
 
     on_paths = (reach(exposure, children) & reach(outcome, parents)) - {exposure}
-    return TRUTH_DRAWS if on_paths & binary else EXACT_DRAWS
+    modified = {a.target for a in arrows if a.varies_with}  # the contrast varies with the modifier
+    return TRUTH_DRAWS if on_paths & (binary | modified) else EXACT_DRAWS
 
 
 @functools.lru_cache(maxsize=128)
@@ -351,6 +359,7 @@ KIND_WORDS = {
     "ols_hc3": "OLS with HC3 SEs",
     "poisson": "Poisson, model-based SEs",
     "poisson_robust": "modified Poisson",
+    "ols_interaction": "OLS with exposure x covariate terms",
 }
 """Words for each kind of fit (see :func:`model_kind`)."""
 
@@ -359,8 +368,9 @@ def model_kind(strategy: Strategy, binary_outcome: bool) -> str:
     """The kind of fit a strategy is: ``"ols"`` (classical OLS, continuous outcome), ``"lpm"`` (OLS on a
     binary outcome: the linear probability model, HC3 SEs), ``"logit"`` or ``"logit_std"`` (standardised),
     ``"ols_hc3"`` (OLS on a continuous outcome with ``se = "hc3"``), ``"poisson_robust"`` (modified Poisson:
-    log link, HC0 sandwich SEs, the default for ``model = "poisson"``) or ``"poisson"`` (``se =
-    "classical"``: model-based SEs).
+    log link, HC0 sandwich SEs, the default for ``model = "poisson"``), ``"poisson"`` (``se =
+    "classical"``: model-based SEs) or ``"ols_interaction"`` (``interactions``: OLS with exposure x
+    covariate terms reporting the sample-averaged effect, :mod:`workbench.engine.interactions`).
 
     Examples
     --------
@@ -371,6 +381,8 @@ def model_kind(strategy: Strategy, binary_outcome: bool) -> str:
         return "logit_std" if strategy.standardize else "logit"
     if strategy.model == "poisson":
         return "poisson" if strategy.se == "classical" else "poisson_robust"
+    if strategy.interactions:
+        return "ols_interaction"
     if binary_outcome:
         return "lpm"
     return "ols_hc3" if strategy.se == "hc3" else "ols"
@@ -400,6 +412,9 @@ def estimand(kind: str, scenario: Scenario, adjust: tuple[str, ...] = ()) -> tup
     if kind in ("ols", "ols_hc3"):
         target = "direct effect" if q.target == "direct" else "total effect"
         return f"{target} (difference in means{per_unit})", "difference", ""
+    if kind == "ols_interaction":
+        target = "direct effect" if q.target == "direct" else "total effect"
+        return f"population-averaged {target} (difference in means{per_unit})", "difference", ""
     if kind == "lpm":
         return f"marginal risk difference{per_unit}", "difference", ""
     if kind in ("poisson", "poisson_robust"):

@@ -76,13 +76,15 @@ def _prune_strategy(table: dict, names: set[str]) -> bool:
     adjust = [v for v in table.get("adjust", []) if v not in names]
     restrict = {k: v for k, v in (table.get("restrict") or {}).items() if k not in names}
     match = [v for v in table.get("match", []) if v not in names]
+    interactions = [v for v in table.get("interactions", []) if v in adjust]  # each must stay adjusted for
     changed = (
         len(adjust) != len(table.get("adjust", []))
         or len(restrict) != len(table.get("restrict") or {})
         or len(match) != len(table.get("match", []))
+        or len(interactions) != len(table.get("interactions", []))
     )
     table["adjust"] = adjust
-    for key, value in (("match", match), ("restrict", restrict)):
+    for key, value in (("match", match), ("restrict", restrict), ("interactions", interactions)):
         if key in table:
             if value:
                 table[key] = value
@@ -175,14 +177,17 @@ def rename_variable(data: dict, old: str, new: str) -> Edited:
     data["variables"] = {swap(k): v for k, v in data["variables"].items()}
     for arrow in data["arrows"]:
         arrow["from"], arrow["to"] = swap(arrow["from"]), swap(arrow["to"])
+        if arrow.get("varies_with"):
+            arrow["varies_with"] = {swap(k): v for k, v in arrow["varies_with"].items()}
     q = data["question"]
     q["exposure"], q["outcome"] = swap(q["exposure"]), swap(q["outcome"])
     if "also" in q:
         q["also"] = [swap(v) for v in q["also"]]
     for table in data.get("strategies", []):
         table["adjust"] = [swap(v) for v in table["adjust"]]
-        if "match" in table:
-            table["match"] = [swap(v) for v in table["match"]]
+        for key in ("match", "interactions"):
+            if key in table:
+                table[key] = [swap(v) for v in table[key]]
         if table.get("restrict"):
             table["restrict"] = {swap(k): v for k, v in table["restrict"].items()}
     return Edited(data)
@@ -215,7 +220,17 @@ def remove_variable(data: dict, name: str) -> Edited:
     data = copy.deepcopy(data)
     del data["variables"][name]
     data["arrows"] = [a for a in data["arrows"] if name not in (a["from"], a["to"])]
-    return Edited(data, _prune_in_place(data, {name}))
+    modified = []
+    for arrow in data["arrows"]:
+        if name in arrow.get("varies_with", {}):
+            del arrow["varies_with"][name]
+            modified.append(f"{arrow['from']} -> {arrow['to']}")
+            if not arrow["varies_with"]:
+                del arrow["varies_with"]
+    note = _prune_in_place(data, {name})
+    if modified:
+        note = "; ".join(filter(None, (note, f"the arrows {', '.join(modified)} no longer vary with {name}")))
+    return Edited(data, note)
 
 
 def set_observed(data: dict, name: str, observed: bool) -> Edited:

@@ -124,6 +124,9 @@ class Arrow:
     target: str
     effect: float
     standardized: float | None = None
+    varies_with: tuple[tuple[str, float], ...] = ()
+    """Effect modification (``varies_with = { skill = 0.3 }``): the arrow's effect is ``effect + sum(c x
+    (modifier - E[modifier]))`` over these ``(modifier, c)`` pairs (:mod:`workbench.engine.modifiers`)."""
 
 
 @dataclass(frozen=True)
@@ -162,12 +165,15 @@ class Strategy:
     restrict: tuple[tuple[str, int | tuple[float, float]], ...] = ()
     match: tuple[str, ...] = ()
     se: str | None = None
+    interactions: tuple[str, ...] = ()
+    """Covariates of ``adjust`` that also enter as exposure x (covariate - its sample mean) product terms
+    (OLS, continuous outcome): the exposure's coefficient is then the sample-averaged effect."""
 
     @property
     def n_coefficients(self) -> int:
-        """Fitted coefficients: intercept, exposure and each adjusted variable (each candidate when the set
-        is selected from the data: the full model is fitted first)."""
-        return 2 + len(self.adjust)
+        """Fitted coefficients: intercept, exposure, each adjusted variable (each candidate when the set
+        is selected from the data: the full model is fitted first) and each interaction term."""
+        return 2 + len(self.adjust) + len(self.interactions)
 
     @property
     def restricted(self) -> tuple[str, ...]:
@@ -251,9 +257,12 @@ class Scenario:
 
     @property
     def is_linear_gaussian(self) -> bool:
-        """True when every variable is continuous: the graph is a linear structural model with Gaussian
-        disturbances, so its joint distribution is known in closed form."""
-        return all(v.type == "continuous" for v in self.variables)
+        """True when every variable is continuous and no arrow's effect varies with a modifier
+        (``varies_with``): the graph is a linear structural model with Gaussian disturbances, so its joint
+        distribution is known in closed form."""
+        return all(v.type == "continuous" for v in self.variables) and not any(
+            a.varies_with for a in self.arrows
+        )
 
     def parents(self, name: str) -> list[tuple[str, float]]:
         """Direct causes of ``name`` with their effects, in arrow order."""

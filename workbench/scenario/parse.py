@@ -94,6 +94,7 @@ from workbench.scenario.model import (
     Variable,
     minimum_study_size,
 )
+from workbench.scenario.parse_modifiers import check_modifiers, read_varies_with
 from workbench.scenario.parse_strategies import parse_strategies
 
 __all__ = ["parse_scenario", "parse_scenario_text", "read_scenario", "check_sizes"]
@@ -105,7 +106,7 @@ __all__ = ["parse_scenario", "parse_scenario_text", "read_scenario", "check_size
 _TOP_KEYS = ("title", "summary", "question", "variables", "arrows", "strategies", "study")
 _QUESTION_KEYS = ("exposure", "outcome", "target", "scale", "also")
 _VARIABLE_KEYS = ("type", "noise_sd", "baseline", "proportion", "observed", "label", "position", "r_squared")
-_ARROW_KEYS = ("from", "to", "effect", "standardized_effect")
+_ARROW_KEYS = ("from", "to", "effect", "standardized_effect", "varies_with")
 _STUDY_KEYS = ("n", "replicates", "seed", "alpha", "sample_sizes", "target_power", "target_halfwidth")
 
 
@@ -233,7 +234,8 @@ def _parse_arrow(i: int, table: Any, names: list[str], seen: dict[tuple[str, str
             f"duplicate arrow {source} -> {target} (also arrows[{seen[(source, target)]}])", where=where
         )
     seen[(source, target)] = i
-    return Arrow(source, target, effect, standardized)
+    varies_with = read_varies_with(table, where, names, source, target)
+    return Arrow(source, target, effect, standardized, varies_with)
 
 
 def _parse_arrows(data: dict, names: list[str]) -> tuple[Arrow, ...]:
@@ -373,6 +375,7 @@ def parse_scenario(data: dict) -> Scenario:
     variables = _parse_variables(data)
     by_name = {v.name: v for v in variables}
     arrows = _parse_arrows(data, list(by_name))
+    check_modifiers(data, variables, arrows)
     variables, arrows = resolve_elicited(data, variables, arrows)
     by_name = {v.name: v for v in variables}
     check_scales(variables, arrows)

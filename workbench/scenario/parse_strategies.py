@@ -30,7 +30,17 @@ from workbench.scenario.model import (
 
 __all__ = ["parse_strategies", "STRATEGY_KEYS"]
 
-STRATEGY_KEYS = ("name", "adjust", "model", "standardize", "selection", "restrict", "match", "se")
+STRATEGY_KEYS = (
+    "name",
+    "adjust",
+    "model",
+    "standardize",
+    "selection",
+    "restrict",
+    "match",
+    "se",
+    "interactions",
+)
 
 _SE_ALLOWED = {
     ("ols", False): ("classical", "hc3"),
@@ -131,7 +141,46 @@ def _parse_strategy(
             '"log_risk_ratio" use model = "poisson"',
             where=f"{where}.standardize",
         )
-    return Strategy(name, tuple(adjust), model, standardize, selection, restrict, match, se)
+    interactions = _parse_interactions(
+        table, where, adjust, model, outcome_binary, (selection, restrict, match), se
+    )
+    return Strategy(name, tuple(adjust), model, standardize, selection, restrict, match, se, interactions)
+
+
+def _parse_interactions(table: dict, where: str, adjust, model: str, outcome_binary: bool, design, se):
+    """``interactions = ["skill"]``: covariates of ``adjust`` that also enter as exposure x (covariate - its
+    sample mean) terms; OLS on a continuous outcome, classical SE, no selection, restriction or matching."""
+    spec = _get(table, "interactions", "list", where, [])
+    if not spec:
+        return ()
+    place = f"{where}.interactions"
+    if model != "ols" or outcome_binary:
+        raise ScenarioError(
+            'interactions apply to model = "ols" with a continuous outcome only (not yet to logit or poisson)',
+            where=place,
+        )
+    if any(design):
+        raise ScenarioError(
+            "interactions cannot be combined with selection, restrict or match yet", where=place
+        )
+    if se not in (None, "classical"):
+        raise ScenarioError(
+            f'interactions use the classical SE only (se = "classical"), got "{se}"', where=place
+        )
+    out: list[str] = []
+    for j, name in enumerate(spec, start=1):
+        here = f"{place}[{j}]"
+        if not isinstance(name, str):
+            raise ScenarioError(
+                f"must be a covariate name (a string), got {_type_name(name)} {shown(name)}", where=here
+            )
+        if name not in adjust:
+            listed = ", ".join(f"'{a}'" for a in adjust) or "nothing"
+            raise ScenarioError(f"{shown(name)} must also be in 'adjust' (which lists {listed})", where=here)
+        if name in out:
+            raise ScenarioError(f"'{name}' is listed twice", where=here)
+        out.append(name)
+    return tuple(out)
 
 
 def _parse_se(table: dict, where: str, model: str, outcome_binary: bool, designed: bool) -> str | None:

@@ -74,6 +74,7 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
     out["arrows"] = [
         {"from": a.source, "to": a.target}
         | ({"effect": a.effect} if a.standardized is None else {"standardized_effect": a.standardized})
+        | ({"varies_with": dict(a.varies_with)} if a.varies_with else {})
         for a in scenario.arrows
     ]
     if include_default_strategies or scenario.strategies_given:
@@ -92,6 +93,8 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
                 table["match"] = list(s.match)
             if s.se is not None:
                 table["se"] = s.se
+            if s.interactions:
+                table["interactions"] = list(s.interactions)
             strategies.append(table)
         out["strategies"] = strategies
     st = scenario.study
@@ -171,7 +174,7 @@ def _pairs(table: dict) -> list[str]:
     return [
         f"{_key(k)} = {_long_string(v, _key(k)) if isinstance(v, str) else _value(v)}"
         for k, v in table.items()
-        if not isinstance(v, dict) or k == "restrict"
+        if not isinstance(v, dict) or k in ("restrict", "varies_with")
     ]
 
 
