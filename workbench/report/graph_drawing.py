@@ -194,6 +194,28 @@ def _effect_text(effect: float) -> str:
     return f"{effect:.3g}"
 
 
+def _arrow_text(arrow) -> str:
+    """An arrow's label: its effect, the shape of a non-linear form (``sq``: times the squared deviation of
+    the cause from its mean; ``[>at]``: a step at ``at``), and how the effect changes with each modifier of
+    ``varies_with`` (per unit of the modifier above its mean), so a modified arrow reads differently.
+
+    Examples
+    --------
+    >>> from workbench.scenario.model import Arrow
+    >>> _arrow_text(Arrow("a", "b", 4.0)), _arrow_text(Arrow("a", "b", 4.0, varies_with=(("skill", 1.5),)))
+    ('4', '4 +1.5·skill')
+    """
+    text = _effect_text(arrow.effect)
+    form = getattr(arrow, "form", "linear")
+    if form == "square":
+        text += "·sq"
+    elif form == "step":
+        text += f"·[>{getattr(arrow, 'at', 0.0):.3g}]"
+    for name, change in getattr(arrow, "varies_with", ()):
+        text += f" {change:+.3g}·{name}"
+    return text
+
+
 def _box_overlap(a: Box, b: Box) -> float:
     """Overlapping area of two boxes."""
     w = min(a[2], b[2]) - max(a[0], b[0])
@@ -285,7 +307,7 @@ def _place_effects(pixels, arrows, obstacles: _Obstacles) -> list[tuple[float, f
     labels: list[tuple[float, float]] = []
     for a in arrows:
         (ax, ay), (bx, by) = pixels[a.source], pixels[a.target]
-        w, h = char_px * len(_effect_text(a.effect)) + 6, line_px - 1
+        w, h = char_px * len(_arrow_text(a)) + 6, line_px - 1
         best, best_score = None, math.inf
         for t in (0.5, 0.42, 0.58, 0.35, 0.65, 0.28, 0.72):
             centre = (ax + (bx - ax) * t, ay + (by - ay) * t)
@@ -397,7 +419,7 @@ def _arrow_data(scenario: Scenario, pos, frame: _Frame, verdict, label_at) -> tu
         lx, ly = frame.to_data(at)
         labels["x"].append(lx)
         labels["y"].append(ly)
-        labels["text"].append(_effect_text(a.effect))
+        labels["text"].append(_arrow_text(a))
         labels["alpha"].append(0.7 if faded else 1.0)
     return arrows, labels
 

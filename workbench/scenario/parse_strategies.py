@@ -28,7 +28,7 @@ from workbench.scenario.model import (
     Variable,
 )
 
-__all__ = ["parse_strategies", "STRATEGY_KEYS"]
+__all__ = ["parse_strategies", "STRATEGY_KEYS", "SE_CHOICES"]
 
 STRATEGY_KEYS = (
     "name",
@@ -49,6 +49,8 @@ _SE_ALLOWED = {
     ("poisson", True): ("robust", "classical"),
 }
 """For (model, binary outcome), the ``se`` values allowed, the default first."""
+SE_CHOICES = _SE_ALLOWED
+"""The same, public (the dashboard's strategies editor offers these)."""
 
 
 def _parse_adjust(table: dict, where: str, by_name: dict[str, Variable], question: Question) -> list[str]:
