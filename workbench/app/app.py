@@ -58,7 +58,7 @@ class App(pn.viewable.Viewer):
             ("Explain", pn.Column(self.result_views[3], margin=(6, 10))),
             ("Export", pn.Column(ExportView(workbench=wb), margin=(6, 10))),
             css_classes=["wb-tabs"],
-            dynamic=False,
+            dynamic=True,  # a tab's content is sent when first shown: a shorter first load
             margin=(0, 6),
         )
         index = len(self.tabs)  # the Sensitivity tab, last (workbench.app.sensitivity_tab)
@@ -107,9 +107,14 @@ def create_app(preset: str | None = None) -> pn.viewable.Viewable:
     if doc is not None:
         # Panel learns where its own static files live only when the page is rendered; components built
         # before that point would otherwise reference its CDN. Tell the document now: served locally.
+        import panel.reactive
         from panel.io.resources import LOCAL_DIST
 
         doc._template_variables.setdefault("dist_url", LOCAL_DIST)
+        # A pane updated while its tab is hidden (the tabs are built when first shown) has no document, and
+        # Panel then points its stylesheets at its CDN; the page must request nothing from another host, so
+        # that fallback is the server's own copy too (Panel 1.9; the browser tests fail on any other host).
+        panel.reactive.CDN_DIST = LOCAL_DIST
     workbench = Workbench(preset=preset, deferred=True)
     page = App(workbench=workbench).__panel__()
     if pn.state.curdoc is not None and pn.state.curdoc.session_context is not None:
