@@ -450,3 +450,43 @@ def test_a_standardized_arrow_edit_switches_the_target_and_says_so(state):
     assert state.set_arrow(1, standardized=0.9)
     assert not state.set_arrow(2, standardized=0.9)  # R^2 = b' R b = 0.81 + 0.81 + 2(0.81)(0.5145) > 1
     assert "must be below 1" in state.error and state.scenario.arrows[2].standardized != 0.9
+
+
+def test_strategy_options_se_interactions_and_poisson(state):
+    """The strategies editor's option line: se and interactions reach the file, the parser's rules stay in
+    force (interactions need the classical SE; Zou 2004's modified Poisson is the robust default), and a
+    model change returns se to that model's default (common practice, no source)."""
+    from workbench.app.strategies_editor import StrategiesEditor
+
+    state.load_preset("common_cause")
+    assert state.set_strategy("adjust_soil", se="hc3")
+    assert state.scenario.strategy("adjust_soil").se == "hc3"
+    assert not state.set_strategy("adjust_soil", interactions=["soil_quality"])
+    assert "classical SE only" in state.error
+    assert state.set_strategy("adjust_soil", se="") and state.set_strategy(
+        "adjust_soil", interactions=["soil_quality"]
+    )
+    assert state.scenario.strategy("adjust_soil").interactions == ("soil_quality",)
+    assert state.set_strategy("adjust_soil", adjust=[])  # the interaction goes with its covariate
+    assert state.scenario.strategy("adjust_soil").interactions == ()
+    state.load_preset("binary_outcome")
+    assert state.set_strategy("logit_adjust_fragility", model="poisson")
+    assert state.scenario.strategy("logit_adjust_fragility").model == "poisson"
+    editor = StrategiesEditor(state=state)
+    rows = {row["name"]: editor._options(row) for row in state.strategy_rows()}
+    assert len(rows["logit_adjust_fragility"]) == 1  # robust or classical
+    assert rows["logit_unadjusted"] == []  # logit has one SE: nothing to choose
+
+
+def test_r_squared_in_the_variables_table_sets_noise_sd(state):
+    """Typing R^2 for a variable sets r_squared and drops noise_sd, so that 1 - noise^2 / Var = R^2
+    (closed form from the implied covariance: Var(wheat_yield) from its causes is 0.485 in common_cause,
+    so noise_sd = sqrt(0.485) at R^2 = 0.5; Bollen 1989, ch. 2); typing a noise SD drops r_squared again."""
+    state.load_preset("common_cause")
+    assert state.set_variable("wheat_yield", "r_squared", 0.5)
+    assert state.scenario.variable("wheat_yield").noise_sd == pytest.approx(0.485**0.5, abs=1e-9)
+    assert "follows from R^2" in state.note
+    assert state.set_variable("wheat_yield", "noise_sd", 1.0)
+    assert state.scenario.variable("wheat_yield").r_squared is None
+    assert not state.set_variable("soil_quality", "r_squared", 0.5)
+    assert "no causes" in state.error

@@ -166,8 +166,9 @@ def _widgets(editor):
 
 
 def test_options_appear_only_where_they_apply():
-    """Standardisation applies to logistic models only; selection rules to least squares on a continuous
-    outcome only; a continuous outcome has one model, so no model choice is shown."""
+    """Standardisation applies to logistic models only; selection rules and the classical-or-HC3 SE choice to
+    least squares on a continuous outcome only; a continuous outcome has one model, so no model choice is
+    shown (common practice, no source)."""
     import panel as pn
 
     from workbench.app.state import ScenarioState
@@ -176,7 +177,10 @@ def test_options_appear_only_where_they_apply():
     continuous = StrategiesEditor(state=ScenarioState(preset="common_cause"))
     kinds = [type(w) for w in _widgets(continuous)]
     assert pn.widgets.Checkbox not in kinds
-    assert sum(isinstance(w, pn.widgets.Select) for w in _widgets(continuous)) == 2  # the rules only
+    selects = [w for w in _widgets(continuous) if isinstance(w, pn.widgets.Select)]
+    assert sum("wb-strategy-selection" in (w.css_classes or []) for w in selects) == 2  # the rules
+    assert sum("wb-strategy-se" in (w.css_classes or []) for w in selects) == 2  # classical or HC3 each
+    assert len(selects) == 4  # no model choice
     binary = StrategiesEditor(state=ScenarioState(preset="binary_outcome"))
     boxes = [w for w in _widgets(binary) if isinstance(w, pn.widgets.Checkbox)]
     logit = [s for s in binary.state.scenario.strategies if s.model == "logit"]

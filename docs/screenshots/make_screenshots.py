@@ -6,8 +6,9 @@ Run from the repository root with the package installed and Debian's chromium pr
     python docs/screenshots/make_screenshots.py mediator   # some presets
 
 It serves the dashboard on a free loopback port (``workbench serve --no-show``), opens it in headless Chromium
-with Playwright, and for each preset picks it in the selector, presses Run, waits for the performance table and
-the smallest-n table, and saves one PNG per tab (Graph, Estimates, Sample size, Explain, Sensitivity). The
+with Playwright, and for each preset picks it in the selector, saves the Graph tab, presses Run, waits for the performance
+table and the smallest-n table, and saves one PNG per further tab (Estimates, Sample size, Explain,
+Sensitivity). The
 images are reduced to a 256-colour palette (Pillow) to keep the repository small. docs/dashboard.md links
 them.
 """
@@ -68,10 +69,12 @@ def _save(page, path: Path) -> None:
 def _preset(page, name: str, title: str) -> None:
     page.locator(".wb-preset select").select_option(label=f"{title} ({name})")
     page.locator(".wb-header", has_text=title).first.wait_for(timeout=60_000)
+    _save(page, HERE / f"{name}_graph.png")
     page.locator(".wb-run button").first.click()
-    page.wait_for_selector(".wb-performance table", timeout=300_000)
-    for tab in TABS:
+    for tab in TABS[1:]:  # each tab's content is sent when it is first shown
         page.locator(".wb-tabs .bk-tab", has_text=tab).first.click()
+        if tab == "Estimates":
+            page.wait_for_selector(".wb-performance table", timeout=300_000)
         if tab == "Sample size":
             page.wait_for_selector(".wb-smallest-n table", timeout=300_000)
         _save(page, HERE / f"{name}_{tab.lower().replace(' ', '_')}.png")

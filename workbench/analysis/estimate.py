@@ -41,6 +41,7 @@ from workbench.engine.logistic import design_matrix, fit_logit_batch
 from workbench.engine.ols import crossproducts, ols_fit, select_covariates, selected_names, t_inference
 from workbench.engine.poisson import fit_poisson_batch
 from workbench.engine.robust import ols_hc3_batch
+from workbench.engine.splines import fit_flexible
 from workbench.engine.standardize import standardized_contrast
 from workbench.engine.truth import estimand, model_kind
 from workbench.errors import DataError, SimulationError
@@ -160,6 +161,18 @@ def _interaction(X: np.ndarray, y: np.ndarray, s: Strategy):
     return fit.averaged[0], fit.averaged_se[0], failure
 
 
+def _flexible(X: np.ndarray, y: np.ndarray, s: Strategy):
+    """OLS with restricted cubic spline columns (:mod:`workbench.engine.splines`): (estimate, se, df,
+    failure or None)."""
+    if len(y) < s.n_coefficients + 1:
+        return np.nan, np.nan, float("inf"), f"too few rows: n = {len(y)} for {s.n_coefficients} coefficients"
+    data = np.column_stack([X, y]).T[None]  # (1, variables, rows): exposure, adjust..., outcome
+    p = X.shape[1] - 1
+    fit = fit_flexible(data, 0, range(1, p + 1), [s.adjust.index(v) for v in s.flexible], p + 1)
+    failure = "; ".join(fit.reasons) if fit.failed[0] else None
+    return fit.coef[0, 0], fit.se[0, 0], float(np.asarray(fit.df)), failure
+
+
 def _poisson(X: np.ndarray, y: np.ndarray, kind: str):
     """Poisson regression (log link), sandwich or model-based SE: (estimate, se, failure or None)."""
     p = X.shape[1] + 1
@@ -213,6 +226,8 @@ def _strategy_row(scenario: Scenario, s: Strategy, columns: dict, alpha: float) 
         est, se, failure = _lpm(X, y)
     elif kind == "ols_interaction":
         est, se, failure = _interaction(X, y, s)
+    elif kind == "ols_flexible":
+        est, se, df, failure = _flexible(X, y, s)
     elif kind in ("poisson", "poisson_robust"):
         est, se, failure = _poisson(X, y, kind)
     else:

@@ -120,6 +120,8 @@ def implied_moments_of(scenario: Scenario) -> ImpliedMoments:
     0.5145
     """
     names, sigma, known = implied_moments(scenario.variables, scenario.arrows)
+    if any(a.form != "linear" for a in scenario.arrows):  # square or step arrows: no closed form
+        known = [False] * len(known)
     vif = {s.name: _exposure_vif(scenario, s.adjust, sigma, known) for s in scenario.strategies}
     r_squared: dict[str, float | None] = {}
     for i, v in enumerate(scenario.variables):

@@ -41,8 +41,18 @@ class VariablesEditor(pn.viewable.Viewer):
 
     state = param.ClassSelector(class_=ScenarioState)
 
-    _COLUMNS = ["name", "role", "type", "noise_sd", "baseline", "proportion", "observed", "label"]
-    _NUMBERS = ("noise_sd", "baseline", "proportion")
+    _COLUMNS = [
+        "name",
+        "role",
+        "type",
+        "noise_sd",
+        "r_squared",
+        "baseline",
+        "proportion",
+        "observed",
+        "label",
+    ]
+    _NUMBERS = ("noise_sd", "r_squared", "baseline", "proportion")
 
     def __init__(self, **params):
         super().__init__(**params)
@@ -56,6 +66,7 @@ class VariablesEditor(pn.viewable.Viewer):
                 "role": None,
                 "type": {"type": "list", "values": ["continuous", "binary"]},
                 "noise_sd": {"type": "number", "step": 0.1},
+                "r_squared": {"type": "number", "step": 0.05, "min": 0, "max": 1},
                 "baseline": {"type": "number", "step": 0.1},
                 "proportion": {"type": "number", "step": 0.05, "min": 0, "max": 1},
                 "observed": None,  # one click toggles it (see _clicked); an editor would need three
@@ -71,18 +82,19 @@ class VariablesEditor(pn.viewable.Viewer):
                     for key in self._NUMBERS
                 },
             },
-            titles={"noise_sd": "noise SD", "observed": "observed (click)"},
+            titles={"noise_sd": "noise SD", "r_squared": "R^2", "observed": "observed (click)"},
             buttons={"remove": "<span title='delete this variable'>✕</span>"},
             # Fixed columns that fit MAIN_WIDTH - 40 whatever the names; long names and labels wrap.
             widths={
-                "name": 150,
-                "role": 100,
-                "type": 85,
-                "noise_sd": 70,
-                "baseline": 90,
+                "name": 140,
+                "role": 85,
+                "type": 80,
+                "noise_sd": 72,
+                "r_squared": 62,
+                "baseline": 92,
                 "proportion": 106,
-                "observed": 100,
-                "label": 149,
+                "observed": 98,
+                "label": 125,
                 "remove": 30,
             },
             configuration={"columnDefaults": {"headerWordWrap": True}},
@@ -102,13 +114,16 @@ class VariablesEditor(pn.viewable.Viewer):
 
     def _frame(self) -> pd.DataFrame:
         sc = self.state.scenario
-        roles = self.state.report.roles if self.state.report else {}
+        report = self.state.report
+        roles = report.roles if report else {}
+        implied = report.implied.r_squared if report is not None and report.implied is not None else {}
         rows = [
             {
                 "name": v.name,
                 "role": ROLE_STYLE[primary_role(sc, v.name, roles)][0],
                 "type": v.type,
                 "noise_sd": None if v.is_binary else v.noise_sd,
+                "r_squared": v.r_squared if v.r_squared is not None else implied.get(v.name),
                 "baseline": None if v.is_binary else v.baseline,
                 "proportion": v.proportion,
                 "observed": v.observed,

@@ -1,5 +1,5 @@
 """The edits the dashboard's state makes to a copy of a scenario's TOML tables (plain Python, no Panel): study
-values checked by the one rule, one field of a variable, the fields of a strategy.
+values checked by the one rule, one field of a variable, the fields of a strategy, the drawing positions.
 
 :class:`workbench.app.state.ScenarioState` applies each to a copy and validates the result with the file's own
 parser, so an edit the parser refuses never becomes the scenario in effect.
@@ -17,10 +17,19 @@ from collections.abc import Callable
 from typing import Any
 
 from workbench.errors import ScenarioError
+from workbench.report.graph_drawing import graph_layout
 from workbench.scenario import edit
 from workbench.scenario.constraints import STUDY_SETTINGS, check_setting
+from workbench.scenario.model import Scenario
 
-__all__ = ["check_study_values", "variable_change", "strategy_table_change"]
+__all__ = [
+    "check_study_values",
+    "keep_layout",
+    "pin_layout",
+    "position_change",
+    "strategy_table_change",
+    "variable_change",
+]
 
 #: The variable fields :meth:`workbench.app.state.ScenarioState.set_variable` sets as given (numbers checked by the parser).
 _PLAIN_FIELDS = ("noise_sd", "baseline", "proportion")
@@ -83,8 +92,18 @@ def variable_change(name: str, field: str, value: Any) -> Callable[[dict], edit.
             else:
                 table.pop("label", None)
             return edit.Edited(data)
+        if field == "r_squared":  # the share its causes explain sets noise_sd (scenario/elicit.py)
+            if table.get("type") == "binary":
+                raise ScenarioError(
+                    "applies to continuous variables only", where=f"variables.{name}.r_squared"
+                )
+            table.pop("noise_sd", None)
+            table["r_squared"] = value
+            return edit.Edited(data, f"noise_sd of {name} now follows from R^2 = {value:g}")
         if field not in _PLAIN_FIELDS:
             raise ScenarioError(f"cannot edit '{field}'", where=f"variables.{name}")
+        if field == "noise_sd":
+            table.pop("r_squared", None)
         if field != "proportion" and table.get("type") == "binary":
             raise ScenarioError(
                 "a binary variable is set by its proportion", where=f"variables.{name}.{field}"
@@ -101,8 +120,14 @@ def strategy_table_change(table: dict, name: str, changes: dict[str, Any]) -> No
     """Apply the changes of :meth:`workbench.app.state.ScenarioState.set_strategy` to one strategy's table, in place."""
     if changes.get("adjust") is not None:
         table["adjust"] = list(changes["adjust"])
+        if table.get("interactions"):  # an interaction needs its covariate adjusted for
+            table["interactions"] = [v for v in table["interactions"] if v in table["adjust"]] or None
+            if table["interactions"] is None:
+                del table["interactions"]
     model = changes.get("model")
     if model is not None:
+        if model != table.get("model", "ols"):
+            table.pop("se", None)  # each model has its own standard errors: back to its default
         table["model"] = model
         if model != "logit":
             table.pop("standardize", None)
@@ -120,5 +145,102 @@ def strategy_table_change(table: dict, name: str, changes: dict[str, Any]) -> No
         table["restrict"] = parsed
         if not parsed:
             del table["restrict"]
+    se = changes.get("se")
+    if se in ("", "default"):
+        table.pop("se", None)
+    elif se is not None:
+        table["se"] = se
+    interactions = changes.get("interactions")
+    if interactions is not None:
+        if interactions:
+            table["interactions"] = list(interactions)
+        else:
+            table.pop("interactions", None)
     if changes.get("new_name") is not None:
         table["name"] = changes["new_name"]
+
+
+def _rounded(x: float, y: float) -> list[float]:
+    """A drawing position as the file holds it: two numbers rounded to 0.01 (a pixel or so)."""
+    return [round(float(x), 2) + 0.0, round(float(y), 2) + 0.0]
+
+
+def pin_layout(data: dict, scenario: Scenario) -> None:
+    """Write the drawn position of every variable of ``scenario`` that has none into ``data``, in place, so
+    that later edits keep the layout the user sees (:func:`~workbench.report.graph_drawing.graph_layout`
+    lays out a graph anew unless every variable has a position).
+
+    Examples
+    --------
+    >>> from workbench import load_preset
+    >>> from workbench.scenario.write import scenario_to_dict
+    >>> sc = load_preset("common_cause")
+    >>> data = scenario_to_dict(sc)
+    >>> pin_layout(data, sc)
+    >>> data["variables"]["soil_quality"]["position"]
+    [0.0, 1.0]
+    """
+    for name, (x, y) in graph_layout(scenario).items():
+        table = data["variables"].get(name)
+        if table is not None and "position" not in table:
+            table["position"] = _rounded(x, y)
+
+
+def keep_layout(data: dict, before: Scenario) -> None:
+    """Give each new variable of ``data`` a free place when every variable of ``before`` has a position, in
+    place: a variable added in a table then joins the drawing without moving the others. The place is on a
+    new row below the drawing, in the first column with no node within half a unit.
+
+    Examples
+    --------
+    >>> from workbench import load_preset
+    >>> from workbench.scenario.write import scenario_to_dict
+    >>> sc = load_preset("common_cause")
+    >>> from workbench.graph.defaults import scenario_from_dict
+    >>> data = scenario_to_dict(load_preset("common_cause"))
+    >>> pin_layout(data, load_preset("common_cause"))
+    >>> pinned = scenario_from_dict(data)
+    >>> data["variables"]["rain"] = {}
+    >>> keep_layout(data, pinned)
+    >>> data["variables"]["rain"]["position"]
+    [0.0, -1.0]
+    """
+    if any(v.position is None for v in before.variables):
+        return
+    taken = [tuple(t["position"]) for t in data["variables"].values() if "position" in t]
+    if not taken:
+        return
+    xs, ys = [p[0] for p in taken], [p[1] for p in taken]
+    for name, table in data["variables"].items():
+        if "position" in table or name in before.names:
+            continue
+        y = min(ys) - 1.0
+        x = next(
+            (
+                c
+                for c in _columns(min(xs), max(xs))
+                if all(abs(c - p[0]) + abs(y - p[1]) > 0.5 for p in taken)
+            ),
+            max(xs) + 1.0,
+        )
+        table["position"] = _rounded(x, y)
+        taken.append((x, y))
+
+
+def _columns(low: float, high: float) -> list[float]:
+    """Whole-unit columns from ``low`` to ``high``."""
+    return [low + i for i in range(int(high - low) + 1)]
+
+
+def position_change(name: str, x: Any, y: Any) -> Callable[[dict], None]:
+    """The edit that moves variable ``name`` to ``(x, y)`` (numbers checked by the parser)."""
+
+    def change(data: dict) -> None:
+        if name not in data["variables"]:
+            raise ScenarioError(f"no variable '{name}'", where="variables")
+        if not all(isinstance(v, int | float) and not isinstance(v, bool) for v in (x, y)):
+            where = f"variables.{name}.position"
+            raise ScenarioError(f"must be two numbers [x, y], got {x!r}, {y!r}", where=where)
+        data["variables"][name]["position"] = _rounded(x, y)
+
+    return change

@@ -8,6 +8,7 @@ from __future__ import annotations
 import panel as pn
 import param
 
+from workbench.app.canvas import CanvasEditor
 from workbench.app.editors import ArrowsEditor, TomlEditor, VariablesEditor
 from workbench.app.state import ScenarioState
 from workbench.app.strategies_editor import StrategiesEditor
@@ -94,6 +95,7 @@ class GraphView(pn.viewable.Viewer):
         self.truth = pn.pane.HTML("", width=300, css_classes=["wb-truth"])
         self.controls = pn.pane.HTML("", width=300, css_classes=["wb-controls"])
         self.implied = pn.pane.HTML("", width=290, css_classes=["wb-implied"])
+        self.canvas = CanvasEditor(state=self.state)
         self.state.param.watch(self._refresh, ["scenario", "selected_strategy", "report"])
         self._refresh()
 
@@ -126,9 +128,11 @@ class GraphView(pn.viewable.Viewer):
         report = state.report
         verdict = state.verdict()
         adjust = state.scenario.strategy(state.selected_strategy).adjust if state.selected_strategy else ()
-        self.pane.object = graph_figure(
+        fig = graph_figure(
             state.scenario, report.roles if report else None, verdict, adjust=adjust, width=600, height=370
         )
+        self.canvas.attach(fig, state.scenario)  # editing on the canvas (app/canvas.py)
+        self.pane.object = fig
         self._show_question()
         self.truth.object = self._truth_html()
         self.verdict.object = verdict_html(state.selected_strategy, verdict)
@@ -179,7 +183,8 @@ class GraphView(pn.viewable.Viewer):
             pn.Card(self.implied, title="Implied correlations and R^2", collapsed=True, width=300),
             width=320,
         )
-        return pn.Row(self.pane, side, margin=0)
+        drawing = pn.Column(self.pane, self.canvas, margin=0, sizing_mode="stretch_width", max_width=610)
+        return pn.Row(drawing, side, margin=0)
 
 
 def graph_tab(state: ScenarioState) -> pn.viewable.Viewable:

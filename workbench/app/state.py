@@ -35,6 +35,7 @@ import param
 
 from workbench.analysis import budget
 from workbench.analysis.check import check
+from workbench.app import edits
 from workbench.app.dataset import SampleState
 from workbench.app.edits import check_study_values, strategy_table_change, variable_change
 from workbench.app.runs import BackgroundJob, PlanJob, SimulationJob
@@ -95,14 +96,21 @@ class ScenarioState(param.Parameterized):
         default={},
         doc="Fields whose typed value was refused and is not in effect: section -> {field: message}.",
     )
+    can_undo = param.Boolean(default=False, doc="Whether there is a change to undo.")
+    can_redo = param.Boolean(default=False, doc="Whether there is an undone change to redo.")
 
     SECTIONS = ("preset", "upload", "toml", "variables", "arrows", "question", "strategies", "study", "plan")
+    SECTIONS += ("canvas", "undo", "redo")
     """Where an edit can come from (the ``section`` of errors and notes)."""
+    HISTORY = 20
+    """How many changes :meth:`undo` can take back."""
 
     def __init__(self, preset: str | None = None, scenario: Scenario | None = None, **params):
         if preset is not None:
             params["preset"] = preset
         super().__init__(**params)
+        self._undo: list[Scenario] = []  # the scenarios before the last changes, oldest first
+        self._redo: list[Scenario] = []
         self._commit(scenario if scenario is not None else load_preset(self.preset), "preset")
 
     # --- internals -------------------------------------------------------------------------------------
@@ -117,7 +125,10 @@ class ScenarioState(param.Parameterized):
         except WorkbenchError as exc:
             report_error = str(exc)
         names = {s.name for s in scenario.strategies}
+        if self.scenario is not None and section not in ("undo", "redo"):
+            self._undo, self._redo = [*self._undo, self.scenario][-self.HISTORY :], []
         with param.parameterized.batch_call_watchers(self):
+            self.can_undo, self.can_redo = bool(self._undo), bool(self._redo)
             self.error, self.error_section, self.note = "", "", note
             self.report, self.report_error = report, report_error
             self.selected_strategy = self.selected_strategy if self.selected_strategy in names else ""
@@ -136,15 +147,38 @@ class ScenarioState(param.Parameterized):
         error. ``change`` returns an :class:`~workbench.scenario.edit.Edited`, or None after editing the
         copy in place."""
         data = scenario_to_dict(self.scenario, include_default_strategies=True)
+        if section == "canvas":
+            edits.pin_layout(data, self.scenario)  # the drawing the user edits stays as drawn
         try:
             with warnings.catch_warnings(record=True) as caught:
                 warnings.simplefilter("always")
                 edited = change(data) or edit.Edited(data)
+                edits.keep_layout(edited.data, self.scenario)
                 scenario = scenario_from_dict(edited.data)
         except ScenarioError as exc:
             return self._fail(exc, section)
         warned = "; ".join(str(w.message) for w in caught)
         self._commit(scenario, section, "; ".join(t for t in (edited.note, warned) if t))
+        return True
+
+    def undo(self) -> bool:
+        """Go back to the scenario before the last change (at most :attr:`HISTORY` changes back).
+
+        >>> state = ScenarioState(preset="common_cause")
+        >>> state.add_variable("rain"), state.undo(), state.redo(), state.redo(), state.scenario.names[-1]
+        (True, True, True, False, 'rain')
+        """
+        return self._step(self._undo, self._redo, "undo")
+
+    def redo(self) -> bool:
+        """Make the last undone change again (until a new change is made)."""
+        return self._step(self._redo, self._undo, "redo")
+
+    def _step(self, back: list[Scenario], forth: list[Scenario], section: str) -> bool:
+        if not back:
+            return False
+        forth[:] = [*forth, self.scenario][-self.HISTORY :]
+        self._commit(back.pop(), section)
         return True
 
     def set_invalid(self, section: str, messages: dict[str, str]) -> None:
@@ -271,8 +305,8 @@ class ScenarioState(param.Parameterized):
         return dumps_scenario(self.scenario)
 
     # --- variables -------------------------------------------------------------------------------------
-    def add_variable(self, name: str, type: str = "continuous") -> bool:
-        """Add a variable (continuous with noise SD 1, or binary with proportion 0.5)."""
+    def add_variable(self, name: str, type: str = "continuous", position=None, section="variables") -> bool:
+        """Add a variable (continuous with noise SD 1, or binary with proportion 0.5), drawn at ``position``."""
         name = (name or "").strip()
 
         def change(data):
@@ -283,12 +317,18 @@ class ScenarioState(param.Parameterized):
             data["variables"][name] = (
                 {"type": type, "proportion": 0.5} if type == "binary" else {"type": type}
             )
+            if position is not None:
+                edits.position_change(name, *position)(data)
 
-        return self._edit("variables", change)
+        return self._edit(section, change)
 
-    def remove_variable(self, name: str) -> bool:
+    def remove_variable(self, name: str, section: str = "variables") -> bool:
         """Remove a variable and its arrows (not the exposure or the outcome); strategies stop using it."""
-        return self._edit("variables", lambda data: edit.remove_variable(data, name))
+        return self._edit(section, lambda data: edit.remove_variable(data, name))
+
+    def move_variable(self, name: str, x: float, y: float, section: str = "canvas") -> bool:
+        """Draw variable ``name`` at ``(x, y)`` (its ``position``; the others keep their drawn places)."""
+        return self._edit(section, edits.position_change(name, x, y))
 
     def set_variable(self, name: str, field: str, value: Any) -> bool:
         """Change one field of a variable: name, type, noise_sd, baseline, proportion, observed or label.
@@ -299,10 +339,10 @@ class ScenarioState(param.Parameterized):
         return self._edit("variables", variable_change(name, field, value))
 
     # --- arrows ----------------------------------------------------------------------------------------
-    def add_arrow(self, source: str, target: str, effect: float = 0.5) -> bool:
+    def add_arrow(self, source: str, target: str, effect: float = 0.5, section: str = "arrows") -> bool:
         """Add an arrow ``source -> target``."""
         return self._edit(
-            "arrows", lambda data: data["arrows"].append({"from": source, "to": target, "effect": effect})
+            section, lambda data: data["arrows"].append({"from": source, "to": target, "effect": effect})
         )
 
     @staticmethod
@@ -312,14 +352,14 @@ class ScenarioState(param.Parameterized):
             raise ScenarioError(f"no arrow number {index + 1}", where="arrows")
         return data["arrows"][index]
 
-    def remove_arrow(self, index: int) -> bool:
+    def remove_arrow(self, index: int, section: str = "arrows") -> bool:
         """Remove the arrow at ``index`` (counted from 0)."""
 
         def change(data):
             self._arrow(data, index)
             del data["arrows"][index]
 
-        return self._edit("arrows", change)
+        return self._edit(section, change)
 
     def set_arrow(
         self,
@@ -430,8 +470,11 @@ class ScenarioState(param.Parameterized):
         new_name: str | None = None,
         selection: str | None = None,
         restrict: dict | str | None = None,
+        se: str | None = None,
+        interactions=None,
     ) -> bool:
-        """Change a strategy's adjustment set, model, standardisation, name, selection rule or restriction.
+        """Change a strategy's adjustment set, model, standardisation, name, selection rule, restriction,
+        standard error (``se``: ``""`` for the model's default) or interaction terms.
 
         ``selection`` is ``"fixed"`` (or ``""``) for a fixed set, ``"p_value"`` or ``"change_in_estimate"``
         (``adjust`` then lists the candidates); ``restrict`` is a table such as ``{"shift": 0}`` or text in
@@ -452,6 +495,8 @@ class ScenarioState(param.Parameterized):
             "new_name": new_name,
             "selection": selection,
             "restrict": restrict,
+            "se": se,
+            "interactions": interactions,
         }
 
         def change(data):
@@ -500,8 +545,8 @@ class ScenarioState(param.Parameterized):
             return None
 
     def strategy_rows(self) -> list[dict]:
-        """One dict per strategy: name, adjust, model, standardize, selection, restrict, match, valid,
-        reasons (the last two from the check report; None and [] without one)."""
+        """One dict per strategy: name, adjust, model, standardize, selection, restrict, match, se,
+        interactions, valid, reasons (the last two from the check report; None and [] without one)."""
         checked = {c.name: c for c in self.report.checks} if self.report is not None else {}
         return [
             {
@@ -512,6 +557,8 @@ class ScenarioState(param.Parameterized):
                 "selection": s.selection,
                 "restrict": dict(s.restrict),
                 "match": list(s.match),
+                "se": s.se,
+                "interactions": list(s.interactions),
                 "valid": checked[s.name].valid if s.name in checked else None,
                 "reasons": list(checked[s.name].reasons) if s.name in checked else [],
             }

@@ -1,6 +1,7 @@
 """The strategies editor under the graph: one row per strategy (name, adjustment set, model,
-standardisation, how the set is chosen, restriction, remove), each with its verdict and reasons below it,
-and the buttons that add a strategy or the minimal and optimal valid sets.
+standardisation, how the set is chosen, restriction, remove), a line of the options that apply to it
+(standard error; interaction terms), its verdict and reasons below, and the buttons that add a strategy or
+the minimal and optimal valid sets.
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ from workbench.app.state import ScenarioState
 from workbench.app.widgets import MAIN_WIDTH, NOTE_STYLE, ErrorBox
 from workbench.formatting.markup import text_html
 from workbench.scenario.edit import restriction_toml
+from workbench.scenario.parse_strategies import SE_CHOICES
 
 __all__ = [
     "StrategiesEditor",
@@ -196,8 +198,10 @@ class StrategiesEditor(pn.viewable.Viewer):
             margin=(0, 10, 4, 12),
             css_classes=["wb-strategy-verdict"],
         )
+        options = self._options(row)
         return pn.Column(
             pn.Row(*self._controls(row), margin=0),
+            *([pn.Row(*options, margin=(0, 0, 0, 150))] if options else []),
             verdict,
             styles={"border-bottom": "1px solid #e3e3e3"},
             margin=(2, 0),
@@ -222,7 +226,10 @@ class StrategiesEditor(pn.viewable.Viewer):
         controls = [title, adjust]
         if binary:  # a continuous outcome has one model, so no choice is shown
             model = pn.widgets.Select(
-                value=row["model"], options=["ols", "logit"], width=70, css_classes=["wb-strategy-model"]
+                value=row["model"],
+                options=["ols", "logit", "poisson"],
+                width=70,
+                css_classes=["wb-strategy-model"],
             )
             model.param.watch(lambda e: state.set_strategy(name, model=e.new), "value")
             controls.append(model)
@@ -253,6 +260,33 @@ class StrategiesEditor(pn.viewable.Viewer):
         remove = pn.widgets.Button(label="Remove", width=70, color="light")
         remove.on_click(lambda e: state.remove_strategy(name))
         return [*controls, restrict, remove]
+
+    def _options(self, row: dict) -> list:
+        """The options that apply to this strategy's model and design: the standard error where there is a
+        choice, and interaction terms with the exposure for least squares on a continuous outcome."""
+        state, name = self.state, row["name"]
+        binary = state.scenario.outcome.is_binary
+        design = row["selection"] or row["restrict"] or row["match"]
+        choices = SE_CHOICES.get((row["model"], binary), ())
+        out = []
+        if len(choices) > 1 and not design:
+            labels = {f"SE: {c}{' (default)' if i == 0 else ''}": c for i, c in enumerate(choices)}
+            se = pn.widgets.Select(
+                value=row["se"] or choices[0], options=labels, width=170, css_classes=["wb-strategy-se"]
+            )
+            se.param.watch(lambda e: state.set_strategy(name, se=e.new), "value")
+            out.append(se)
+        if row["model"] == "ols" and not binary and not design and row["adjust"]:
+            terms = pn.widgets.MultiChoice(
+                value=[v for v in row["interactions"] if v in row["adjust"]],
+                options=list(row["adjust"]),
+                width=300,
+                placeholder="interactions with the exposure: none",
+                css_classes=["wb-strategy-interactions"],
+            )
+            terms.param.watch(lambda e: state.set_strategy(name, interactions=e.new), "value")
+            out.append(terms)
+        return out
 
     def _header(self) -> pn.Row:
         """The column names, each in its own cell above its inputs (the cells follow the outcome's kind)."""

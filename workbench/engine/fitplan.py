@@ -88,6 +88,9 @@ class Fit:
     restrict: tuple = ()
     match: tuple[int, ...] = ()
     interactions: tuple[int, ...] = ()
+    flexible: tuple[int, ...] = ()
+    """``ols_flexible`` only: positions in ``adjust`` of the covariates that also enter through restricted
+    cubic spline columns (:mod:`workbench.engine.splines`)."""
 
     @property
     def masked(self) -> bool:
@@ -183,6 +186,7 @@ def _fit(
     restrict=(),
     match=(),
     interactions=(),
+    flexible=(),
 ):
     """One :class:`Fit` from a strategy's names (variables turned into file-order indices)."""
     names = scenario.names
@@ -205,6 +209,7 @@ def _fit(
         tuple((names.index(v), value) for v, value in restrict),
         tuple(names.index(v) for v in match),
         tuple(adjust.index(v) for v in interactions),
+        tuple(adjust.index(v) for v in flexible),
     )
 
 
@@ -217,7 +222,8 @@ def _with_references(scenario: Scenario, fits: list[Fit]) -> list[Fit]:
     hidden: list[Fit] = []
     resolved = []
     for f in fits:
-        kind = "ols" if f.kind == "ols_interaction" else f.kind  # no covariate, no interaction: plain OLS
+        # no covariate, no interaction, no spline: plain OLS
+        kind = "ols" if f.kind in ("ols_interaction", "ols_flexible") else f.kind
         ref = next((j for j, g in enumerate(fits) if g.kind == kind and not g.adjust and g.fixed), None)
         if ref is None:
             ref = next((len(fits) + j for j, g in enumerate(hidden) if g.kind == kind), None)
@@ -263,6 +269,7 @@ def fit_plan(scenario: Scenario) -> Plan:
             s.restrict,
             s.match,
             s.interactions,
+            s.flexible,
         )
         for s in scenario.strategies
     ]

@@ -49,6 +49,7 @@ from workbench.engine.logistic import design_matrix, fit_logit_batch
 from workbench.engine.ols import BatchFit, fit_crossproducts, fit_selected, masked_crossproducts
 from workbench.engine.poisson import fit_poisson_batch
 from workbench.engine.robust import ols_hc3_batch
+from workbench.engine.splines import fit_flexible
 from workbench.engine.standardize import standardized_contrast
 
 __all__ = ["FitResult", "fit_chunk"]
@@ -231,10 +232,24 @@ class _ChunkFitter:
         result.interaction_se = np.where(result.failed, np.nan, fit.coef_se[:, 1])
         return result
 
+    def flexible(self, f: Fit) -> FitResult:
+        """OLS with restricted cubic spline columns for the flexible covariates (classical SEs, t
+        intervals with the model's residual degrees of freedom)."""
+        x, y = self.plan.exposure, self.plan.outcome
+        batch = fit_flexible(self.data, x, f.regressors[1:], f.flexible, y, self.names)
+        R = batch.coef.shape[0]
+        df = np.broadcast_to(np.asarray(batch.df, dtype=float), (R,)).copy()
+        none = np.full(R, np.nan)
+        return _result(
+            f, batch.coef, batch.se, batch.failed, Counter(batch.reasons), batch, df, np.full(R, -1), none
+        )
+
     def fit(self, f: Fit) -> FitResult:
         """One fit of the plan on the chunk."""
         if f.kind == "ols_interaction":
             return self.interaction(f)
+        if f.kind == "ols_flexible":
+            return self.flexible(f)
         batch, kept = self.ols(f)
         R = self.source.shape[0]
         reasons = Counter(batch.reasons)

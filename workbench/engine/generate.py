@@ -59,7 +59,9 @@ from typing import TYPE_CHECKING
 import numpy as np
 from scipy import special
 
+from workbench.engine.forms import add_forms, with_forms
 from workbench.engine.modifiers import add_modification, with_modifiers
+from workbench.engine.noise import shape_noise, with_noise
 from workbench.engine.streams import generator
 from workbench.errors import SimulationError
 from workbench.scenario.constraints import check_setting
@@ -115,6 +117,8 @@ class Structure:
     intercept: np.ndarray
     noise_sd: np.ndarray
     modified: tuple = ()  # modified arrows (workbench.engine.modifiers.ModifiedArrow), in arrow order
+    forms: tuple = ()  # square and step arrows (workbench.engine.forms.FormArrow), in arrow order
+    noises: tuple = ()  # non-normal or spread disturbances (workbench.engine.noise.NoiseTerm), file order
 
     @property
     def k(self) -> int:
@@ -372,7 +376,9 @@ def graph_structure(variables: tuple, arrows: tuple) -> Structure:
     """
     bare = _bare_structure(variables, arrows)
     if not bare.binary.any():
-        return with_modifiers(bare, variables, arrows)
+        return with_noise(
+            with_forms(with_modifiers(bare, variables, arrows), variables, arrows), variables, arrows
+        )
     proportions = {v.name: v.proportion for v in variables if v.type == "binary"}
     intercept = bare.intercept.copy()
     rng = np.random.default_rng(CALIBRATION_SEED)
@@ -387,7 +393,9 @@ def graph_structure(variables: tuple, arrows: tuple) -> Structure:
     finally:
         drawn.close()
     calibrated = Structure(bare.names, bare.order, bare.parents, bare.binary, intercept, bare.noise_sd)
-    return with_modifiers(calibrated, variables, arrows)
+    return with_noise(
+        with_forms(with_modifiers(calibrated, variables, arrows), variables, arrows), variables, arrows
+    )
 
 
 def structure(scenario: Scenario) -> Structure:
@@ -555,7 +563,7 @@ def evaluate(
             else:
                 _bernoulli_from_normal(z[j], scratch, v[j], tmp)
         else:
-            if st.noise_sd[j] != 1.0 or not in_place:
+            if not shape_noise(st, j, z[j], v, scratch) and (st.noise_sd[j] != 1.0 or not in_place):
                 np.multiply(z[j], st.noise_sd[j], out=v[j])
             if st.intercept[j] != 0.0:
                 v[j] += st.intercept[j]
@@ -564,6 +572,8 @@ def evaluate(
                 v[j] += scratch
             if st.modified:
                 add_modification(st, j, v, scratch)
+            if st.forms:
+                add_forms(st, j, v, scratch)
         if intervention is not None and j == target:
             if intervention[0] != "shift":
                 raise ValueError(f"evaluate: unknown intervention {intervention[0]!r}")

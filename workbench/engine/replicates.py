@@ -254,10 +254,16 @@ def choose_engine(scenario: Scenario, n: int, engine: str = "auto") -> str:
         if engine == "exact":
             binary = [v.name for v in scenario.variables if v.is_binary]
             modified = [f"{x.source} -> {x.target}" for x in scenario.arrows if x.varies_with]
+            bent = [f"{x.source} -> {x.target} ({x.form})" for x in scenario.arrows if x.form != "linear"]
             why = (
                 f"every variable continuous; binary: {', '.join(binary)}"
                 if binary
                 else f"constant effects; varies_with on {', '.join(modified)}"
+                if modified
+                else f"linear arrows; form on {', '.join(bent)}"
+                if bent
+                else "normal noise with a constant SD; noise or spread_with on "
+                + ", ".join(v.name for v in scenario.variables if v.noise != "normal" or v.spread_with)
             )
             raise SimulationError(f"engine: 'exact' needs {why} (use 'raw' or 'auto')")
         return "raw"
@@ -358,10 +364,10 @@ def _interval_df(plan: Plan, n: int, store: _Collector) -> np.ndarray:
     per-replicate df of non-OLS fits are set to inf."""
     df = np.full(len(plan.fits), np.inf)
     for j, f in enumerate(plan.fits):
-        if f.kind != "ols":
+        if f.kind not in ("ols", "ols_flexible"):
             store.df[:, j] = np.inf
         elif f.fixed:
-            df[j] = n - len(f.regressors) - 1
+            df[j] = n - len(f.regressors) - 1 - 2 * len(f.flexible)
         else:
             fitted = ~store.failed[:, j]
             df[j] = float(np.mean(store.df[fitted, j])) if fitted.any() else np.nan

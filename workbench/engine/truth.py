@@ -3,6 +3,9 @@
 * ``target = "direct"``: the effect written on the arrow exposure -> outcome (0 without an arrow). The
   outcome is then continuous and its equation is linear in its causes, so this is exactly the change in the
   outcome's mean when the exposure rises by one unit and every other cause of the outcome is held fixed.
+  A square arrow exposure -> outcome gives the same number (centred at the exposure's mean, a unit shift
+  changes the square term by ``2 (X - E[X]) + 1``, of mean 1); a step arrow gives ``effect x P(at - 1 < X <=
+  at)`` over the exposure's draws (:func:`workbench.engine.forms.direct_step_effect`).
 * ``target = "total"`` on a linear-Gaussian graph: the closed form, the sum over directed paths of the
   products of the arrows' effects (Wright 1934; :func:`workbench.graph.linear.total_effects`).
 * Anything else, by simulated intervention with common random numbers: the same ``2**20`` noise draws
@@ -31,6 +34,11 @@
   sum(c (E[m | do] - E[m]))``, just ``effect`` when the modifier ``m`` does not descend from the exposure.
   Such a graph is never linear-Gaussian, and its contrast varies from draw to draw: all
   :data:`TRUTH_DRAWS` are used.
+
+  A square or step arrow (``form``, :mod:`workbench.engine.forms`) is also part of those equations: on a
+  causal path the contrast of a unit shift then depends on each unit's value of the arrow's cause (and, for
+  a square, on the size of the shift), so all :data:`TRUTH_DRAWS` are used; off the causal paths the
+  arrow's term is the same in both worlds and cancels.
 
 Results are cached per scenario graph and question, so repeated simulations pay once.
 
@@ -206,7 +214,11 @@ def truth_draws(variables: tuple, arrows: tuple, exposure: str, outcome: str) ->
 
     on_paths = (reach(exposure, children) & reach(outcome, parents)) - {exposure}
     modified = {a.target for a in arrows if a.varies_with}  # the contrast varies with the modifier
-    return TRUTH_DRAWS if on_paths & (binary | modified) else EXACT_DRAWS
+    # a square or step arrow from the exposure or a variable on a causal path: the contrast varies too
+    bent = {a.target for a in arrows if a.form != "linear" and a.source in on_paths | {exposure}}
+    # noise whose spread moves with the exposure or a variable on a causal path: mean-zero, but not constant
+    bent |= {v.name for v in variables if any(c in on_paths | {exposure} for c, _ in v.spread_with)}
+    return TRUTH_DRAWS if on_paths & (binary | modified | bent) else EXACT_DRAWS
 
 
 @functools.lru_cache(maxsize=128)
@@ -341,8 +353,18 @@ def true_effect(scenario: Scenario, scale: str | None = None) -> Truth:
     scale = scale or q.scale
     words = _words(scenario, scale)
     if q.target == "direct":
+        from workbench.engine.forms import direct_step_effect  # forms imports this module (its seed)
+
+        step = direct_step_effect(scenario)  # a step arrow exposure -> outcome: over the exposure's values
+        if step is not None:
+            return Truth(step[0], step[1], "simulated intervention", words, TRUTH_DRAWS, scale)
         return Truth(direct_effect(scenario), 0.0, "closed form", words, 0, scale)
-    if scenario.is_linear_gaussian and scale == "difference":
+    # a linear graph with non-normal or spread noise has the closed-form truth: the noise is additive with mean
+    # 0 given every cause (workbench.engine.noise), so the average effect is the sum over causal paths
+    linear = all(v.type == "continuous" for v in scenario.variables) and not any(
+        a.varies_with or a.form != "linear" for a in scenario.arrows
+    )
+    if linear and scale == "difference":
         names = scenario.names
         value = float(total_effects(scenario)[names.index(q.exposure), names.index(q.outcome)])
         return Truth(value, 0.0, "closed form", words, 0, scale)
@@ -360,6 +382,7 @@ KIND_WORDS = {
     "poisson": "Poisson, model-based SEs",
     "poisson_robust": "modified Poisson",
     "ols_interaction": "OLS with exposure x covariate terms",
+    "ols_flexible": "OLS with spline covariates",
 }
 """Words for each kind of fit (see :func:`model_kind`)."""
 
@@ -370,7 +393,9 @@ def model_kind(strategy: Strategy, binary_outcome: bool) -> str:
     ``"ols_hc3"`` (OLS on a continuous outcome with ``se = "hc3"``), ``"poisson_robust"`` (modified Poisson:
     log link, HC0 sandwich SEs, the default for ``model = "poisson"``), ``"poisson"`` (``se =
     "classical"``: model-based SEs) or ``"ols_interaction"`` (``interactions``: OLS with exposure x
-    covariate terms reporting the sample-averaged effect, :mod:`workbench.engine.interactions`).
+    covariate terms reporting the sample-averaged effect, :mod:`workbench.engine.interactions`) or
+    ``"ols_flexible"`` (``flexible``: OLS with restricted cubic spline covariates,
+    :mod:`workbench.engine.splines`).
 
     Examples
     --------
@@ -383,6 +408,8 @@ def model_kind(strategy: Strategy, binary_outcome: bool) -> str:
         return "poisson" if strategy.se == "classical" else "poisson_robust"
     if strategy.interactions:
         return "ols_interaction"
+    if getattr(strategy, "flexible", ()):
+        return "ols_flexible"
     if binary_outcome:
         return "lpm"
     return "ols_hc3" if strategy.se == "hc3" else "ols"
@@ -409,7 +436,7 @@ def estimand(kind: str, scenario: Scenario, adjust: tuple[str, ...] = ()) -> tup
     """
     q = scenario.question
     per_unit = "" if scenario.exposure.is_binary else " per unit"
-    if kind in ("ols", "ols_hc3"):
+    if kind in ("ols", "ols_hc3", "ols_flexible"):
         target = "direct effect" if q.target == "direct" else "total effect"
         return f"{target} (difference in means{per_unit})", "difference", ""
     if kind == "ols_interaction":

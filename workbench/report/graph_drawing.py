@@ -26,8 +26,9 @@ import networkx as nx
 from bokeh.models import Arrow, ColumnDataSource, HoverTool, Legend, LegendItem, Range1d, VeeHead
 from bokeh.plotting import figure
 
+from workbench.report.arrow_style import arrow_text as _arrow_text
+from workbench.report.arrow_style import arrow_widths as _arrow_widths
 from workbench.report.style import EDGE_COLOUR, FONT, ROLE_STYLE, fit_to_width, style_figure
-from workbench.scenario.elicit import standardized_effects
 from workbench.scenario.model import Scenario
 
 __all__ = ["ROLE_STYLE", "primary_role", "graph_layout", "graph_figure"]
@@ -183,39 +184,6 @@ def _frame(pos: dict[str, tuple[float, float]], width: int, height: int) -> _Fra
 # ------------------------------------------------------------------------------------------------------
 # Label placement
 # ------------------------------------------------------------------------------------------------------
-def _effect_text(effect: float) -> str:
-    """An arrow's label: at most three significant digits, no plus sign.
-
-    Examples
-    --------
-    >>> _effect_text(0.25), _effect_text(-0.08), _effect_text(1.0), _effect_text(0.123456)
-    ('0.25', '-0.08', '1', '0.123')
-    """
-    return f"{effect:.3g}"
-
-
-def _arrow_text(arrow) -> str:
-    """An arrow's label: its effect, the shape of a non-linear form (``sq``: times the squared deviation of
-    the cause from its mean; ``[>at]``: a step at ``at``), and how the effect changes with each modifier of
-    ``varies_with`` (per unit of the modifier above its mean), so a modified arrow reads differently.
-
-    Examples
-    --------
-    >>> from workbench.scenario.model import Arrow
-    >>> _arrow_text(Arrow("a", "b", 4.0)), _arrow_text(Arrow("a", "b", 4.0, varies_with=(("skill", 1.5),)))
-    ('4', '4 +1.5·skill')
-    """
-    text = _effect_text(arrow.effect)
-    form = getattr(arrow, "form", "linear")
-    if form == "square":
-        text += "·sq"
-    elif form == "step":
-        text += f"·[>{getattr(arrow, 'at', 0.0):.3g}]"
-    for name, change in getattr(arrow, "varies_with", ()):
-        text += f" {change:+.3g}·{name}"
-    return text
-
-
 def _box_overlap(a: Box, b: Box) -> float:
     """Overlapping area of two boxes."""
     w = min(a[2], b[2]) - max(a[0], b[0])
@@ -371,21 +339,6 @@ def _blank_figure(frame: _Frame, title: str | None):
     fig.axis.visible = False
     fig.grid.visible = False
     return fig
-
-
-def _arrow_widths(scenario: Scenario) -> dict[tuple[str, str], float]:
-    """Each arrow's line width in pixels, 1.2 to 4.2 by its standardized size (|b*| capped at 1); an arrow
-    whose standardized size has no closed form (into a binary variable, say) by its |effect| relative to
-    the largest such |effect|, on the same range."""
-    standardized = standardized_effects(scenario.variables, scenario.arrows)
-    raw_max = max(
-        (abs(a.effect) for a, b in zip(scenario.arrows, standardized, strict=True) if b is None), default=0
-    )
-    out = {}
-    for a, b in zip(scenario.arrows, standardized, strict=True):
-        size = abs(b) if b is not None else (abs(a.effect) / raw_max if raw_max > 0 else 0.0)
-        out[(a.source, a.target)] = 1.2 + 3.0 * min(1.0, size)
-    return out
 
 
 def _arrow_data(scenario: Scenario, pos, frame: _Frame, verdict, label_at) -> tuple[dict, dict]:

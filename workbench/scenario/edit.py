@@ -77,14 +77,22 @@ def _prune_strategy(table: dict, names: set[str]) -> bool:
     restrict = {k: v for k, v in (table.get("restrict") or {}).items() if k not in names}
     match = [v for v in table.get("match", []) if v not in names]
     interactions = [v for v in table.get("interactions", []) if v in adjust]  # each must stay adjusted for
+    flexible = [v for v in table.get("flexible", []) if v in adjust]
     changed = (
         len(adjust) != len(table.get("adjust", []))
         or len(restrict) != len(table.get("restrict") or {})
         or len(match) != len(table.get("match", []))
         or len(interactions) != len(table.get("interactions", []))
+        or len(flexible) != len(table.get("flexible", []))
     )
     table["adjust"] = adjust
-    for key, value in (("match", match), ("restrict", restrict), ("interactions", interactions)):
+    pruned = (
+        ("match", match),
+        ("restrict", restrict),
+        ("interactions", interactions),
+        ("flexible", flexible),
+    )
+    for key, value in pruned:
         if key in table:
             if value:
                 table[key] = value
@@ -175,6 +183,9 @@ def rename_variable(data: dict, old: str, new: str) -> Edited:
         return new if name == old else name
 
     data["variables"] = {swap(k): v for k, v in data["variables"].items()}
+    for table in data["variables"].values():
+        if table.get("spread_with"):
+            table["spread_with"] = {swap(k): v for k, v in table["spread_with"].items()}
     for arrow in data["arrows"]:
         arrow["from"], arrow["to"] = swap(arrow["from"]), swap(arrow["to"])
         if arrow.get("varies_with"):
@@ -185,7 +196,7 @@ def rename_variable(data: dict, old: str, new: str) -> Edited:
         q["also"] = [swap(v) for v in q["also"]]
     for table in data.get("strategies", []):
         table["adjust"] = [swap(v) for v in table["adjust"]]
-        for key in ("match", "interactions"):
+        for key in ("match", "interactions", "flexible"):
             if key in table:
                 table[key] = [swap(v) for v in table[key]]
         if table.get("restrict"):
@@ -227,9 +238,18 @@ def remove_variable(data: dict, name: str) -> Edited:
             modified.append(f"{arrow['from']} -> {arrow['to']}")
             if not arrow["varies_with"]:
                 del arrow["varies_with"]
+    spread = [v for v, table in data["variables"].items() if name in table.get("spread_with", {})]
+    for v in spread:
+        del data["variables"][v]["spread_with"][name]
+        if not data["variables"][v]["spread_with"]:
+            del data["variables"][v]["spread_with"]
     note = _prune_in_place(data, {name})
     if modified:
         note = "; ".join(filter(None, (note, f"the arrows {', '.join(modified)} no longer vary with {name}")))
+    if spread:
+        note = "; ".join(
+            filter(None, (note, f"the noise of {', '.join(spread)} no longer spreads with {name}"))
+        )
     return Edited(data, note)
 
 

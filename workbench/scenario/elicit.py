@@ -107,8 +107,9 @@ def implied_moments(variables, arrows) -> tuple[list[str], np.ndarray, list[bool
     """The covariance the graph implies, exact where a closed form exists.
 
     Continuous variables follow the linear recursion; a binary variable without causes is Bernoulli(p),
-    variance ``p(1-p)``, independent of everything before it. A binary variable with causes, and every
-    descendant of one, has no closed form: its rows are NaN and its flag False.
+    variance ``p(1-p)``, independent of everything before it. A binary variable with causes, a variable
+    whose noise spreads with a covariate (``spread_with``), and every descendant of one, have no closed
+    form here: their rows are NaN and their flags False.
 
     Returns
     -------
@@ -136,7 +137,7 @@ def implied_moments(variables, arrows) -> tuple[list[str], np.ndarray, list[bool
         j = index[name]
         causes = [(index[a.source], a.effect) for a in arrows if a.target == name]
         v = by_name[name]
-        if v.is_binary and causes or any(not known[i] for i, _ in causes):
+        if v.is_binary and causes or getattr(v, "spread_with", ()) or any(not known[i] for i, _ in causes):
             done.append(j)
             continue
         if v.is_binary:

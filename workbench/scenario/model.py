@@ -103,6 +103,14 @@ class Variable:
     r_squared: float | None = None
     """Continuous only: the share of variance explained by the causes, as the file gave it (it set
     ``noise_sd``; :mod:`workbench.scenario.elicit`), else None."""
+    noise: str = "normal"
+    """Continuous only: the law of the disturbance (:mod:`workbench.engine.noise`): ``"normal"``,
+    ``"heavy_tailed"`` (scaled Student t) or ``"skewed"`` (standardised lognormal); SD ``noise_sd``, mean 0."""
+    noise_df: float | None = None
+    """The t's degrees of freedom (> 2) of ``noise = "heavy_tailed"`` (None otherwise; default 5)."""
+    spread_with: tuple[tuple[str, float], ...] = ()
+    """Heteroskedastic noise (``spread_with = { distance = 0.5 }``): the noise SD is ``noise_sd x exp(sum c x
+    z)``, ``z`` the covariate's standardised value."""
 
     @property
     def is_binary(self) -> bool:
@@ -127,6 +135,11 @@ class Arrow:
     varies_with: tuple[tuple[str, float], ...] = ()
     """Effect modification (``varies_with = { skill = 0.3 }``): the arrow's effect is ``effect + sum(c x
     (modifier - E[modifier]))`` over these ``(modifier, c)`` pairs (:mod:`workbench.engine.modifiers`)."""
+    form: str = "linear"
+    """How the cause enters (:mod:`workbench.engine.forms`): ``"linear"`` (``effect x cause``), ``"square"``
+    (``effect x (cause - E[cause])^2``) or ``"step"`` (``effect x 1[cause > at]``)."""
+    at: float | None = None
+    """The threshold of a ``"step"`` form (None for the other forms)."""
 
 
 @dataclass(frozen=True)
@@ -168,12 +181,15 @@ class Strategy:
     interactions: tuple[str, ...] = ()
     """Covariates of ``adjust`` that also enter as exposure x (covariate - its sample mean) product terms
     (OLS, continuous outcome): the exposure's coefficient is then the sample-averaged effect."""
+    flexible: tuple[str, ...] = ()
+    """Covariates of ``adjust`` that enter as a restricted cubic spline (4 knots, 2 extra columns each) instead
+    of a straight line (:mod:`workbench.engine.splines`)."""
 
     @property
     def n_coefficients(self) -> int:
         """Fitted coefficients: intercept, exposure, each adjusted variable (each candidate when the set
         is selected from the data: the full model is fitted first) and each interaction term."""
-        return 2 + len(self.adjust) + len(self.interactions)
+        return 2 + len(self.adjust) + len(self.interactions) + 2 * len(self.flexible)
 
     @property
     def restricted(self) -> tuple[str, ...]:
@@ -257,12 +273,13 @@ class Scenario:
 
     @property
     def is_linear_gaussian(self) -> bool:
-        """True when every variable is continuous and no arrow's effect varies with a modifier
-        (``varies_with``): the graph is a linear structural model with Gaussian disturbances, so its joint
+        """True when every variable is continuous, no arrow's effect varies with a modifier
+        (``varies_with``), every arrow is linear (``form``) and every noise normal with a constant SD (``noise``,
+        ``spread_with``): the graph is a linear structural model with Gaussian disturbances, so its joint
         distribution is known in closed form."""
-        return all(v.type == "continuous" for v in self.variables) and not any(
-            a.varies_with for a in self.arrows
-        )
+        return all(
+            v.type == "continuous" and v.noise == "normal" and not v.spread_with for v in self.variables
+        ) and not any(a.varies_with or a.form != "linear" for a in self.arrows)
 
     def parents(self, name: str) -> list[tuple[str, float]]:
         """Direct causes of ``name`` with their effects, in arrow order."""

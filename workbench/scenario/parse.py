@@ -94,7 +94,9 @@ from workbench.scenario.model import (
     Variable,
     minimum_study_size,
 )
+from workbench.scenario.parse_forms import check_forms, read_form
 from workbench.scenario.parse_modifiers import check_modifiers, read_varies_with
+from workbench.scenario.parse_noise import NOISE_KEYS, check_noise, read_noise, refuse_on_binary
 from workbench.scenario.parse_strategies import parse_strategies
 
 __all__ = ["parse_scenario", "parse_scenario_text", "read_scenario", "check_sizes"]
@@ -105,8 +107,18 @@ __all__ = ["parse_scenario", "parse_scenario_text", "read_scenario", "check_size
 # --------------------------------------------------------------------------------------------------------
 _TOP_KEYS = ("title", "summary", "question", "variables", "arrows", "strategies", "study")
 _QUESTION_KEYS = ("exposure", "outcome", "target", "scale", "also")
-_VARIABLE_KEYS = ("type", "noise_sd", "baseline", "proportion", "observed", "label", "position", "r_squared")
-_ARROW_KEYS = ("from", "to", "effect", "standardized_effect", "varies_with")
+_VARIABLE_KEYS = (
+    "type",
+    "noise_sd",
+    "baseline",
+    "proportion",
+    "observed",
+    "label",
+    "position",
+    "r_squared",
+    *NOISE_KEYS,
+)
+_ARROW_KEYS = ("from", "to", "effect", "standardized_effect", "varies_with", "form", "at")
 _STUDY_KEYS = ("n", "replicates", "seed", "alpha", "sample_sizes", "target_power", "target_halfwidth")
 
 
@@ -152,7 +164,7 @@ def _parse_noise_sd(table: dict, where: str, name: str) -> float:
     return noise_sd
 
 
-def _parse_variable(name: str, table: Any) -> Variable:
+def _parse_variable(name: str, table: Any, names=()) -> Variable:
     if not NAME_PATTERN.fullmatch(name):
         place = place_of("variables", name)  # a name that is not a bare key is quoted, not put in the place
         rule = f"a variable name must be a letter, then letters, digits or '_', at most {MAX_NAME} characters"
@@ -174,6 +186,7 @@ def _parse_variable(name: str, table: Any) -> Variable:
                     "applies to continuous variables only; a binary variable is set by 'proportion'",
                     where=f"{where}.{key}",
                 )
+        refuse_on_binary(table, where)
         proportion = _parse_proportion(table, where)
         return Variable(name, "binary", 0.0, 0.0, proportion, observed, label, position)
     if "proportion" in table:
@@ -183,7 +196,10 @@ def _parse_variable(name: str, table: Any) -> Variable:
     r_squared = read_r_squared(table, where)
     noise_sd = _parse_noise_sd(table, where, name)
     baseline = check_magnitude(_get(table, "baseline", "number", where, 0.0), f"{where}.baseline")
-    return Variable(name, "continuous", noise_sd, baseline, None, observed, label, position, r_squared)
+    law, df, spread = read_noise(table, where, names, name)
+    return Variable(
+        name, "continuous", noise_sd, baseline, None, observed, label, position, r_squared, law, df, spread
+    )
 
 
 def _check_acyclic(names: list[str], arrows: list[Arrow]) -> None:
@@ -215,7 +231,7 @@ def _parse_variables(data: dict) -> tuple[Variable, ...]:
         raise ScenarioError("needs at least the exposure and the outcome", where="variables")
     if len(var_tables) > MAX_VARIABLES:
         raise ScenarioError(f"at most {MAX_VARIABLES} variables, got {len(var_tables)}", where="variables")
-    return tuple(_parse_variable(name, table) for name, table in var_tables.items())
+    return tuple(_parse_variable(name, table, list(var_tables)) for name, table in var_tables.items())
 
 
 def _parse_arrow(i: int, table: Any, names: list[str], seen: dict[tuple[str, str], int]) -> Arrow:
@@ -235,7 +251,8 @@ def _parse_arrow(i: int, table: Any, names: list[str], seen: dict[tuple[str, str
         )
     seen[(source, target)] = i
     varies_with = read_varies_with(table, where, names, source, target)
-    return Arrow(source, target, effect, standardized, varies_with)
+    form, at = read_form(table, where)
+    return Arrow(source, target, effect, standardized, varies_with, form, at)
 
 
 def _parse_arrows(data: dict, names: list[str]) -> tuple[Arrow, ...]:
@@ -376,6 +393,8 @@ def parse_scenario(data: dict) -> Scenario:
     by_name = {v.name: v for v in variables}
     arrows = _parse_arrows(data, list(by_name))
     check_modifiers(data, variables, arrows)
+    check_forms(data, variables, arrows)
+    check_noise(variables, arrows)
     variables, arrows = resolve_elicited(data, variables, arrows)
     by_name = {v.name: v for v in variables}
     check_scales(variables, arrows)

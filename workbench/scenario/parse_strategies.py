@@ -27,6 +27,7 @@ from workbench.scenario.model import (
     Strategy,
     Variable,
 )
+from workbench.scenario.parse_forms import read_flexible
 
 __all__ = ["parse_strategies", "STRATEGY_KEYS", "SE_CHOICES"]
 
@@ -40,6 +41,7 @@ STRATEGY_KEYS = (
     "match",
     "se",
     "interactions",
+    "flexible",
 )
 
 _SE_ALLOWED = {
@@ -146,7 +148,12 @@ def _parse_strategy(
     interactions = _parse_interactions(
         table, where, adjust, model, outcome_binary, (selection, restrict, match), se
     )
-    return Strategy(name, tuple(adjust), model, standardize, selection, restrict, match, se, interactions)
+    others = {"selection": bool(selection), "restrict": bool(restrict), "match": bool(match)}
+    others |= {"interactions": bool(interactions), 'se = "hc3"': se == "hc3"}
+    flexible = read_flexible(table, where, by_name, adjust, model, outcome_binary, others)
+    return Strategy(
+        name, tuple(adjust), model, standardize, selection, restrict, match, se, interactions, flexible
+    )
 
 
 def _parse_interactions(table: dict, where: str, adjust, model: str, outcome_binary: bool, design, se):

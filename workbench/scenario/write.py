@@ -66,6 +66,12 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
             if v.name not in standardized_targets:  # standardized arrows set noise_sd (scenario/elicit.py)
                 table["noise_sd"] = v.noise_sd
             table["baseline"] = v.baseline
+        if v.noise != "normal":
+            table["noise"] = v.noise
+        if v.noise_df is not None:
+            table["noise_df"] = v.noise_df
+        if v.spread_with:
+            table["spread_with"] = dict(v.spread_with)
         table["observed"] = v.observed
         if v.position is not None:
             table["position"] = list(v.position)
@@ -75,6 +81,8 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
         {"from": a.source, "to": a.target}
         | ({"effect": a.effect} if a.standardized is None else {"standardized_effect": a.standardized})
         | ({"varies_with": dict(a.varies_with)} if a.varies_with else {})
+        | ({"form": a.form} if a.form != "linear" else {})
+        | ({"at": a.at} if a.at is not None else {})
         for a in scenario.arrows
     ]
     if include_default_strategies or scenario.strategies_given:
@@ -95,6 +103,8 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
                 table["se"] = s.se
             if s.interactions:
                 table["interactions"] = list(s.interactions)
+            if s.flexible:
+                table["flexible"] = list(s.flexible)
             strategies.append(table)
         out["strategies"] = strategies
     st = scenario.study
@@ -174,7 +184,7 @@ def _pairs(table: dict) -> list[str]:
     return [
         f"{_key(k)} = {_long_string(v, _key(k)) if isinstance(v, str) else _value(v)}"
         for k, v in table.items()
-        if not isinstance(v, dict) or k in ("restrict", "varies_with")
+        if not isinstance(v, dict) or k in ("restrict", "varies_with", "spread_with")
     ]
 
 
