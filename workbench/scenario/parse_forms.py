@@ -41,6 +41,7 @@ from __future__ import annotations
 from workbench.errors import ScenarioError
 from workbench.scenario.fields import choice, get_field, known_name
 from workbench.scenario.limits import check_magnitude
+from workbench.scenario.parse_modifiers import descendants
 
 __all__ = ["FORMS", "read_form", "check_forms", "read_flexible"]
 
@@ -65,19 +66,6 @@ def read_form(table: dict, where: str) -> tuple[str, float | None]:
             raise ScenarioError('form = "step" needs at = <the threshold>, a number', where=f"{where}.form")
         return form, float(check_magnitude(at, f"{where}.at"))
     return form, None
-
-
-def _descendants(start: str, arrows) -> set[str]:
-    children: dict[str, list[str]] = {}
-    for a in arrows:
-        children.setdefault(a.source, []).append(a.target)
-    seen, todo = set(), [start]
-    while todo:
-        for nxt in children.get(todo.pop(), ()):
-            if nxt not in seen:
-                seen.add(nxt)
-                todo.append(nxt)
-    return seen
 
 
 def check_forms(data: dict, variables, arrows) -> None:
@@ -123,7 +111,7 @@ def check_forms(data: dict, variables, arrows) -> None:
             )
         if a.varies_with:
             raise ScenarioError("a non-linear form cannot be combined with varies_with yet", where=where)
-        below = _descendants(a.target, arrows) | {a.target}
+        below = descendants(a.target, arrows) | {a.target}
         binary_below = sorted(b for b in below if by_name[b].is_binary)
         if binary_below:
             raise ScenarioError(

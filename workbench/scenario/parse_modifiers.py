@@ -37,7 +37,7 @@ from workbench.errors import ScenarioError
 from workbench.scenario.fields import get_field, known_name, place_of
 from workbench.scenario.limits import check_magnitude
 
-__all__ = ["read_varies_with", "check_modifiers"]
+__all__ = ["read_varies_with", "check_modifiers", "descendants"]
 
 
 def read_varies_with(
@@ -78,7 +78,8 @@ def read_varies_with(
     return tuple(out)
 
 
-def _descendants(start: str, arrows) -> set[str]:
+def descendants(start: str, arrows) -> set[str]:
+    """Every variable an arrow path leads to from ``start`` (``start`` excluded unless on a cycle)."""
     children: dict[str, list[str]] = {}
     for a in arrows:
         children.setdefault(a.source, []).append(a.target)
@@ -123,7 +124,7 @@ def check_modifiers(data: dict, variables, arrows) -> None:
                 "arrows); give its noise_sd",
                 where=f"{where}.varies_with",
             )
-        below = _descendants(a.target, arrows)
+        below = descendants(a.target, arrows)
         causes = {b.source for b in arrows if b.target == a.target}
         for name, _ in a.varies_with:
             place = place_of(f"{where}.varies_with", name)

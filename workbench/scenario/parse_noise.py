@@ -39,6 +39,7 @@ from __future__ import annotations
 from workbench.errors import ScenarioError, shown
 from workbench.scenario.fields import choice, get_field, known_name, place_of
 from workbench.scenario.limits import MAX_MAGNITUDE, check_magnitude
+from workbench.scenario.parse_modifiers import descendants
 
 __all__ = [
     "NOISE_KEYS",
@@ -108,19 +109,6 @@ def refuse_on_binary(table: dict, where: str) -> None:
             )
 
 
-def _descendants(start: str, arrows) -> set[str]:
-    children: dict[str, list[str]] = {}
-    for a in arrows:
-        children.setdefault(a.source, []).append(a.target)
-    seen, todo = set(), [start]
-    while todo:
-        for nxt in children.get(todo.pop(), ()):
-            if nxt not in seen:
-                seen.add(nxt)
-                todo.append(nxt)
-    return seen
-
-
 def check_noise(variables, arrows) -> None:
     """The graph rules of every variable with non-normal or spread noise (module notes), after the arrows are
     known to form no cycle."""
@@ -129,7 +117,7 @@ def check_noise(variables, arrows) -> None:
         if v.noise == "normal" and not v.spread_with:
             continue
         where = f"variables.{v.name}"
-        below = _descendants(v.name, arrows)
+        below = descendants(v.name, arrows)
         causes = {a.source for a in arrows if a.target == v.name}
         if v.spread_with and v.r_squared is not None:
             raise ScenarioError(
