@@ -11,6 +11,7 @@ from __future__ import annotations
 import html
 import importlib.resources
 import re
+import weakref
 
 import pytest
 
@@ -174,3 +175,24 @@ def test_the_verdicts_table_reads_the_check_records():
     assert "<div>nothing; only units with night_shift = 0, experience in [-1, 1]</div>" in table
     assert "<div>night_shift, experience; matched on night_shift</div>" in table
     assert '<td>day_shift_experience_band</td><td class="invalid">invalid</td>' in table
+
+
+def test_a_leaked_bokeh_curdoc_does_not_break_the_report():
+    """Bokeh's ``patch_curdoc`` (bokeh/io/doc.py, 3.x) restores ``curdoc()`` only when its body ends without
+    an exception; an exception in a dashboard callback leaves another session's Document patched in, and
+    that Document is destroyed when its session closes. Bokeh's ``components()`` then fails on every model
+    that is not in a Document yet. The reports put their figures in a Document of their own, so exports do
+    not depend on what an earlier callback left behind. (Found in the browser tests; common practice, no
+    source for the remedy beyond Bokeh's OutputDocumentFor, which reuses a Document holding all the roots.)
+    """
+    from bokeh.document import Document
+    from bokeh.io import doc as bokeh_doc
+
+    stale = Document()
+    bokeh_doc._PATCHED_CURDOCS.append(weakref.ref(stale))  # what the failed callback leaves behind
+    stale.callbacks.destroy()  # what closing its session does (Document.destroy)
+    try:
+        page = build_report(load_preset("binary_exposure"))
+    finally:
+        bokeh_doc._PATCHED_CURDOCS.pop()
+    assert "<script" in page and load_preset("binary_exposure").title in html.unescape(page)

@@ -3,7 +3,9 @@
 The browser is the system's Chromium (``/usr/bin/chromium``); Playwright's own browser downloads are never
 used. Without it the tests skip, unless ``WORKBENCH_REQUIRE_BROWSER=1`` (set by CI), which turns the skip
 into a failure. Every request the page makes and every console error is recorded; the page fixture fails the
-test when a request went to any host other than the server's, or when the console showed an error.
+test when a request went to any host other than the server's, or when the console showed an error, or when
+the server printed a traceback while the module's page was open (the server's output goes to a file, read at
+the end of each module: a pipe nobody reads would stall the server once full).
 """
 
 from __future__ import annotations
@@ -65,8 +67,18 @@ def _free_port() -> int:
         return sock.getsockname()[1]
 
 
+#: Where the server's output goes (set by the ``server`` fixture).
+SERVER_LOG: list[Path] = []
+
+
+def _server_output(start: int = 0) -> str:
+    if not SERVER_LOG or not SERVER_LOG[0].exists():
+        return ""
+    return SERVER_LOG[0].read_text(encoding="utf-8", errors="replace")[start:]
+
+
 @pytest.fixture(scope="session")
-def server():
+def server(tmp_path_factory):
     """``workbench serve --no-show`` on a free loopback port; yields its base URL."""
     _require_browser()
     port = _free_port()
@@ -79,7 +91,10 @@ def server():
         "--port",
         str(port),
     ]
-    process = subprocess.Popen(command, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True)
+    log_path = tmp_path_factory.mktemp("server") / "serve.log"
+    SERVER_LOG[:] = [log_path]
+    log = open(log_path, "w", encoding="utf-8")  # noqa: SIM115  (open while the server runs)
+    process = subprocess.Popen(command, stdout=log, stderr=subprocess.STDOUT, text=True)
     url = f"http://127.0.0.1:{port}/"
     deadline = time.monotonic() + 90
     # First wait until the port accepts connections (cheap), then ask for the page once with a generous
@@ -87,7 +102,7 @@ def server():
     # that retry would only pile up sessions.
     while True:
         if process.poll() is not None:
-            raise RuntimeError(f"workbench serve exited early:\n{process.stdout.read()}")
+            raise RuntimeError(f"workbench serve exited early:\n{_server_output()}")
         try:
             with socket.create_connection(("127.0.0.1", port), timeout=1):
                 break
@@ -109,6 +124,7 @@ def server():
         process.wait(10)
     except subprocess.TimeoutExpired:
         process.kill()
+    log.close()
 
 
 @pytest.fixture(scope="module")
@@ -172,6 +188,7 @@ def page(server, browser):
     context = browser.new_context(viewport=VIEWPORT, accept_downloads=True)
     tab = context.new_page()
     record = PageRecord(tab, urlparse(server).netloc)
+    start = len(_server_output())
     tab.goto(server)
     tab.wait_for_selector(".wb-graph", timeout=60_000)
     yield record
@@ -180,3 +197,5 @@ def page(server, browser):
     context.close()
     assert not foreign, f"requests left the server's host: {foreign}"
     assert not errors, f"console errors: {errors}"
+    printed = _server_output(start)
+    assert "Traceback" not in printed, f"the server printed a traceback:\n{printed[-3000:]}"

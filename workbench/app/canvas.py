@@ -232,16 +232,25 @@ class CanvasEditor(pn.viewable.Viewer):
             self._syncing = True
             try:
                 names = list(self._positions)
-                self._handles.data = {
-                    "x": [self._positions[n][0] for n in names],
-                    "y": [self._positions[n][1] for n in names],
-                    "name": names,
-                }
+                with pn.io.unlocked():
+                    self._handles.data = {
+                        "x": [self._positions[n][0] for n in names],
+                        "y": [self._positions[n][1] for n in names],
+                        "name": names,
+                    }
             finally:
                 self._syncing = False
 
     def _show_marks(self) -> None:
         """Ring the selected node (or the cause picked in arrow mode) and shade the selected arrow."""
+        # The marks are plain Bokeh sources: changed from a Panel widget's callback (OK, Cancel, Delete)
+        # they must be changed with the document unlocked, as Panel changes its own models, or the
+        # server refuses the change (and Bokeh's curdoc patch leaks into every later export).
+        with pn.io.unlocked():
+            self._set_marks()
+        self._show_status()
+
+    def _set_marks(self) -> None:
         ringed = [n for n in (self.selected_node, self.cause) if n in self._positions]
         self._marks.data = {
             "x": [self._positions[n][0] for n in ringed],
@@ -255,7 +264,6 @@ class CanvasEditor(pn.viewable.Viewer):
             self._arrow_marks.data = {"x0": [], "y0": [], "x1": [], "y1": []}
         if self._handles is not None and self._handles.selected.indices:
             self._handles.selected.indices = []  # the drag tool's own selection would drag two nodes
-        self._show_status()
 
     def _show_status(self) -> None:
         if self.mode.value == ARROW and self._effect:

@@ -31,7 +31,6 @@ from functools import lru_cache
 
 import jinja2
 import pandas as pd
-from bokeh.embed import components
 from bokeh.layouts import gridplot, row
 from bokeh.resources import Resources
 
@@ -39,6 +38,7 @@ from workbench import __version__
 from workbench.formatting.markup import text_html
 from workbench.formatting.numbers import fmt_mcse
 from workbench.report import dataset_figures, figures, graph_drawing, plan_figures, tables
+from workbench.report.embed import standalone_components
 from workbench.report.explain import ASSUMPTION_NOTE, consequences_html, explain
 from workbench.scenario.model import Scenario
 from workbench.scenario.write import dumps_scenario, write_text_atomically
@@ -242,7 +242,7 @@ def build_report(
     }
     if dataset is not None:
         models["dataset"] = _dataset_figure(scenario, dataset, covariate)
-    script, divs = components(models)
+    script, divs = standalone_components(models)
     page = _environment().get_template(TEMPLATE).render(context, bokeh_script=script, figures=divs)
     if sensitivity is not None:  # an optional section, built (escaped) by report.sensitivity_figures
         from workbench.report.sensitivity_figures import sensitivity_section

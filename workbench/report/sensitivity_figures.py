@@ -210,10 +210,11 @@ def sensitivity_section(result) -> str:
     >>> html.startswith('<section id="sensitivity">'), "not evidence that none exists" in html
     (True, True)
     """
-    from bokeh.embed import components
     from bokeh.layouts import row
 
-    script, div = components(row(*sensitivity_figures(result)))
+    from workbench.report.embed import standalone_components
+
+    script, div = standalone_components(row(*sensitivity_figures(result)))
     lines = "<br>".join(text_html(line) for line in result.summary_lines())
     tables = [part for part in result.parts() if isinstance(part, Table)]
     benchmarks = "".join(render_html([t]) for t in tables if t.title.startswith("Benchmarks"))

@@ -128,15 +128,15 @@ def sweep_figure(result: SweepResult, measure: str = "bias"):
 
 def write_sweep_report(result: SweepResult, path, measures=("bias", "coverage", "power")) -> None:
     """A standalone HTML page: the sweep's figures for ``measures`` and its table (no network needed)."""
-    from bokeh.embed import file_html
     from bokeh.layouts import column
     from bokeh.models import Div
-    from bokeh.resources import INLINE
+
+    from workbench.report.embed import standalone_page
 
     figures = [Div(text=result.as_html(), width=900)]
     for m in measures:
         figures.append(line_figure(result, m))
         if len(result.parameters) >= 2:
             figures.append(heatmap_figure(result, m))
-    html = file_html(column(*figures), INLINE, title=f"Sweep: {result.scenario.title}")
+    html = standalone_page(column(*figures), title=f"Sweep: {result.scenario.title}")
     write_text_atomically(path, html)
