@@ -28,7 +28,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 from check_scale import scenario_text  # noqa: E402
 
 from workbench.analysis import large_sample  # noqa: E402
-from workbench.engine import generate, truth  # noqa: E402
+from workbench.engine import calibration, generate, truth  # noqa: E402
 from workbench.engine.threads import blas_threads  # noqa: E402
 from workbench.graph.defaults import with_default_strategies  # noqa: E402
 from workbench.scenario.parse import parse_scenario_text  # noqa: E402
@@ -62,7 +62,7 @@ def main(argv=None) -> None:
     with blas_threads():
         newton = _time(lambda: calibrate(sc.variables, sc.arrows))
         brent = _swapped(
-            generate, "_newton_root", lambda *a: None, lambda: calibrate(sc.variables, sc.arrows)
+            calibration, "_newton_root", lambda *a: None, lambda: calibrate(sc.variables, sc.arrows)
         )
         moved = float(abs(newton[2].intercept - brent[2].intercept).max())
         generate.graph_structure(sc.variables, sc.arrows)  # calibrated once, outside the timings below

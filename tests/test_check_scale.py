@@ -18,7 +18,7 @@ import pytest
 
 from workbench import loads_scenario
 from workbench.analysis import large_sample
-from workbench.engine import generate, truth
+from workbench.engine import calibration, generate, truth
 
 # a binary exposure and binary confounders; everything from the exposure to the outcome continuous
 LINE = """
@@ -174,7 +174,7 @@ def test_cross_product_route_gives_the_per_batch_fits(monkeypatch):
 
 def test_calibration_rows_are_the_stream_drawn_in_line():
     binary = np.array([False, True, True, False])
-    got = list(generate._calibration_rows(np.random.default_rng(5), binary, 1000))
+    got = list(calibration._calibration_rows(np.random.default_rng(5), binary, 1000))
     rng = np.random.default_rng(5)
     for j, (i, row) in enumerate(got):
         z = rng.standard_normal(1000)
@@ -184,7 +184,7 @@ def test_calibration_rows_are_the_stream_drawn_in_line():
 
 def test_calibration_rows_stop_their_thread_when_left_early():
     before = threading.active_count()
-    rows = generate._calibration_rows(np.random.default_rng(5), np.ones(12, dtype=bool), 1000)
+    rows = calibration._calibration_rows(np.random.default_rng(5), np.ones(12, dtype=bool), 1000)
     next(rows)
     rows.close()
     assert threading.active_count() == before
@@ -197,8 +197,8 @@ def test_intercepts_solve_the_share_equation():
     sc = loads_scenario(LINE)
     st = generate.graph_structure.__wrapped__(sc.variables, sc.arrows)
     names = list(sc.names)
-    rng = np.random.default_rng(generate.CALIBRATION_SEED)
-    n = generate.CALIBRATION_DRAWS
+    rng = np.random.default_rng(calibration.CALIBRATION_SEED)
+    n = calibration.CALIBRATION_DRAWS
     z = rng.standard_normal((len(names), n))  # file order, one row per variable, as the calibration draws
     values = np.empty_like(z)
     for j in st.order:

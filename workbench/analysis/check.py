@@ -39,7 +39,7 @@ from workbench.analysis.large_sample import (
     se_note,
     simulated_large_sample,
 )
-from workbench.engine.truth import estimand, model_kind, true_effect
+from workbench.engine.truth import estimand, fit_label, model_kind, true_effect
 from workbench.formatting.jsonable import to_jsonable
 from workbench.formatting.phrases import strategy_text
 from workbench.formatting.tables import (
@@ -151,6 +151,8 @@ class StrategyCheck:
     large_sample_se_ratio: float | None = None
     model_ok: bool | None = None
     model_reason: str = ""
+    fit: str = ""
+    """The fit in words (:func:`workbench.engine.truth.fit_label`): the model, its SE and added terms."""
 
     @property
     def set_valid(self) -> bool:
@@ -258,7 +260,7 @@ def _strategy_record(c: StrategyCheck) -> dict[str, Any]:
         "verdict": "VALID" if c.valid else "INVALID",
         "model_verdict": {True: "ok", False: "MISSPECIFIED", None: "-"}[c.model_ok],
         "name": c.name,
-        "model": c.model + (" (standardised)" if c.standardize else ""),
+        "model": c.fit or c.model + (" (standardised)" if c.standardize else ""),
         "how": strategy_text(c.adjust, c.selection, c.restrict, c.match),
         "large_sample_estimate": c.large_sample_estimate,
         "large_sample_bias": c.large_sample_bias,
@@ -556,6 +558,7 @@ def _strategy_check(scenario: Scenario, s: Strategy, truth, closed, simulated) -
         closed is not None,
     )
     return StrategyCheck(
+        fit=fit_label(s, scenario),
         name=s.name,
         adjust=tuple(s.adjust),
         model=s.model,

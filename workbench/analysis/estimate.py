@@ -43,7 +43,7 @@ from workbench.engine.poisson import fit_poisson_batch
 from workbench.engine.robust import ols_hc3_batch
 from workbench.engine.splines import fit_flexible
 from workbench.engine.standardize import standardized_contrast
-from workbench.engine.truth import estimand, model_kind
+from workbench.engine.truth import estimand, fit_label, model_kind
 from workbench.errors import DataError, SimulationError
 from workbench.graph.defaults import with_default_strategies
 from workbench.scenario.constraints import check_setting
@@ -237,7 +237,7 @@ def _strategy_row(scenario: Scenario, s: Strategy, columns: dict, alpha: float) 
     low, high, pv = t_inference(np.array([est]), np.array([se]), df, alpha)
     return [
         s.name,
-        s.model + (" (standardised)" if s.standardize else ""),
+        fit_label(s, scenario),
         estimand(kind, scenario, s.adjust)[0],
         float(est),
         float(se),

@@ -267,7 +267,7 @@ class StrategiesEditor(pn.viewable.Viewer):
         state, name = self.state, row["name"]
         binary = state.scenario.outcome.is_binary
         design = row["selection"] or row["restrict"] or row["match"]
-        choices = SE_CHOICES.get((row["model"], binary), ())
+        choices = SE_CHOICES.get((row["model"], state.scenario.outcome.type), ())
         out = []
         if len(choices) > 1 and not design:
             labels = {f"SE: {c}{' (default)' if i == 0 else ''}": c for i, c in enumerate(choices)}

@@ -5,11 +5,13 @@ Every variable is computed from its direct causes in topological order (causes f
 * a continuous variable is ``baseline + sum(effect x cause) + noise_sd x Z``;
 * a binary variable is 1 with probability ``logistic(a + sum(effect x cause))``, where the intercept ``a`` is
   calibrated once so that the population share of 1s equals the variable's ``proportion``
-  (:func:`calibrate_intercepts`).
+  (:func:`calibrate_intercepts`, :mod:`workbench.engine.calibration`);
+* a count variable is Poisson with mean ``exp(a + sum(effect x cause))``, ``a`` calibrated so that the
+  population mean equals its ``rate`` (:mod:`workbench.engine.counts`).
 
 All randomness enters through one standard normal ``Z`` per variable and row. A binary variable uses its
 ``Z`` through the normal distribution function, ``U = Phi(Z)`` uniform on (0, 1), and is 1 when
-``U < logistic(a + ...)``. One noise array therefore fixes a whole dataset, which lets the truth be computed
+``U < logistic(a + ...)``; a count is the Poisson quantile at ``U``. One noise array therefore fixes a whole dataset, which lets the truth be computed
 with common random numbers (:func:`evaluate` with an intervention on the exposure) and makes the draws
 independent of how replicates are split into chunks: each replicate's noise is one contiguous run of the
 random stream.
@@ -52,13 +54,14 @@ True
 from __future__ import annotations
 
 import functools
-import heapq
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING
 
 import numpy as np
 from scipy import special
 
+from workbench.engine.calibration import CALIBRATION_DRAWS, CALIBRATION_SEED, calibrate
+from workbench.engine.counts import poisson_from_normal
 from workbench.engine.forms import add_forms, with_forms
 from workbench.engine.modifiers import add_modification, with_modifiers
 from workbench.engine.noise import shape_noise, with_noise
@@ -87,8 +90,6 @@ __all__ = [
 
 PIECE = 2**16
 """Rows per piece of a replicate's noise stream (see :func:`draw_noise`)."""
-CALIBRATION_DRAWS = 2**20
-CALIBRATION_SEED = 20_261_201
 
 
 @dataclass(frozen=True, eq=False)
@@ -105,9 +106,12 @@ class Structure:
         For every variable (file order) the indices of its causes and the arrows' effects.
     binary : ndarray of bool, shape (k,)
     intercept : ndarray of float, shape (k,)
-        The baseline of a continuous variable; the calibrated log-odds intercept of a binary one.
+        The baseline of a continuous variable; the calibrated log-odds intercept of a binary one, the
+        calibrated log-mean intercept of a count.
     noise_sd : ndarray of float, shape (k,)
-        Continuous variables only (0 for binary ones).
+        Continuous variables only (0 for binary and count ones).
+    counts : frozenset of int
+        The indices of the count variables.
     """
 
     names: tuple[str, ...]
@@ -119,6 +123,7 @@ class Structure:
     modified: tuple = ()  # modified arrows (workbench.engine.modifiers.ModifiedArrow), in arrow order
     forms: tuple = ()  # square and step arrows (workbench.engine.forms.FormArrow), in arrow order
     noises: tuple = ()  # non-normal or spread disturbances (workbench.engine.noise.NoiseTerm), file order
+    counts: frozenset = frozenset()  # indices of the count variables (workbench.engine.counts)
 
     @property
     def k(self) -> int:
@@ -154,218 +159,23 @@ def _bare_structure(variables: tuple, arrows: tuple) -> Structure:
                 if indegree[a.target] == 0:
                     ready.append(a.target)
     binary = np.array([v.type == "binary" for v in variables])
-    intercept = np.array([0.0 if v.type == "binary" else v.baseline for v in variables])
-    noise_sd = np.array([0.0 if v.type == "binary" else v.noise_sd for v in variables])
-    return Structure(names, tuple(order), tuple(parents), binary, intercept, noise_sd)
-
-
-def _share_gap(a: float, linear: np.ndarray, proportion: float, scratch: np.ndarray) -> float:
-    np.add(linear, a, out=scratch)
-    special.expit(scratch, out=scratch)
-    return float(scratch.mean()) - proportion
-
-
-def _calibration_error(name: str, p: float, why: str) -> SimulationError:
-    return SimulationError(
-        f"cannot calibrate the intercept of '{name}' to proportion {p!r}: {why}",
-        where=f"variables.{name}.proportion",
-    )
-
-
-def _newton_root(linear: np.ndarray, p: float, lo: float, hi: float, scratch: np.ndarray) -> float | None:
-    """The root of ``mean(logistic(a + linear)) = p`` in ``(lo, hi)`` by safeguarded Newton steps (a
-    bisection whenever a step leaves the bracket), or None when it does not settle (the caller then falls
-    back to Brent's method). One pass over the draws per step gives the share and its derivative
-    ``mean(s (1 - s))``; from the logistic-normal start (Monahan & Stefanski 1992:
-    ``E[logistic(a + L)] ~ logistic((a + mu) / sqrt(1 + pi sigma^2 / 8))``) it takes about four.
-
-    Each pass computes ``s = 1 / (1 + exp(-(a + linear)))`` with numpy's vectorised ``exp`` (about three
-    times faster than ``scipy.special.expit``, the same formula to within an ulp or two, accurate in
-    relative terms for small ``s``): the steps only locate the root, which is settled to 1e-14 either way
-    (common practice, no source)."""
-    n = linear.size
-    mu, sd = float(linear.mean()), float(linear.std())
-    a = float(special.logit(p)) * np.sqrt(1.0 + np.pi * sd * sd / 8.0) - mu
-    if not lo < a < hi:
-        a = 0.5 * (lo + hi)
-    negative = np.negative(linear)
-    for _ in range(60):
-        np.subtract(negative, a, out=scratch)
-        np.exp(scratch, out=scratch)
-        scratch += 1.0
-        np.reciprocal(scratch, out=scratch)
-        share = float(scratch.mean())
-        # einsum, not dot: a BLAS dot of this length wakes the BLAS threads, which then spin on the CPU the
-        # noise is drawn on (_calibration_rows)
-        slope = share - float(np.einsum("i,i->", scratch, scratch)) / n
-        gap = share - p
-        if gap == 0.0:
-            return a
-        if gap < 0.0:
-            lo = a
-        else:
-            hi = a
-        step = -gap / slope if slope > 0.0 else np.inf
-        if abs(step) <= 1e-14 * max(1.0, abs(a)):
-            return a + step
-        a = a + step if lo < a + step < hi else 0.5 * (lo + hi)
-        if hi - lo <= 1e-14 * max(1.0, abs(a)):
-            break  # the bracket closed without a settled step: no root in double precision, perhaps
-    return None
-
-
-def _calibrate_one(name: str, p: float, linear: np.ndarray, has_causes: bool, scratch: np.ndarray) -> float:
-    """The intercept ``a`` with ``mean(logistic(a + linear)) = p`` (safeguarded Newton steps, Brent's
-    method as the fallback), or a located error."""
-    with np.errstate(all="ignore"):
-        base = float(special.logit(p))
-        if not np.isfinite(base):
-            raise _calibration_error(name, p, "its log odds are not a finite number")
-        if not has_causes:
-            return base
-        top, bottom = float(linear.max()), float(linear.min())
-        if not (np.isfinite(top) and np.isfinite(bottom)):
-            raise _calibration_error(
-                name, p, "the effects of its causes overflow (their sum is not a finite number)"
-            )
-        if top == bottom:
-            return base - float(linear[0])
-        lo, hi = base - top - 1.0, base - bottom + 1.0
-        a = _newton_root(linear, p, lo, hi, scratch)
-        if a is None or not np.isfinite(a):
-            from scipy import optimize  # the fallback only: its import costs more than most calibrations
-
-            try:
-                a = optimize.brentq(_share_gap, lo, hi, args=(linear, p, scratch), xtol=1e-12)
-            except (ValueError, RuntimeError) as exc:
-                raise _calibration_error(
-                    name, p, "no intercept gives that share of 1s in double precision"
-                ) from exc
-    if not np.isfinite(a):
-        raise _calibration_error(name, p, "no intercept gives that share of 1s in double precision")
-    return float(a)
-
-
-def _file_first_order(bare: Structure) -> tuple[int, ...]:
-    """A topological order that takes the lowest file index whenever it can: noise rows are drawn in file
-    order, so few rows wait for their variable (each variable depends only on its causes, so the order does
-    not change any number)."""
-    waiting = [len(bare.parents[j][0]) for j in range(bare.k)]
-    children: list[list[int]] = [[] for _ in range(bare.k)]
-    for j in range(bare.k):
-        for i in bare.parents[j][0]:
-            children[int(i)].append(j)
-    ready = [j for j in range(bare.k) if waiting[j] == 0]
-    heapq.heapify(ready)
-    order = []
-    while ready:
-        j = heapq.heappop(ready)
-        order.append(j)
-        for c in children[j]:
-            waiting[c] -= 1
-            if waiting[c] == 0:
-                heapq.heappush(ready, c)
-    return tuple(order)
-
-
-def _calibration_rows(rng: np.random.Generator, binary: np.ndarray, n: int, ahead: int = 2):
-    """The calibration's noise rows in file order, ``(j, row)``: ``n`` standard normals per variable, a
-    binary variable's already turned into ``U = Phi(Z)`` (the same numbers as drawing then converting in
-    line). A background thread draws and converts at most ``ahead`` rows ahead, so the stream and Phi run
-    on one CPU while the calibration works on another (both release the GIL); memory grows by ``ahead``
-    rows at most."""
-    import queue
-    import threading
-
-    rows: queue.Queue = queue.Queue(maxsize=ahead)
-    stop = threading.Event()
-
-    def produce() -> None:
-        try:
-            for j in range(len(binary)):
-                z = rng.standard_normal(n)
-                if binary[j]:
-                    special.ndtr(z, out=z)
-                while not stop.is_set():
-                    try:
-                        rows.put((j, z), timeout=0.05)
-                        break
-                    except queue.Full:
-                        continue
-        except BaseException as exc:  # handed to the consumer, raised there
-            rows.put((None, exc))
-
-    worker = threading.Thread(target=produce, name="workbench-calibration-rows", daemon=True)
-    worker.start()
-    try:
-        for _ in range(len(binary)):
-            j, z = rows.get()
-            if j is None:
-                raise z
-            yield j, z
-    finally:
-        stop.set()
-        while worker.is_alive():
-            try:
-                rows.get(timeout=0.05)
-            except queue.Empty:
-                pass
-
-
-def _calibrate_in_order(bare: Structure, order, children, drawn, proportions: dict, intercept: np.ndarray):
-    """The calibration loop of :func:`graph_structure`: every variable in ``order`` from the rows ``drawn``
-    (:func:`_calibration_rows`), each binary intercept written into ``intercept``."""
-    noise: dict[int, np.ndarray] = {}  # rows drawn (file order) whose variable is not computed yet
-    partial: dict[int, np.ndarray] = {}  # sum of effect x value over the causes computed so far
-    scratch = np.empty(CALIBRATION_DRAWS)
-    term = np.empty(CALIBRATION_DRAWS)
-    for j in order:
-        while j not in noise:
-            i, row = next(drawn)
-            noise[i] = row
-        z = noise.pop(j)
-        idx = bare.parents[j][0]
-        linear = partial.pop(j) if len(idx) else np.zeros(CALIBRATION_DRAWS)
-        if not bare.binary[j]:
-            np.multiply(z, bare.noise_sd[j], out=z)
-            with np.errstate(all="ignore"):
-                np.add(linear, bare.intercept[j], out=linear)  # z + (intercept + linear), as drawn
-                z += linear
-            value = z
-        else:
-            name = bare.names[j]
-            a = _calibrate_one(name, proportions[name], linear, len(idx) > 0, scratch)
-            intercept[j] = a
-            with np.errstate(all="ignore"):
-                # 1 / (1 + exp(-t)), the formula of the Newton passes: within an ulp or two of expit, which
-                # moves a comparison with Phi(Z) only for a Phi(Z) that close (about 1e-10 of the draws)
-                np.subtract(-a, linear, out=scratch)
-                np.exp(scratch, out=scratch)
-                scratch += 1.0
-                value = z < np.reciprocal(scratch, out=scratch)  # z is Phi(Z) here
-        # each value goes at once into its children's sums (the order of the terms moves a sum by rounding
-        # only); memory holds one sum per child still waiting, not every cause until its last child
-        with np.errstate(all="ignore"):
-            for c, e in children[j]:
-                if c not in partial:
-                    partial[c] = e * value
-                elif value.dtype == bool:
-                    np.add(partial[c], e, out=partial[c], where=value)  # adds e * value, no temporary
-                else:
-                    partial[c] += np.multiply(value, e, out=term)
+    continuous = [v.type == "continuous" for v in variables]
+    intercept = np.array([v.baseline if c else 0.0 for v, c in zip(variables, continuous, strict=True)])
+    noise_sd = np.array([v.noise_sd if c else 0.0 for v, c in zip(variables, continuous, strict=True)])
+    counts = frozenset(j for j, v in enumerate(variables) if v.type == "count")
+    return Structure(names, tuple(order), tuple(parents), binary, intercept, noise_sd, counts=counts)
 
 
 @functools.lru_cache(maxsize=64)
 def graph_structure(variables: tuple, arrows: tuple) -> Structure:
     """The structural equations of a graph given as a scenario's ``variables`` and ``arrows`` tuples, with
-    calibrated binary intercepts (cached per graph: scenarios that differ only in their question or
-    strategies share one).
+    calibrated binary and count intercepts (cached per graph: scenarios that differ only in their question
+    or strategies share one).
 
-    The calibration draws :data:`CALIBRATION_DRAWS` standard normals per variable, variable after variable in
-    file order from :data:`CALIBRATION_SEED`. Memory stays bounded by the variables still waiting: a noise
-    row is kept only until its variable is computed, and each computed value is added at once into the
-    effect sums of its children (one sum per child still waiting). A proportion or effects for which no finite intercept exists raise a
-    :class:`~workbench.errors.SimulationError` located at ``variables.<name>.proportion``.
+    The calibration (:func:`workbench.engine.calibration.calibrate`) draws :data:`CALIBRATION_DRAWS`
+    standard normals per variable from :data:`CALIBRATION_SEED`, with bounded memory. A proportion, rate or
+    effects for which no finite intercept exists raise a :class:`~workbench.errors.SimulationError` located
+    at ``variables.<name>.proportion`` (or ``.rate``).
 
     Examples
     --------
@@ -375,26 +185,10 @@ def graph_structure(variables: tuple, arrows: tuple) -> Structure:
     True
     """
     bare = _bare_structure(variables, arrows)
-    if not bare.binary.any():
-        return with_noise(
-            with_forms(with_modifiers(bare, variables, arrows), variables, arrows), variables, arrows
-        )
-    proportions = {v.name: v.proportion for v in variables if v.type == "binary"}
-    intercept = bare.intercept.copy()
-    rng = np.random.default_rng(CALIBRATION_SEED)
-    order = _file_first_order(bare)
-    children: list[list[tuple[int, float]]] = [[] for _ in range(bare.k)]
-    for j in range(bare.k):
-        for i, e in zip(*bare.parents[j], strict=True):
-            children[int(i)].append((j, float(e)))
-    drawn = _calibration_rows(rng, bare.binary, CALIBRATION_DRAWS)  # binary rows come as Phi(Z)
-    try:
-        _calibrate_in_order(bare, order, children, drawn, proportions, intercept)
-    finally:
-        drawn.close()
-    calibrated = Structure(bare.names, bare.order, bare.parents, bare.binary, intercept, bare.noise_sd)
+    if bare.binary.any() or bare.counts:
+        bare = replace(bare, intercept=calibrate(bare, variables))
     return with_noise(
-        with_forms(with_modifiers(calibrated, variables, arrows), variables, arrows), variables, arrows
+        with_forms(with_modifiers(bare, variables, arrows), variables, arrows), variables, arrows
     )
 
 
@@ -412,7 +206,8 @@ def structure(scenario: Scenario) -> Structure:
 
 
 def calibrate_intercepts(scenario: Scenario) -> dict[str, float]:
-    """Log-odds intercepts of the binary variables that give each its population ``proportion`` of 1s.
+    """Log-odds intercepts of the binary variables that give each its population ``proportion`` of 1s, and
+    log-mean intercepts of the counts that give each its population mean ``rate``.
 
     For a binary variable ``B`` with linear predictor ``eta = sum(effect x cause)``, the intercept ``a``
     solves ``E[logistic(a + eta)] = proportion``. The expectation is taken over ``2**20`` draws of the causes
@@ -427,7 +222,7 @@ def calibrate_intercepts(scenario: Scenario) -> dict[str, float]:
     Returns
     -------
     dict of str to float
-        One entry per binary variable, in file order.
+        One entry per binary or count variable, in file order.
 
     References
     ----------
@@ -444,7 +239,7 @@ def calibrate_intercepts(scenario: Scenario) -> dict[str, float]:
     -1.098612
     """
     st = structure(scenario)
-    return {name: float(st.intercept[j]) for j, name in enumerate(st.names) if st.binary[j]}
+    return {name: float(st.intercept[j]) for j, name in enumerate(st.names) if st.binary[j] or j in st.counts}
 
 
 _TANH_PHI = (np.float32(np.sqrt(2.0 / np.pi)), np.float32(np.sqrt(2.0 / np.pi) * 0.044715))
@@ -480,6 +275,22 @@ def _bernoulli_from_normal(z, linear, out, work) -> None:
     out[where] = exact
 
 
+def _count_values(st: Structure, j: int, z, v, scratch, tmp, mean_only: bool) -> None:
+    """``v[j]``: count ``j`` from its noise ``z`` given the values of its causes in ``v`` (its mean given
+    them when ``mean_only``, for the truth)."""
+    idx, eff = st.parents[j]
+    np.copyto(scratch, st.intercept[j])
+    for i, e in zip(idx, eff, strict=True):
+        np.multiply(v[i], e, out=tmp)
+        scratch += tmp
+    with np.errstate(over="ignore"):
+        np.exp(scratch, out=scratch)
+    if mean_only:
+        np.copyto(v[j], scratch)
+    else:
+        poisson_from_normal(z, scratch, out=v[j])
+
+
 def evaluate(
     scenario_or_structure,
     noise: np.ndarray,
@@ -507,8 +318,9 @@ def evaluate(
     out : ndarray, optional
         Where to write the values (same shape as ``noise``); may be ``noise`` itself (in place).
     probability : str, optional
-        A binary variable to return as its probability of being 1 given its causes instead of a 0/1 draw
-        (used for the truth: it has the same mean and a smaller Monte Carlo error).
+        A binary variable to return as its probability of being 1 given its causes instead of a 0/1 draw,
+        or a count to return as its mean given its causes (used for the truth: the same mean, a smaller
+        Monte Carlo error).
 
     Returns
     -------
@@ -540,13 +352,15 @@ def evaluate(
     v = np.moveaxis(out, axis, 0)
     prob_index = None if probability is None else st.index(probability)
     scratch = np.empty(v.shape[1:])
-    tmp = np.empty(v.shape[1:]) if st.binary.any() else None
+    tmp = np.empty(v.shape[1:]) if st.binary.any() or st.counts else None
     for j in st.order:
         idx, eff = st.parents[j]
         if intervention is not None and j == target and intervention[0] == "set":
             v[j] = intervention[1]
             continue
-        if st.binary[j] and not len(idx) and j != prob_index:
+        if j in st.counts:
+            _count_values(st, j, z[j], v, scratch, tmp, j == prob_index)
+        elif st.binary[j] and not len(idx) and j != prob_index:
             # no causes: Phi(Z) < p is Z < Phi^-1(p), one comparison per row
             np.less(z[j], special.ndtri(special.expit(st.intercept[j])), out=v[j], casting="unsafe")
         elif st.binary[j]:

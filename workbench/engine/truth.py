@@ -71,6 +71,7 @@ __all__ = [
     "conditional_log_odds_ratio",
     "direct_effect",
     "model_kind",
+    "fit_label",
     "estimand",
     "simulated_effect",
 ]
@@ -96,7 +97,7 @@ class Truth:
         What the number means, in words.
     draws : int
         Draws of the simulated intervention (0 for a closed form).
-    scale : {"difference", "log_odds_ratio", "log_risk_ratio"}
+    scale : {"difference", "log_odds_ratio", "log_risk_ratio", "log_rate_ratio"}
     """
 
     value: float
@@ -155,6 +156,8 @@ def _words(scenario: Scenario, scale: str) -> str:
             "log_odds_ratio": "log odds ratio of '{y}' = 1 (marginal, over the whole population)",
             "log_risk_ratio": "log risk ratio of '{y}' = 1 (marginal, over the whole population)",
         }[scale].format(y=y.name)
+    elif y.is_count and scale == "log_rate_ratio":
+        what = f"log rate ratio of '{y.name}' (log of the ratio of mean counts, over the whole population)"
     else:
         what = f"difference in the mean of '{y.name}'"
     return f"{what} {contrast}"
@@ -177,7 +180,7 @@ def _world_orders(st, x: int, y: int) -> tuple[tuple[int, ...], tuple[int, ...]]
 
 def truth_draws(variables: tuple, arrows: tuple, exposure: str, outcome: str) -> int:
     """The draws :func:`simulated_effect` uses: :data:`EXACT_DRAWS` when the outcome and every variable on a
-    causal path from the exposure to it (the exposure excepted) are continuous and none of them is the
+    causal path from the exposure to it (the exposure excepted) are continuous (not binary, not counts) and none of them is the
     target of a modified arrow (``varies_with``), else :data:`TRUTH_DRAWS`.
 
     In that case every equation the intervention changes is linear in its causes, so the outcome's change
@@ -194,7 +197,7 @@ def truth_draws(variables: tuple, arrows: tuple, exposure: str, outcome: str) ->
     >>> truth_draws(sc.variables, sc.arrows, sc.question.exposure, sc.question.outcome) == TRUTH_DRAWS
     True
     """
-    binary = {v.name for v in variables if v.type == "binary"}
+    binary = {v.name for v in variables if v.type != "continuous"}  # binary and count variables
     if outcome in binary:
         return TRUTH_DRAWS
     children: dict[str, list[str]] = {}
@@ -257,7 +260,7 @@ def _simulated_effect(variables, arrows, exposure, outcome, scale, special, eval
     x = st.index(exposure)
     y = st.index(outcome)
     binary_x = bool(st.binary[x])
-    binary_y = bool(st.binary[y])
+    binary_y = bool(st.binary[y]) or y in st.counts  # the probability, or the mean count, given the causes
     rng = np.random.default_rng(TRUTH_SEED)
     probability = outcome if binary_y else None
     if binary_x:
@@ -302,7 +305,7 @@ def _simulated_effect(variables, arrows, exposure, outcome, scale, special, eval
     if scale == "log_odds_ratio":
         value = float(special.logit(means[0]) - special.logit(means[1]))
         grad = np.array([1.0 / (means[0] * (1 - means[0])), -1.0 / (means[1] * (1 - means[1]))])
-    elif scale == "log_risk_ratio":
+    elif scale in ("log_risk_ratio", "log_rate_ratio"):
         value = float(np.log(means[0]) - np.log(means[1]))
         grad = np.array([1.0 / means[0], -1.0 / means[1]])
     else:
@@ -322,7 +325,7 @@ def true_effect(scenario: Scenario, scale: str | None = None) -> Truth:
     Parameters
     ----------
     scenario : Scenario
-    scale : {"difference", "log_odds_ratio", "log_risk_ratio"}, optional
+    scale : {"difference", "log_odds_ratio", "log_risk_ratio", "log_rate_ratio"}, optional
         Default the question's scale. A binary outcome's strategies may target a different scale from the
         question's (a linear probability model estimates a difference).
 
@@ -415,6 +418,35 @@ def model_kind(strategy: Strategy, binary_outcome: bool) -> str:
     return "ols_hc3" if strategy.se == "hc3" else "ols"
 
 
+def fit_label(strategy: Strategy, scenario: Scenario) -> str:
+    """A short name of the fit a strategy runs, for the tables' model column: the model with its SE and the
+    terms it adds (the ``model`` key alone says ``ols`` for a spline or an interaction fit).
+
+    Examples
+    --------
+    >>> from workbench import load_preset
+    >>> sc = load_preset("heteroskedastic_noise")
+    >>> [fit_label(s, sc) for s in sc.strategies][-2:]
+    ['OLS', 'OLS, HC3 SE']
+    """
+    kind = model_kind(strategy, scenario.outcome.is_binary)
+    if kind == "poisson_robust":
+        return "modified Poisson (robust SE)" if scenario.outcome.is_binary else "Poisson, robust SE"
+    if kind == "ols_interaction":
+        terms = ", ".join(f"x*{t}" for t in strategy.interactions)
+        return f"OLS + {terms}" + (", HC3 SE" if strategy.se == "hc3" else "")
+    if kind == "ols_flexible":
+        return f"OLS, spline: {', '.join(strategy.flexible)}" + (", HC3 SE" if strategy.se == "hc3" else "")
+    return {
+        "ols": "OLS",
+        "lpm": "OLS (LPM, HC3 SE)",
+        "logit": "logit",
+        "logit_std": "logit (standardised)",
+        "ols_hc3": "OLS, HC3 SE",
+        "poisson": "Poisson, model SE",
+    }[kind]
+
+
 def estimand(kind: str, scenario: Scenario, adjust: tuple[str, ...] = ()) -> tuple[str, str, str]:
     """What a fit of ``kind`` with adjustment set ``adjust`` estimates, the scale of the truth it is scored
     against, and a note when the two differ by design (see ``docs/targets.md``).
@@ -423,7 +455,7 @@ def estimand(kind: str, scenario: Scenario, adjust: tuple[str, ...] = ()) -> tup
     -------
     words : str
         For example ``"marginal risk difference"`` or ``"conditional log odds ratio"``.
-    scale : {"difference", "log_odds_ratio", "log_risk_ratio"}
+    scale : {"difference", "log_odds_ratio", "log_risk_ratio", "log_rate_ratio"}
         The scale of the true effect it is compared with (:func:`true_effect` with that ``scale``).
     note : str
         Empty, or why the estimate and its truth differ even without bias (non-collapsibility).
@@ -444,6 +476,10 @@ def estimand(kind: str, scenario: Scenario, adjust: tuple[str, ...] = ()) -> tup
         return f"population-averaged {target} (difference in means{per_unit})", "difference", ""
     if kind == "lpm":
         return f"marginal risk difference{per_unit}", "difference", ""
+    if kind in ("poisson", "poisson_robust") and scenario.outcome.is_count:
+        # a log-linear count equation: the conditional rate ratio given covariates equals the marginal one
+        # (a log link is collapsible), so no note
+        return f"{'marginal' if not adjust else 'conditional'} log rate ratio{per_unit}", "log_rate_ratio", ""
     if kind in ("poisson", "poisson_robust"):
         if not adjust:
             return f"marginal log risk ratio{per_unit}", "log_risk_ratio", ""

@@ -80,6 +80,9 @@ def default_strategies(scenario: Scenario) -> list[Strategy]:
         sets.append(("optimal", opt))
     everything = tuple(n for n in scenario.observed_names if n not in (x, y))
     sets.append(("all_observed", everything))
+    # a count outcome asked on the log rate ratio scale is fitted by Poisson regression (least squares would
+    # estimate a difference in means)
+    model = "poisson" if scenario.question.scale == "log_rate_ratio" else "ols"
     out: list[Strategy] = []
     seen: set[frozenset] = set()
     names: set[str] = set()
@@ -91,7 +94,7 @@ def default_strategies(scenario: Scenario) -> list[Strategy]:
         if len(name) > 60 or name in names:
             name = f"set_{len(out) + 1}"
         names.add(name)
-        out.append(Strategy(name, adjust))
+        out.append(Strategy(name, adjust, model))
     return out
 
 

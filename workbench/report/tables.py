@@ -438,7 +438,7 @@ def strategies_table(checks: Iterable[StrategyCheck], *, table_id: str = "verdic
         adjust = strategy_text(c.adjust, c.selection, c.restrict, c.match)
         reasons = "<br>".join(text_html(x) for x in c.reasons)
         notes = "<br>".join(text_html(x) for x in c.notes)
-        model = c.model + (" (standardised)" if c.standardize else "")
+        model = c.fit or c.model + (" (standardised)" if c.standardize else "")
         out.append(
             f"<tr><td>{text_html(c.name)}</td>{_verdict_cell(c.valid)}"
             f'<td class="text"><div>{text_html(adjust)}</div></td><td>{text_html(model)}</td>'

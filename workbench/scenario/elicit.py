@@ -137,7 +137,8 @@ def implied_moments(variables, arrows) -> tuple[list[str], np.ndarray, list[bool
         j = index[name]
         causes = [(index[a.source], a.effect) for a in arrows if a.target == name]
         v = by_name[name]
-        if v.is_binary and causes or getattr(v, "spread_with", ()) or any(not known[i] for i, _ in causes):
+        unknown = v.type == "count" or v.is_binary and causes or getattr(v, "spread_with", ())
+        if unknown or any(not known[i] for i, _ in causes):
             done.append(j)
             continue
         if v.is_binary:
@@ -160,7 +161,7 @@ def _refuse_unknown(name, into, arrows, known, index, key) -> None:
     for i, a in into:
         if not known[index[a.source]]:
             raise ScenarioError(
-                f"'{a.source}' is binary with causes (or descends from one): its SD has no closed form, "
+                f"'{a.source}' is binary with causes, a count, or descends from one: its SD has no closed form, "
                 f"so the {key} of '{name}' cannot be converted; give raw effects and noise_sd",
                 where=f"arrows[{i}].from",
             )
@@ -231,9 +232,11 @@ def _check_kinds(name: str, into, by_name) -> None:
             f"all arrows into '{name}' must use the same kind: 'effect' or 'standardized_effect'",
             where=f"arrows[{first}]",
         )
-    if into and into[0][1].standardized is not None and by_name[name].is_binary:
+    if into and into[0][1].standardized is not None and not by_name[name].is_continuous:
+        scale = "log odds" if by_name[name].is_binary else "log rate ratio"
         raise ScenarioError(
-            f"'{name}' is binary; standardized effects need a continuous target (give effect, log odds)",
+            f"'{name}' is {by_name[name].type}; standardized effects need a continuous target (give effect, "
+            f"{scale})",
             where=f"arrows[{into[0][0]}].standardized_effect",
         )
 
@@ -300,7 +303,7 @@ def standardized_effects(variables, arrows) -> list[float | None]:
     """
     names, sigma, known = implied_moments(variables, arrows)
     index = {n: k for k, n in enumerate(names)}
-    binary = {v.name for v in variables if v.is_binary}
+    binary = {v.name for v in variables if not v.is_continuous}  # binary and count targets: no SD scale
     out: list[float | None] = []
     for a in arrows:
         i, j = index[a.source], index[a.target]

@@ -33,6 +33,7 @@ workbench.errors.ScenarioError: title: must not contain control characters (a ne
 from __future__ import annotations
 
 import codecs
+import math
 import os
 import stat
 from collections.abc import Iterable
@@ -50,6 +51,9 @@ __all__ = [
     "MAX_MAGNITUDE",
     "MIN_NOISE_SD",
     "MIN_PROPORTION",
+    "MIN_RATE",
+    "MAX_RATE",
+    "MAX_COUNT_MEAN",
     "MAX_VARIANCE",
     "MAX_STRATEGIES",
     "MAX_SAMPLE_SIZES",
@@ -84,6 +88,14 @@ MIN_NOISE_SD = 1e-6
 """Smallest noise SD other than 0 (0 makes a variable a deterministic function of its causes)."""
 MIN_PROPORTION = 1e-6
 """A binary variable's proportion lies in [MIN_PROPORTION, 1 - MIN_PROPORTION]."""
+MIN_RATE = 1e-3
+"""A count's rate (its population mean) lies in [MIN_RATE, MAX_RATE]: rarer counts leave most simulated
+studies without a single event."""
+MAX_RATE = 1e5
+"""The largest rate of a count (beyond it a count is better treated as continuous)."""
+MAX_COUNT_MEAN = 1e7
+"""The largest mean a count may reach given its causes: a draw beyond it fails (its replicate's fits are
+counted as failed), and the calibration refuses a graph that reaches it."""
 MAX_VARIANCE = 1e100
 """Bound on every implied variance (checked through the scale bound of :func:`check_scales`)."""
 MAX_STRATEGIES = 50
@@ -293,8 +305,10 @@ def check_scales(variables, arrows) -> None:
     A bound on each variable's root mean square, in the order of the graph: a continuous variable's is at
     most its ``|baseline|`` plus its ``noise_sd`` plus the sum over its arrows of ``|effect|`` times the
     cause's bound (Minkowski's inequality: the RMS of a sum is at most the sum of the RMS); a binary
-    variable's is at most 1, and the log odds its arrows add are bounded the same way. The bound is an upper
-    bound, so a graph it accepts has every implied variance below :data:`MAX_VARIANCE`.
+    variable's is at most 1, and the log odds its arrows add are bounded the same way; a count's log mean
+    is bounded the same way (``|log rate|`` plus its arrows) and its values by twice
+    :data:`MAX_COUNT_MEAN`, beyond which its draws fail. The bound is an upper bound, so a graph it accepts
+    has every implied variance below :data:`MAX_VARIANCE`.
 
     Parameters
     ----------
@@ -322,15 +336,17 @@ def check_scales(variables, arrows) -> None:
                 continue
             v = by_name[name]
             pushed = sum(abs(a.effect) * bound[a.source] for a in causes[name])
-            own = 0.0 if v.is_binary else abs(v.baseline) + v.noise_sd
+            own = abs(v.baseline) + v.noise_sd if v.is_continuous else 0.0
+            if v.is_count:
+                own = abs(math.log(v.rate))
             if pushed + own >= limit:
-                kind = "log odds" if v.is_binary else "values"
+                kind = {"binary": "log odds", "count": "log means"}.get(v.type, "values")
                 raise ScenarioError(
                     f"its causes can give it {kind} near {pushed + own:.0e}; the effects along its paths "
                     f"must keep every variance below {MAX_VARIANCE:g}",
                     where=f"variables.{name}",
                 )
-            bound[name] = 1.0 if v.is_binary else pushed + own
+            bound[name] = {"binary": 1.0, "count": 2.0 * MAX_COUNT_MEAN}.get(v.type, pushed + own)
         if len(waiting) == len(pending):
             return  # a cycle: the parser reports it
         pending = waiting

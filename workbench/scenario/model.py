@@ -55,9 +55,9 @@ NAME_PATTERN = re.compile(r"\A[A-Za-z][A-Za-z0-9_]{0,31}\Z")
 would also match before a final newline)."""
 STRATEGY_NAME_PATTERN = re.compile(r"\A[A-Za-z][A-Za-z0-9_]{0,59}\Z")
 """A strategy name: like a variable name, at most 60 characters (the default strategies' names go up to 60)."""
-VARIABLE_TYPES = ("continuous", "binary")
+VARIABLE_TYPES = ("continuous", "binary", "count")
 TARGETS = ("total", "direct")
-SCALES = ("difference", "log_odds_ratio", "log_risk_ratio")
+SCALES = ("difference", "log_odds_ratio", "log_risk_ratio", "log_rate_ratio")
 MODELS = ("ols", "logit", "poisson")
 SE_KINDS = ("classical", "hc3", "robust")
 """The standard errors a strategy may ask for (``se``): model-based, HC3 (OLS) or the HC0 sandwich (Poisson)."""
@@ -77,7 +77,7 @@ class Variable:
     ----------
     name : str
         A letter, then letters, digits or ``_``; at most 32 characters.
-    type : {"continuous", "binary"}
+    type : {"continuous", "binary", "count"}
     noise_sd : float
         Continuous only: SD of the variable's own Gaussian disturbance.
     baseline : float
@@ -111,10 +111,21 @@ class Variable:
     spread_with: tuple[tuple[str, float], ...] = ()
     """Heteroskedastic noise (``spread_with = { distance = 0.5 }``): the noise SD is ``noise_sd x exp(sum c x
     z)``, ``z`` the covariate's standardised value."""
+    rate: float | None = None
+    """Count only: the population mean of the count (its Poisson mean given its causes is ``exp(a +
+    sum(effect x cause))``, ``a`` calibrated to this mean; :mod:`workbench.engine.counts`)."""
 
     @property
     def is_binary(self) -> bool:
         return self.type == "binary"
+
+    @property
+    def is_count(self) -> bool:
+        return self.type == "count"
+
+    @property
+    def is_continuous(self) -> bool:
+        return self.type == "continuous"
 
     @property
     def display(self) -> str:
@@ -125,7 +136,7 @@ class Variable:
 @dataclass(frozen=True)
 class Arrow:
     """A direct causal effect ``source -> target`` of size ``effect`` (mean scale for a continuous target,
-    log-odds scale for a binary one). ``standardized`` keeps a ``standardized_effect`` the file gave (the
+    log-odds scale for a binary one, log-mean scale for a count). ``standardized`` keeps a ``standardized_effect`` the file gave (the
     raw ``effect`` was converted from it; :mod:`workbench.scenario.elicit`), else None."""
 
     source: str

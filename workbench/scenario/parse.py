@@ -71,11 +71,13 @@ from workbench.scenario.limits import (
     MAX_DEPTH,
     MAX_MAGNITUDE,
     MAX_NAME,
+    MAX_RATE,
     MAX_SAMPLE_SIZES,
     MAX_SUMMARY,
     MAX_TITLE,
     MIN_NOISE_SD,
     MIN_PROPORTION,
+    MIN_RATE,
     check_magnitude,
     check_nesting,
     check_scales,
@@ -112,6 +114,7 @@ _VARIABLE_KEYS = (
     "noise_sd",
     "baseline",
     "proportion",
+    "rate",
     "observed",
     "label",
     "position",
@@ -150,6 +153,29 @@ def _parse_proportion(table: dict, where: str) -> float:
     return proportion
 
 
+def _parse_rate(table: dict, where: str) -> float:
+    rate = _get(table, "rate", "number", where, 1.0)
+    if not MIN_RATE <= rate <= MAX_RATE:
+        raise ScenarioError(
+            f"must lie in [{MIN_RATE:g}, {MAX_RATE:g}] (the count's population mean), got {shown(rate)}",
+            where=f"{where}.rate",
+        )
+    return float(rate)
+
+
+def _parse_count(name: str, table: dict, where: str, observed, label, position) -> Variable:
+    for key in ("noise_sd", "baseline", "r_squared", "proportion"):
+        if key in table:
+            raise ScenarioError(
+                "applies to continuous or binary variables only; a count is set by 'rate' (its population "
+                "mean) and its causes (Poisson, arrows on the log scale)",
+                where=f"{where}.{key}",
+            )
+    refuse_on_binary(table, where, kind="count")
+    rate = _parse_rate(table, where)
+    return Variable(name, "count", 0.0, 0.0, None, observed, label, position, rate=rate)
+
+
 def _parse_noise_sd(table: dict, where: str, name: str) -> float:
     noise_sd = _get(table, "noise_sd", "number", where, 1.0)
     place = f"{where}.noise_sd"
@@ -186,13 +212,19 @@ def _parse_variable(name: str, table: Any, names=()) -> Variable:
                     "applies to continuous variables only; a binary variable is set by 'proportion'",
                     where=f"{where}.{key}",
                 )
+        if "rate" in table:
+            raise ScenarioError('applies to count variables only (set type = "count")', where=f"{where}.rate")
         refuse_on_binary(table, where)
         proportion = _parse_proportion(table, where)
         return Variable(name, "binary", 0.0, 0.0, proportion, observed, label, position)
+    if vtype == "count":
+        return _parse_count(name, table, where, observed, label, position)
     if "proportion" in table:
         raise ScenarioError(
             'applies to binary variables only (set type = "binary")', where=f"{where}.proportion"
         )
+    if "rate" in table:
+        raise ScenarioError('applies to count variables only (set type = "count")', where=f"{where}.rate")
     r_squared = read_r_squared(table, where)
     noise_sd = _parse_noise_sd(table, where, name)
     baseline = check_magnitude(_get(table, "baseline", "number", where, 0.0), f"{where}.baseline")
@@ -306,9 +338,21 @@ def _parse_question(data: dict, by_name: dict[str, Variable]) -> Question:
     target = _choice(_get(q, "target", "str", "question", "total"), TARGETS, "question.target")
     scale = _choice(_get(q, "scale", "str", "question", "difference"), SCALES, "question.scale")
     outcome_binary = by_name[outcome].is_binary
+    kind = by_name[outcome].type
     if scale in ("log_odds_ratio", "log_risk_ratio") and not outcome_binary:
         raise ScenarioError(
-            f"'{scale}' needs a binary outcome; '{outcome}' is continuous", where="question.scale"
+            f"'{scale}' needs a binary outcome; '{outcome}' is {kind}", where="question.scale"
+        )
+    if scale == "log_rate_ratio" and kind != "count":
+        raise ScenarioError(
+            f"'log_rate_ratio' needs a count outcome (type = \"count\"); '{outcome}' is {kind}",
+            where="question.scale",
+        )
+    if target == "direct" and kind == "count":
+        raise ScenarioError(
+            f"the 'direct' target needs a continuous outcome; '{outcome}' is a count, and its arrow from the "
+            "exposure is a conditional log rate ratio, not a difference in means",
+            where="question.target",
         )
     if target == "direct" and outcome_binary:
         raise ScenarioError(

@@ -91,10 +91,10 @@ def check_forms(data: dict, variables, arrows) -> None:
                 "form is the straight line again)",
                 where=where,
             )
-        if by_name[a.target].is_binary:
+        if not by_name[a.target].is_continuous:
             raise ScenarioError(
-                f"a non-linear form needs a continuous target; '{a.target}' is binary (its log-odds equation "
-                "supports linear arrows only, not supported yet)",
+                f"a non-linear form needs a continuous target; '{a.target}' is {by_name[a.target].type} (its "
+                "log-scale equation supports linear arrows only, not supported yet)",
                 where=where,
             )
         if "standardized_effect" in table:
@@ -112,10 +112,11 @@ def check_forms(data: dict, variables, arrows) -> None:
         if a.varies_with:
             raise ScenarioError("a non-linear form cannot be combined with varies_with yet", where=where)
         below = descendants(a.target, arrows) | {a.target}
-        binary_below = sorted(b for b in below if by_name[b].is_binary)
+        binary_below = sorted(b for b in below if not by_name[b].is_continuous)
         if binary_below:
             raise ScenarioError(
-                f"the binary variable '{binary_below[0]}' descends from '{a.target}', the target of a "
+                f"the {by_name[binary_below[0]].type} variable '{binary_below[0]}' descends from '{a.target}', "
+                "the target of a "
                 "non-linear arrow (not supported yet)",
                 where=where,
             )
@@ -189,10 +190,10 @@ def read_flexible(table: dict, where: str, by_name: dict, adjust, model: str, ou
             raise ScenarioError(
                 f"'{name}' must also be in adjust (flexible changes how it enters)", where=item
             )
-        if by_name[name].is_binary:
+        if not by_name[name].is_continuous:
+            why = "a 0/1 variable is already adjusted for fully" if by_name[name].is_binary else "not yet"
             raise ScenarioError(
-                f"'{name}' is binary; a spline needs a continuous covariate (a 0/1 variable is already "
-                "adjusted for fully)",
+                f"'{name}' is {by_name[name].type}; a spline needs a continuous covariate ({why})",
                 where=item,
             )
         if name in out:

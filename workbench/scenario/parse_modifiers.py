@@ -108,9 +108,10 @@ def check_modifiers(data: dict, variables, arrows) -> None:
             continue
         where = f"arrows[{i}]"
         table = arrow_tables[i - 1] if i - 1 < len(arrow_tables) else {}
-        if by_name[a.target].is_binary:
+        if not by_name[a.target].is_continuous:
             raise ScenarioError(
-                f"varies_with needs a continuous target; '{a.target}' is binary (not supported yet)",
+                f"varies_with needs a continuous target; '{a.target}' is {by_name[a.target].type} (not "
+                "supported yet)",
                 where=f"{where}.varies_with",
             )
         if "standardized_effect" in table:
@@ -139,10 +140,11 @@ def check_modifiers(data: dict, variables, arrows) -> None:
                     "(effect = 0 if it has no effect of its own), so the graph shows the dependence",
                     where=place,
                 )
-        binary_below = sorted(b for b in below if by_name[b].is_binary)
+        binary_below = sorted(b for b in below if not by_name[b].is_continuous)
         if binary_below:
             raise ScenarioError(
-                f"the binary variable '{binary_below[0]}' descends from '{a.target}', the target of a modified "
+                f"the {by_name[binary_below[0]].type} variable '{binary_below[0]}' descends from "
+                f"'{a.target}', the target of a modified "
                 "arrow (not supported yet)",
                 where=f"{where}.varies_with",
             )

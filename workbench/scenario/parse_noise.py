@@ -19,7 +19,7 @@ The rules, each refused with one located line (``variables.delay.spread_with.dis
   first, by name (it would make a cycle);
 - ``spread_with`` is not combined with ``r_squared`` on the same variable, nor with a ``standardized_effect``
   into it (the conversions assume a constant noise SD);
-- no binary variable descends from a variable with non-normal or spread noise (the calibration of binary
+- no binary or count variable descends from a variable with non-normal or spread noise (the calibration of binary
   intercepts assumes Gaussian noise upstream; not supported yet).
 
 Examples
@@ -99,12 +99,13 @@ def read_noise(table: dict, where: str, names, name: str) -> tuple[str, float | 
     return law, df, tuple(spread)
 
 
-def refuse_on_binary(table: dict, where: str) -> None:
-    """Refuse the noise keys on a binary variable, located at the first one given."""
+def refuse_on_binary(table: dict, where: str, kind: str = "binary") -> None:
+    """Refuse the noise keys on a binary (or count) variable, located at the first one given."""
+    setting = "'proportion'" if kind == "binary" else "'rate' and its causes (Poisson)"
     for key in NOISE_KEYS:
         if key in table:
             raise ScenarioError(
-                "applies to continuous variables only; a binary variable is set by 'proportion'",
+                f"applies to continuous variables only; a {kind} variable is set by {setting}",
                 where=f"{where}.{key}",
             )
 
@@ -144,11 +145,12 @@ def check_noise(variables, arrows) -> None:
                     f"{v.name} (effect = 0 if it has no effect of its own), so the graph shows the dependence",
                     where=place,
                 )
-        binary_below = sorted(b for b in below if by_name[b].is_binary)
+        binary_below = sorted(b for b in below if not by_name[b].is_continuous)
         if binary_below:
             key = "spread_with" if v.spread_with else "noise"
             raise ScenarioError(
-                f"the binary variable '{binary_below[0]}' descends from '{v.name}', whose noise is not normal "
+                f"the {by_name[binary_below[0]].type} variable '{binary_below[0]}' descends from '{v.name}', "
+                "whose noise is not normal "
                 "with a constant SD (not supported yet)",
                 where=f"{where}.{key}",
             )

@@ -45,12 +45,16 @@ STRATEGY_KEYS = (
 )
 
 _SE_ALLOWED = {
-    ("ols", False): ("classical", "hc3"),
-    ("ols", True): ("hc3",),
-    ("logit", True): ("classical",),
-    ("poisson", True): ("robust", "classical"),
+    ("ols", "continuous"): ("classical", "hc3"),
+    ("ols", "binary"): ("hc3",),
+    ("ols", "count"): ("classical", "hc3"),
+    ("logit", "binary"): ("classical",),
+    ("poisson", "binary"): ("robust", "classical"),
+    ("poisson", "count"): ("robust", "classical"),
 }
-"""For (model, binary outcome), the ``se`` values allowed, the default first."""
+"""For (model, the outcome's type), the ``se`` values allowed, the default first."""
+_MODELS_FOR = {"continuous": ("ols",), "binary": ("ols", "logit", "poisson"), "count": ("ols", "poisson")}
+"""The models each type of outcome allows."""
 SE_CHOICES = _SE_ALLOWED
 """The same, public (the dashboard's strategies editor offers these)."""
 
@@ -118,14 +122,13 @@ def _parse_strategy(
     if name in taken:
         raise ScenarioError(f"duplicate strategy name '{name}'", where=f"{where}.name")
     exposure, outcome = question.exposure, question.outcome
-    outcome_binary = by_name[outcome].is_binary
+    kind = by_name[outcome].type
+    outcome_binary = kind != "continuous"  # the designs and options of OLS on a continuous outcome only
     adjust = _parse_adjust(table, where, by_name, question)
     model = _choice(_get(table, "model", "str", where, "ols"), MODELS, f"{where}.model")
-    if model in ("logit", "poisson") and not outcome_binary:
-        later = " (count outcomes are not supported yet)" if model == "poisson" else ""
-        raise ScenarioError(
-            f"'{model}' needs a binary outcome; '{outcome}' is continuous{later}", where=f"{where}.model"
-        )
+    if model not in _MODELS_FOR[kind]:
+        needs = "a binary outcome" if model == "logit" else "a binary or count outcome"
+        raise ScenarioError(f"'{model}' needs {needs}; '{outcome}' is {kind}", where=f"{where}.model")
     standardize = _get(table, "standardize", "bool", where, False)
     if standardize and model != "logit":
         raise ScenarioError(
@@ -138,7 +141,7 @@ def _parse_strategy(
             'restrict applies to model = "ols" with a continuous outcome only', where=f"{where}.restrict"
         )
     match = _parse_match(table, where, by_name, exposure, outcome, adjust, model)
-    se = _parse_se(table, where, model, outcome_binary, bool(selection or restrict or match))
+    se = _parse_se(table, where, model, kind, bool(selection or restrict or match))
     if standardize and question.scale == "log_risk_ratio":
         raise ScenarioError(
             "standardize = true reports a difference or a log odds ratio; for question.scale = "
@@ -192,25 +195,26 @@ def _parse_interactions(table: dict, where: str, adjust, model: str, outcome_bin
     return tuple(out)
 
 
-def _parse_se(table: dict, where: str, model: str, outcome_binary: bool, designed: bool) -> str | None:
-    """A strategy's ``se``: one the model allows (:data:`_SE_ALLOWED`); None when not given."""
+def _parse_se(table: dict, where: str, model: str, kind: str, designed: bool) -> str | None:
+    """A strategy's ``se``: one the model allows for an outcome of type ``kind`` (:data:`_SE_ALLOWED`); None
+    when not given."""
     se = _get(table, "se", "str", where, None)
     if se is None:
         return None
     place = f"{where}.se"
     _choice(se, SE_KINDS, place)
-    allowed = _SE_ALLOWED[(model, outcome_binary)]
+    allowed = _SE_ALLOWED[(model, kind)]
     if se not in allowed:
-        outcome = "a binary" if outcome_binary else "a continuous"
+        outcome = f"a {kind}"
         hint = {
-            ("ols", True): "; the linear probability model always uses HC3",
-            ("poisson", True): '; "robust" is the HC0 sandwich of the modified Poisson fit (Zou 2004)',
-        }.get((model, outcome_binary), "")
+            ("ols", "binary"): "; the linear probability model always uses HC3",
+            ("poisson", "binary"): '; "robust" is the HC0 sandwich of the modified Poisson fit (Zou 2004)',
+        }.get((model, kind), "")
         choices = " or ".join(f'"{a}"' for a in allowed)
         raise ScenarioError(
             f'model = "{model}" with {outcome} outcome allows se = {choices}, got "{se}"{hint}', where=place
         )
-    if se == "hc3" and not outcome_binary and designed:
+    if se == "hc3" and kind != "binary" and designed:
         raise ScenarioError(
             'se = "hc3" cannot be combined with selection, restrict or match yet', where=place
         )

@@ -59,6 +59,8 @@ def scenario_to_dict(scenario: Scenario, *, include_default_strategies: bool = T
         table["type"] = v.type
         if v.is_binary:
             table["proportion"] = v.proportion
+        elif v.is_count:
+            table["rate"] = v.rate
         elif v.r_squared is not None:
             table["r_squared"] = v.r_squared
             table["baseline"] = v.baseline
