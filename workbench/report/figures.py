@@ -183,7 +183,9 @@ def truth_groups(result) -> list[tuple[str, float, list[str]]]:
     for _, row in table.iterrows():
         truth = float(row["truth"]) if "truth" in row and pd.notna(row["truth"]) else float(result.truth)
         estimand = str(row["estimand"]) if "estimand" in row and pd.notna(row["estimand"]) else "effect"
-        scale = "log odds ratio" if "log odds" in estimand else estimand
+        scale = (
+            scale_of(estimand) if "log " in estimand else estimand
+        )  # marginal and conditional ratios together
         key = next(
             (k for k in groups if k[0] == scale and math.isclose(k[1], truth, rel_tol=1e-9, abs_tol=1e-12)),
             (scale, truth),

@@ -217,15 +217,20 @@ def fit_to_width(fig, width: int, smallest: int = 320) -> None:
 
 
 def scale_of(estimand: str) -> str:
-    """The measurement scale of an estimand, for keeping one scale per axis: ``log odds ratio``, ``risk
-    difference`` or ``difference``.
+    """The measurement scale of an estimand, for keeping one scale per axis: ``log odds ratio``, ``log risk
+    ratio``, ``log rate ratio``, ``risk difference`` or ``difference``.
 
     Examples
     --------
     >>> scale_of("conditional log odds ratio"), scale_of("marginal risk difference"), scale_of("total effect")
     ('log odds ratio', 'risk difference', 'difference')
+    >>> scale_of("marginal log rate ratio"), scale_of("conditional log risk ratio per unit")
+    ('log rate ratio', 'log risk ratio')
     """
     text = str(estimand)
+    for scale in ("log odds ratio", "log risk ratio", "log rate ratio"):
+        if scale in text:
+            return scale
     if "log odds" in text:
         return "log odds ratio"
     return "risk difference" if "risk difference" in text else "difference"
