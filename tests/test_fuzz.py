@@ -105,10 +105,14 @@ KNOWN_WORDS = [
     "direct",
     "difference",
     "log_odds_ratio",
+    "count",
+    "poisson",
+    "log_risk_ratio",
+    "log_rate_ratio",
 ]
 KEYS = [
     "title", "summary", "question", "variables", "arrows", "strategies", "study", "exposure", "outcome",
-    "target", "scale", "also", "type", "noise_sd", "baseline", "proportion", "observed", "label", "position",
+    "target", "scale", "also", "type", "noise_sd", "baseline", "proportion", "rate", "observed", "label", "position",
     "from", "to", "effect", "name", "adjust", "model", "standardize", "selection", "restrict", "match", "n",
     "replicates", "seed", "alpha", "sample_sizes", "target_power", "target_halfwidth",
 ]  # fmt: skip
@@ -175,6 +179,8 @@ def small_graphs(draw) -> dict:
         table: dict = {}
         if draw(st.booleans()):
             table = {"type": "binary", "proportion": draw(st.floats(0.05, 0.95))}
+        elif draw(st.integers(0, 3)) == 0:
+            table = {"type": "count", "rate": draw(st.floats(0.05, 20.0))}
         elif draw(st.booleans()):
             table["noise_sd"] = draw(st.floats(0.1, 3.0))
         variables[name] = table
