@@ -41,7 +41,7 @@ from workbench.engine.logistic import design_matrix, fit_logit_batch
 from workbench.engine.ols import crossproducts, ols_fit, select_covariates, selected_names, t_inference
 from workbench.engine.poisson import fit_poisson_batch
 from workbench.engine.robust import ols_hc3_batch
-from workbench.engine.splines import fit_flexible
+from workbench.engine.splines import fit_flexible, with_spline_columns
 from workbench.engine.standardize import standardized_contrast
 from workbench.engine.truth import estimand, fit_label, model_kind
 from workbench.errors import DataError, SimulationError
@@ -173,24 +173,34 @@ def _flexible(X: np.ndarray, y: np.ndarray, s: Strategy):
     return fit.coef[0, 0], fit.se[0, 0], float(np.asarray(fit.df)), failure
 
 
-def _poisson(X: np.ndarray, y: np.ndarray, kind: str):
-    """Poisson regression (log link), sandwich or model-based SE: (estimate, se, failure or None)."""
+def _design(X: np.ndarray, y: np.ndarray, s: Strategy):
+    """The design of a logistic or Poisson fit (with ``flexible``, the spline columns appended), its
+    outcome rows, and a failure for tied spline knots (or None)."""
     p = X.shape[1] + 1
     rows = np.column_stack([X, y])[None]
-    fit = fit_poisson_batch(design_matrix(rows, 0, list(range(1, p - 1))), rows[:, :, p - 1])
-    failure = str(fit.failure[0]) if fit.failed[0] else None
+    design = design_matrix(rows, 0, list(range(1, p - 1)))
+    if not s.flexible:
+        return design, rows[:, :, p - 1], None
+    positions = [s.adjust.index(v) for v in s.flexible]
+    design, tied = with_spline_columns(design, rows.transpose(0, 2, 1), list(range(1, p - 1)), positions)
+    return design, rows[:, :, p - 1], "tied spline knots" if tied[0] else None
+
+
+def _poisson(X: np.ndarray, y: np.ndarray, kind: str, s: Strategy):
+    """Poisson regression (log link), sandwich or model-based SE: (estimate, se, failure or None)."""
+    design, outcome, tied = _design(X, y, s)
+    fit = fit_poisson_batch(design, outcome)
+    failure = tied or (str(fit.failure[0]) if fit.failed[0] else None)
     se = fit.se("classical" if kind == "poisson" else "robust")
     return fit.coef[0, 1], se[0, 1], failure
 
 
-def _logit(X: np.ndarray, y: np.ndarray, kind: str, scenario: Scenario):
+def _logit(X: np.ndarray, y: np.ndarray, kind: str, scenario: Scenario, s: Strategy):
     """Logistic regression, plain or standardised on the question's scale: (estimate, se, failure or
     None)."""
-    p = X.shape[1] + 1
-    rows = np.column_stack([X, y])[None]
-    design = design_matrix(rows, 0, list(range(1, p - 1)))
-    logit = fit_logit_batch(design, rows[:, :, p - 1])
-    failure = str(logit.failure[0]) if logit.failed[0] else None
+    design, outcome, tied = _design(X, y, s)
+    logit = fit_logit_batch(design, outcome)
+    failure = tied or (str(logit.failure[0]) if logit.failed[0] else None)
     if kind != "logit_std":
         return logit.coef[0, 1], logit.se[0, 1], failure
     exposure_kind = "binary" if scenario.exposure.is_binary else "continuous"
@@ -229,9 +239,9 @@ def _strategy_row(scenario: Scenario, s: Strategy, columns: dict, alpha: float) 
     elif kind == "ols_flexible":
         est, se, df, failure = _flexible(X, y, s)
     elif kind in ("poisson", "poisson_robust"):
-        est, se, failure = _poisson(X, y, kind)
+        est, se, failure = _poisson(X, y, kind, s)
     else:
-        est, se, failure = _logit(X, y, kind, scenario)
+        est, se, failure = _logit(X, y, kind, scenario, s)
     if failure is not None:
         est = se = np.nan
     low, high, pv = t_inference(np.array([est]), np.array([se]), df, alpha)

@@ -49,7 +49,7 @@ from workbench.engine.logistic import design_matrix, fit_logit_batch
 from workbench.engine.ols import BatchFit, fit_crossproducts, fit_selected, masked_crossproducts
 from workbench.engine.poisson import fit_poisson_batch
 from workbench.engine.robust import ols_hc3_batch
-from workbench.engine.splines import fit_flexible
+from workbench.engine.splines import fit_flexible, with_spline_columns
 from workbench.engine.standardize import standardized_contrast
 
 __all__ = ["FitResult", "fit_chunk"]
@@ -139,8 +139,8 @@ class _ChunkFitter:
         self.index, self.names, self.alpha = index, names, alpha
         self.y = index[plan.outcome]
         self.masked = {}  # (restrict, match) -> (masked cross-products, rows kept)
-        self.logits = {}  # regressors -> (design, LogitFit)
-        self.poissons = {}  # regressors -> PoissonFit
+        self.logits = {}  # (regressors, flexible) -> (design, LogitFit, tied knots)
+        self.poissons = {}  # (regressors, flexible) -> (PoissonFit, tied knots)
         # the factor's columns the leading-set fits use, in one product
         if isinstance(S, FactoredCrossproducts):
             S.prepare([(self.y, [index[i] for i in f.regressors], _wanted(f)) for f in plan.fits if f.fixed])
@@ -186,27 +186,36 @@ class _ChunkFitter:
 
     def poisson(self, f: Fit):
         """Poisson regression, sandwich (``poisson_robust``) or model-based SEs: (coef, se, failed, reasons)."""
-        if f.regressors not in self.poissons:  # both SE kinds with one set share a fit
-            rows = self.rows()
-            X = design_matrix(rows, self.plan.exposure, list(f.regressors[1:]))
-            self.poissons[f.regressors] = fit_poisson_batch(X, rows[:, :, self.plan.outcome])
-        fit = self.poissons[f.regressors]
-        failed = fit.failed
-        reasons = Counter(str(r) for r in fit.failure[failed])
+        key = (f.regressors, f.flexible)
+        if key not in self.poissons:  # both SE kinds with one set share a fit
+            X, tied = self._design(f)
+            self.poissons[key] = (fit_poisson_batch(X, self.rows()[:, :, self.plan.outcome]), tied)
+        fit, tied = self.poissons[key]
+        failed, reasons = _with_tied(fit.failed, fit.failure, tied)
         se = fit.se("classical" if f.kind == "poisson" else "robust")
-        return fit.coef[:, 1:], se[:, 1:], failed, reasons
+        p = len(f.regressors) + 1  # the spline columns' coefficients come after the set's
+        return fit.coef[:, 1:p], se[:, 1:p], failed, reasons
+
+    def _design(self, f: Fit):
+        """The design matrix of a logistic or Poisson fit: ``[1, exposure, *adjust]`` and, with
+        ``flexible``, the spline columns (:func:`workbench.engine.splines.with_spline_columns`); and the
+        replicates with tied knots (None without ``flexible``)."""
+        X = design_matrix(self.rows(), self.plan.exposure, list(f.regressors[1:]))
+        if not f.flexible:
+            return X, None
+        return with_spline_columns(X, self.data, f.regressors[1:], f.flexible)
 
     def logit(self, f: Fit):
         """Logistic regression, plain or standardised: (coef, se, failed, reasons)."""
-        if f.regressors not in self.logits:  # plain and standardised logit with one set share a fit
-            rows = self.rows()
-            X = design_matrix(rows, self.plan.exposure, list(f.regressors[1:]))
-            self.logits[f.regressors] = (X, fit_logit_batch(X, rows[:, :, self.plan.outcome]))
-        X, fit = self.logits[f.regressors]
-        failed = fit.failed
-        reasons = Counter(str(r) for r in fit.failure[failed])
-        coef = fit.coef[:, 1:]
-        se = fit.se[:, 1:]
+        key = (f.regressors, f.flexible)
+        if key not in self.logits:  # plain and standardised logit with one set share a fit
+            X, tied = self._design(f)
+            self.logits[key] = (X, fit_logit_batch(X, self.rows()[:, :, self.plan.outcome]), tied)
+        X, fit, tied = self.logits[key]
+        failed, reasons = _with_tied(fit.failed, fit.failure, tied)
+        p = len(f.regressors) + 1  # the spline columns' coefficients come after the set's
+        coef = fit.coef[:, 1:p]
+        se = fit.se[:, 1:p]
         if f.kind == "logit_std":
             exposure_kind = "binary" if self.plan.binary_exposure else "continuous"
             est, est_se = standardized_contrast(fit, X, 1, exposure_kind=exposure_kind, scale=f.scale)
@@ -272,6 +281,17 @@ class _ChunkFitter:
             selected=batch.selected if batch.selected is not None else np.full(R, -1, dtype=np.int64),
             retained=kept.astype(float) if kept is not None else np.full(R, np.nan),
         )
+
+
+def _with_tied(failed: np.ndarray, failure: np.ndarray, tied: np.ndarray | None):
+    """A fit's failures with the replicates whose spline knots tie added, and the reasons counted."""
+    reasons = Counter(str(r) for r in failure[failed])
+    if tied is None:
+        return failed, reasons
+    extra = int((tied & ~failed).sum())
+    if extra:
+        reasons["tied spline knots"] += extra
+    return failed | tied, reasons
 
 
 def _result(f: Fit, coef, se, failed, reasons: Counter, batch: BatchFit, df, selected, retained) -> FitResult:

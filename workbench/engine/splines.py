@@ -52,7 +52,7 @@ import numpy as np
 
 from workbench.engine.ols import BatchFit, crossproducts, fit_crossproducts
 
-__all__ = ["KNOT_PERCENTILES", "knots", "spline_basis", "fit_flexible"]
+__all__ = ["KNOT_PERCENTILES", "knots", "spline_basis", "spline_columns", "with_spline_columns", "fit_flexible"]
 
 KNOT_PERCENTILES = (0.05, 0.35, 0.65, 0.95)
 """Harrell's knot placement for ``k = 4`` (sample quantiles of the covariate, within each replicate)."""
@@ -106,6 +106,43 @@ def spline_basis(z: np.ndarray, t: np.ndarray) -> np.ndarray:
     return out
 
 
+def spline_columns(data: np.ndarray, adjust, flexible) -> tuple[np.ndarray, np.ndarray]:
+    """The two non-linear spline columns of each flexible covariate, in every replicate.
+
+    ``data`` is (R, k, n); ``adjust`` the adjustment set's variable indices; ``flexible`` positions in
+    ``adjust``. Returns the columns, shape (R, 2 x len(flexible), n), and which replicates have tied knots
+    (their columns are 0 there: the caller fails those replicates).
+
+    Examples
+    --------
+    >>> z = np.arange(101.0)[None, None, :]
+    >>> columns, tied = spline_columns(z, [0], [0])
+    >>> columns.shape, tied.tolist()
+    ((1, 2, 101), [False])
+    """
+    R, _, n = data.shape
+    out = np.empty((R, 2 * len(flexible), n))
+    tied = np.zeros(R, dtype=bool)
+    for f, pos in enumerate(flexible):
+        z = data[:, adjust[pos]]
+        t = knots(z)
+        tied |= np.any(np.diff(t, axis=1) <= 0.0, axis=1)
+        out[:, 2 * f : 2 * f + 2] = spline_basis(z, t)
+    if tied.any():
+        out[tied] = 0.0
+    return out, tied
+
+
+def with_spline_columns(X: np.ndarray, data: np.ndarray, adjust, flexible) -> tuple[np.ndarray, np.ndarray]:
+    """A design matrix of :func:`workbench.engine.logistic.design_matrix` (R, n, p) with the flexible
+    covariates' spline columns appended, in the same layout (a transposed view of a contiguous (R, p', n)
+    array), and the replicates with tied knots (:func:`spline_columns`). The logistic and Poisson fits use it
+    for ``flexible``; their first ``p`` coefficients keep their meaning."""
+    columns, tied = spline_columns(data, list(adjust), list(flexible))
+    joined = np.concatenate([X.transpose(0, 2, 1), columns], axis=1)
+    return joined.transpose(0, 2, 1), tied
+
+
 def fit_flexible(data: np.ndarray, exposure: int, adjust, flexible, outcome: int, names=None) -> BatchFit:
     """Fit the flexible model (module notes) in every replicate.
 
@@ -135,17 +172,10 @@ def fit_flexible(data: np.ndarray, exposure: int, adjust, flexible, outcome: int
     columns = np.empty((R, 2 + p + q, n))
     columns[:, 0] = data[:, exposure]
     columns[:, 1 : 1 + p] = data[:, adjust]
-    tied = np.zeros(R, dtype=bool)
     labels = [names[exposure]] + [names[a] for a in adjust]
-    for f, pos in enumerate(flexible):
-        z = data[:, adjust[pos]]
-        t = knots(z)
-        tied |= np.any(np.diff(t, axis=1) <= 0.0, axis=1)
-        columns[:, 1 + p + 2 * f : 3 + p + 2 * f] = spline_basis(z, t)
-        labels += [f"{names[adjust[pos]]} spline {j}" for j in (1, 2)]
+    columns[:, 1 + p : 1 + p + q], tied = spline_columns(data, adjust, flexible)
+    labels += [f"{names[adjust[pos]]} spline {j}" for pos in flexible for j in (1, 2)]
     columns[:, -1] = data[:, outcome]
-    if tied.any():
-        columns[tied, 1 + p : 1 + p + q] = 0.0  # a constant column: the fit fails there, counted below
     S = crossproducts(columns)
     fit = fit_crossproducts(S, n, 1 + p + q, list(range(1 + p + q)), labels + [names[outcome]])
     reasons = Counter(fit.reasons)

@@ -52,6 +52,7 @@ References
 
 from __future__ import annotations
 
+import dataclasses
 import functools
 from dataclasses import dataclass, replace
 
@@ -430,6 +431,9 @@ def fit_label(strategy: Strategy, scenario: Scenario) -> str:
     ['OLS', 'OLS, HC3 SE']
     """
     kind = model_kind(strategy, scenario.outcome.is_binary)
+    spline = f", spline: {', '.join(strategy.flexible)}" if strategy.flexible else ""
+    if kind in ("logit", "logit_std", "poisson", "poisson_robust") and spline:
+        return fit_label(dataclasses.replace(strategy, flexible=()), scenario) + spline
     if kind == "poisson_robust":
         return "modified Poisson (robust SE)" if scenario.outcome.is_binary else "Poisson, robust SE"
     if kind == "ols_interaction":

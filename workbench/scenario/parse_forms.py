@@ -172,9 +172,10 @@ def read_flexible(table: dict, where: str, by_name: dict, adjust, model: str, ou
     if not spec:
         return ()
     place = f"{where}.flexible"
-    if model != "ols" or outcome_binary:
+    if model == "ols" and outcome_binary:
         raise ScenarioError(
-            'flexible applies to model = "ols" with a continuous outcome only (not yet to logit or poisson)',
+            'flexible applies to model = "ols" with a continuous outcome, or to model = "logit" or "poisson" '
+            "(not yet to the linear probability model)",
             where=place,
         )
     used = [key for key, on in others.items() if on]
