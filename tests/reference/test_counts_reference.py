@@ -200,3 +200,24 @@ def test_count_outcome_preset_teaches_its_lesson():
     assert table.loc["adjust_depot_size_classical_se", "coverage"] < 0.95 - 3 * mcse - 0.1
     assert abs(table.loc["adjust_depot_size_traffic", "coverage"] - 0.95) <= 3 * mcse
     assert table.loc["ols_adjust_depot_size_traffic", "estimand"].startswith("total effect (difference")
+
+
+def test_a_count_cause_is_centred_and_standardised_at_its_own_moments():
+    """A square arrow from a count is centred at the count's mean, its ``rate`` (the calibrated population
+    mean; docs/scenario-format.md), and a count as a spread covariate is standardised by its own Poisson
+    mean and SD, ``sqrt(rate)`` for a count without causes (the Poisson law; common practice, no source)."""
+    text = (
+        DEPOTS.replace('[[arrows]]\nfrom = "hours"\nto = "checks"\neffect = 0.3\n', "")
+        + '[variables.cost]\nspread_with = { checks = 0.2 }\n[[arrows]]\nfrom = "checks"\nto = "cost"\neffect = 0.5\nform = "square"\n'
+    )
+    st = graph_structure(*_graph(wb.loads_scenario(text)))
+    (term,) = st.forms
+    assert term.centre == pytest.approx(2.0, abs=1e-12)
+    (noise,) = st.noises
+    assert noise.means[0] == pytest.approx(2.0, abs=0.01) and noise.sds[0] == pytest.approx(
+        np.sqrt(2.0), abs=0.01
+    )
+
+
+def _graph(sc):
+    return sc.variables, sc.arrows

@@ -123,6 +123,8 @@ def _closed_form_mean(st, variables, j: int) -> float:
     for i in st.order:
         if st.binary[i]:
             means[i] = variables[i].proportion
+        elif i in st.counts:
+            means[i] = variables[i].rate  # its intercept is calibrated to this population mean
         else:
             idx, eff = st.parents[i]
             means[i] = float(st.intercept[i]) + sum(

@@ -114,6 +114,8 @@ def _closed_form_means(st, variables) -> np.ndarray:
     for j in st.order:
         if st.binary[j]:
             means[j] = variables[j].proportion
+        elif j in st.counts:
+            means[j] = variables[j].rate  # its intercept is calibrated to this population mean
         else:
             idx, eff = st.parents[j]
             means[j] = st.intercept[j] + float(np.dot(eff, means[idx])) if len(idx) else st.intercept[j]

@@ -238,7 +238,8 @@ def with_noise(st, variables: tuple, arrows: tuple):
     needed = sorted({int(c) for t in terms for c in t.covariates}, key=st.order.index)
     for c in needed:
         above = _ancestors(st, c)
-        linear = st.binary[c] or not (above & bent or any(st.binary[i] for i in above))
+        # a count's variance is not the linear recursion's: counts upstream go to the draws as well
+        linear = st.binary[c] or not (above & bent or any(st.binary[i] or i in st.counts for i in above))
         mean, sd = _closed_form_moments(st, variables, c) if linear else _simulated_moments(out, c)
         if not sd > 0:
             name = next(v.name for v in variables if v.spread_with and st.names[c] in dict(v.spread_with))
