@@ -22,7 +22,7 @@ from scipy import special
 from workbench.engine.counts import MAX_MEAN, count_intercept, poisson_from_normal
 from workbench.errors import SimulationError
 
-__all__ = ["CALIBRATION_DRAWS", "CALIBRATION_SEED", "calibrate"]
+__all__ = ["CALIBRATION_DRAWS", "CALIBRATION_SEED", "calibrate", "calibrate_one_from"]
 
 CALIBRATION_DRAWS = 2**20
 CALIBRATION_SEED = 20_261_201
@@ -259,3 +259,20 @@ def calibrate(bare, variables: tuple) -> np.ndarray:
     finally:
         drawn.close()
     return intercept
+
+
+def calibrate_one_from(variable, linear: np.ndarray, has_causes: bool) -> float:
+    """The intercept of one binary or count ``variable`` from the sum ``linear`` its causes give it over the
+    calibration draws (a located error when none exists)."""
+    if variable.type == "count":
+        intercept = count_intercept(variable.name, variable.rate, linear if has_causes else None)
+        with np.errstate(all="ignore"):
+            top = float(np.max(linear)) + intercept if has_causes else intercept
+        if not np.exp(top) <= MAX_MEAN:
+            raise SimulationError(
+                f"cannot calibrate the rate of '{variable.name}': its mean given its causes exceeds "
+                f"{MAX_MEAN:g} in some draws (smaller effects on the log scale, or a smaller rate)",
+                where=f"variables.{variable.name}.rate",
+            )
+        return intercept
+    return _calibrate_one(variable.name, variable.proportion, linear, has_causes, np.empty_like(linear))

@@ -186,10 +186,68 @@ def graph_structure(variables: tuple, arrows: tuple) -> Structure:
     """
     bare = _bare_structure(variables, arrows)
     if bare.binary.any() or bare.counts:
+        if _terms_above_discrete(variables, arrows):
+            return _calibrated_with_terms(bare, variables, arrows)
         bare = replace(bare, intercept=calibrate(bare, variables))
-    return with_noise(
-        with_forms(with_modifiers(bare, variables, arrows), variables, arrows), variables, arrows
-    )
+    return _with_terms(bare, variables, arrows)
+
+
+def _with_terms(st: Structure, variables: tuple, arrows: tuple) -> Structure:
+    """``st`` with its modified arrows, non-linear arrows and noise terms (their means from ``st``)."""
+    return with_noise(with_forms(with_modifiers(st, variables, arrows), variables, arrows), variables, arrows)
+
+
+def _terms_above_discrete(variables: tuple, arrows: tuple) -> bool:
+    """True when a binary or count variable is, or descends from, the target of a modified or non-linear
+    arrow or a variable with non-normal or spread noise: its calibration then needs the full equations."""
+    special = {a.target for a in arrows if a.varies_with or a.form != "linear"}
+    special |= {v.name for v in variables if v.noise != "normal" or v.spread_with}
+    if not special:
+        return False
+    reached, todo = set(special), list(special)
+    while todo:
+        node = todo.pop()
+        for a in arrows:
+            if a.source == node and a.target not in reached:
+                reached.add(a.target)
+                todo.append(a.target)
+    return any(v.name in reached for v in variables if v.type != "continuous")
+
+
+def _calibrated_with_terms(bare: Structure, variables: tuple, arrows: tuple) -> Structure:
+    """:func:`graph_structure` for a graph with modified or non-linear arrows or shaped noise above a binary
+    or count variable: each such variable, causes first, is calibrated from its causes' values computed by
+    the full equations (:func:`evaluate`) on the calibration draws, the intercepts above it already
+    calibrated. The draws are the same numbers as :func:`~workbench.engine.calibration.calibrate`'s (one row
+    of :data:`CALIBRATION_DRAWS` normals per variable in file order from :data:`CALIBRATION_SEED`); memory
+    holds two (variables, draws) arrays."""
+    from workbench.engine.calibration import calibrate_one_from
+
+    intercept = bare.intercept.copy()
+    z = np.random.default_rng(CALIBRATION_SEED).standard_normal((bare.k, CALIBRATION_DRAWS))
+    values = np.empty_like(z)
+    tmp = np.empty(CALIBRATION_DRAWS)
+    for j in bare.order:
+        if not (bare.binary[j] or j in bare.counts):
+            continue
+        st = _with_terms(replace(bare, intercept=intercept), variables, arrows)
+        above = _ancestors(st, j) - {j}
+        with np.errstate(all="ignore"):
+            evaluate(replace(st, order=tuple(i for i in st.order if i in above)), z, axis=0, out=values)
+            linear = np.zeros(CALIBRATION_DRAWS)
+            for i, e in zip(*st.parents[j], strict=True):
+                linear += e * values[i]
+            _add_terms(st, j, linear, values, tmp)
+        intercept[j] = calibrate_one_from(variables[j], linear, len(st.parents[j][0]) > 0)
+    return _with_terms(replace(bare, intercept=intercept), variables, arrows)
+
+
+def _ancestors(st: Structure, j: int) -> set[int]:
+    found = {j}
+    for i in reversed(st.order):
+        if i in found:
+            found.update(int(p) for p in st.parents[i][0])
+    return found
 
 
 def structure(scenario: Scenario) -> Structure:
@@ -275,6 +333,21 @@ def _bernoulli_from_normal(z, linear, out, work) -> None:
     out[where] = exact
 
 
+def _add_terms(st: Structure, j: int, linear, v, tmp) -> None:
+    """Add the modified and non-linear arrows' terms into the binary or count variable ``j`` to its linear
+    predictor ``linear`` (on its log-odds or log-mean scale); nothing when no such arrow points at ``j``."""
+    if not any(t.target == j for t in (*st.modified, *st.forms)):
+        return
+    held = v[j].copy()
+    np.copyto(v[j], linear)
+    if st.modified:
+        add_modification(st, j, v, tmp)
+    if st.forms:
+        add_forms(st, j, v, tmp)
+    np.copyto(linear, v[j])
+    np.copyto(v[j], held)
+
+
 def _count_values(st: Structure, j: int, z, v, scratch, tmp, mean_only: bool) -> None:
     """``v[j]``: count ``j`` from its noise ``z`` given the values of its causes in ``v`` (its mean given
     them when ``mean_only``, for the truth)."""
@@ -283,6 +356,7 @@ def _count_values(st: Structure, j: int, z, v, scratch, tmp, mean_only: bool) ->
     for i, e in zip(idx, eff, strict=True):
         np.multiply(v[i], e, out=tmp)
         scratch += tmp
+    _add_terms(st, j, scratch, v, tmp)
     with np.errstate(over="ignore"):
         np.exp(scratch, out=scratch)
     if mean_only:
@@ -372,6 +446,7 @@ def evaluate(
             for i, e in zip(idx[1:], eff[1:], strict=True):
                 np.multiply(v[i], e, out=tmp)
                 scratch += tmp
+            _add_terms(st, j, scratch, v, tmp)
             if j == prob_index:
                 v[j] = special.expit(scratch, out=scratch)
             else:

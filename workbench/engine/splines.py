@@ -52,7 +52,14 @@ import numpy as np
 
 from workbench.engine.ols import BatchFit, crossproducts, fit_crossproducts
 
-__all__ = ["KNOT_PERCENTILES", "knots", "spline_basis", "spline_columns", "with_spline_columns", "fit_flexible"]
+__all__ = [
+    "KNOT_PERCENTILES",
+    "knots",
+    "spline_basis",
+    "spline_columns",
+    "with_spline_columns",
+    "fit_flexible",
+]
 
 KNOT_PERCENTILES = (0.05, 0.35, 0.65, 0.95)
 """Harrell's knot placement for ``k = 4`` (sample quantiles of the covariate, within each replicate)."""

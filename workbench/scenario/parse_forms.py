@@ -12,9 +12,9 @@ The rules, each refused with one located line (``arrows[2].form: ...``):
 
 - the cause of a square or step arrow is continuous (the square of a 0/1 variable centred at its mean is a
   straight line in it again, and a step on a 0/1 variable is the variable itself);
-- the target is continuous: the log-odds equation of a binary variable and its calibrated intercept assume
-  linear arrows (not supported yet), and no binary variable descends from the target (the calibration of
-  binary intercepts assumes linear equations upstream);
+- the target may be of any type: into a binary or count variable the form acts on its log odds or log mean,
+  and a binary or count variable at or below the target is calibrated from the full equations
+  (:func:`workbench.engine.generate.graph_structure`);
 - the target is not set by ``r_squared`` and the arrow has an ``effect``, not a ``standardized_effect``
   (those conversions assume linear arrows; :mod:`workbench.scenario.elicit`); nor does any variable at or
   below the target use ``r_squared``, or any arrow into or out of one ``standardized_effect``;
@@ -91,12 +91,6 @@ def check_forms(data: dict, variables, arrows) -> None:
                 "form is the straight line again)",
                 where=where,
             )
-        if not by_name[a.target].is_continuous:
-            raise ScenarioError(
-                f"a non-linear form needs a continuous target; '{a.target}' is {by_name[a.target].type} (its "
-                "log-scale equation supports linear arrows only, not supported yet)",
-                where=where,
-            )
         if "standardized_effect" in table:
             raise ScenarioError(
                 "a non-linear form needs 'effect', not 'standardized_effect' (the conversion assumes a linear "
@@ -112,14 +106,6 @@ def check_forms(data: dict, variables, arrows) -> None:
         if a.varies_with:
             raise ScenarioError("a non-linear form cannot be combined with varies_with yet", where=where)
         below = descendants(a.target, arrows) | {a.target}
-        binary_below = sorted(b for b in below if not by_name[b].is_continuous)
-        if binary_below:
-            raise ScenarioError(
-                f"the {by_name[binary_below[0]].type} variable '{binary_below[0]}' descends from '{a.target}', "
-                "the target of a "
-                "non-linear arrow (not supported yet)",
-                where=where,
-            )
         moved = sorted(below & modifiers)
         if moved:
             raise ScenarioError(

@@ -13,11 +13,10 @@ The rules, each refused with one located line (``arrows[3].varies_with.skill: ..
   when it has no effect of its own): the target's equation then depends on it, and the graph must say so,
   or its paths and adjustment verdicts would miss that dependence. A modifier that descends from the target
   is refused first, by name (it would make a cycle);
-- the target is continuous (the outcome's equation is then ``... + (effect + c (m - E[m])) x source``), is not
-  set by ``r_squared`` and the arrow has an ``effect``, not a ``standardized_effect`` (those conversions
-  assume linear arrows; :mod:`workbench.scenario.elicit`);
-- no binary variable descends from a modified arrow's target (the calibration of binary intercepts assumes
-  linear equations upstream; not supported yet).
+- the target's equation becomes ``... + (effect + c (m - E[m])) x source`` (on the log odds or log mean of
+  a binary or count target, whose intercept is then calibrated from the full equations); it is not set by
+  ``r_squared`` and the arrow has an ``effect``, not a ``standardized_effect`` (those conversions assume
+  linear arrows; :mod:`workbench.scenario.elicit`).
 
 Examples
 --------
@@ -108,12 +107,6 @@ def check_modifiers(data: dict, variables, arrows) -> None:
             continue
         where = f"arrows[{i}]"
         table = arrow_tables[i - 1] if i - 1 < len(arrow_tables) else {}
-        if not by_name[a.target].is_continuous:
-            raise ScenarioError(
-                f"varies_with needs a continuous target; '{a.target}' is {by_name[a.target].type} (not "
-                "supported yet)",
-                where=f"{where}.varies_with",
-            )
         if "standardized_effect" in table:
             raise ScenarioError(
                 "varies_with needs 'effect', not 'standardized_effect' (the conversion assumes a linear arrow)",
@@ -140,11 +133,3 @@ def check_modifiers(data: dict, variables, arrows) -> None:
                     "(effect = 0 if it has no effect of its own), so the graph shows the dependence",
                     where=place,
                 )
-        binary_below = sorted(b for b in below if not by_name[b].is_continuous)
-        if binary_below:
-            raise ScenarioError(
-                f"the {by_name[binary_below[0]].type} variable '{binary_below[0]}' descends from "
-                f"'{a.target}', the target of a modified "
-                "arrow (not supported yet)",
-                where=f"{where}.varies_with",
-            )

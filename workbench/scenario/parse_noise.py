@@ -18,9 +18,8 @@ The rules, each refused with one located line (``variables.delay.spread_with.dis
   no effect of its own), so the graph shows the dependence; one that descends from the variable is refused
   first, by name (it would make a cycle);
 - ``spread_with`` is not combined with ``r_squared`` on the same variable, nor with a ``standardized_effect``
-  into it (the conversions assume a constant noise SD);
-- no binary or count variable descends from a variable with non-normal or spread noise (the calibration of binary
-  intercepts assumes Gaussian noise upstream; not supported yet).
+  into it (the conversions assume a constant noise SD). A binary or count variable below such noise is
+  calibrated from the full equations.
 
 Examples
 --------
@@ -113,7 +112,6 @@ def refuse_on_binary(table: dict, where: str, kind: str = "binary") -> None:
 def check_noise(variables, arrows) -> None:
     """The graph rules of every variable with non-normal or spread noise (module notes), after the arrows are
     known to form no cycle."""
-    by_name = {v.name: v for v in variables}
     for v in variables:
         if v.noise == "normal" and not v.spread_with:
             continue
@@ -145,12 +143,3 @@ def check_noise(variables, arrows) -> None:
                     f"{v.name} (effect = 0 if it has no effect of its own), so the graph shows the dependence",
                     where=place,
                 )
-        binary_below = sorted(b for b in below if not by_name[b].is_continuous)
-        if binary_below:
-            key = "spread_with" if v.spread_with else "noise"
-            raise ScenarioError(
-                f"the {by_name[binary_below[0]].type} variable '{binary_below[0]}' descends from '{v.name}', "
-                "whose noise is not normal "
-                "with a constant SD (not supported yet)",
-                where=f"{where}.{key}",
-            )
