@@ -58,7 +58,7 @@ class App(pn.viewable.Viewer):
             ("Explain", pn.Column(self.result_views[3], margin=(6, 10))),
             ("Export", pn.Column(ExportView(workbench=wb), margin=(6, 10))),
             css_classes=["wb-tabs"],
-            dynamic=False,  # all tabs sent at load: lazy tabs made the report downloads flaky (docs/performance.md)
+            dynamic=True,  # a tab's content is sent when first shown: a shorter first load (docs/performance.md)
             margin=(0, 6),
         )
         index = len(self.tabs)  # the Sensitivity tab, last (workbench.app.sensitivity_tab)
