@@ -37,7 +37,8 @@ def as_number(value):
 
 
 class VariablesEditor(pn.viewable.Viewer):
-    """An editable table of the variables: add, delete, rename, change type, noise, proportion, observed."""
+    """An editable table of the variables: add, delete, rename, change type, noise, proportion, observed (a
+    count's rate and the noise law are in the inspector, :mod:`workbench.app.inspector`)."""
 
     state = param.ClassSelector(class_=ScenarioState)
 
@@ -64,7 +65,7 @@ class VariablesEditor(pn.viewable.Viewer):
             editors={
                 "name": {"type": "input"},
                 "role": None,
-                "type": {"type": "list", "values": ["continuous", "binary"]},
+                "type": {"type": "list", "values": ["continuous", "binary", "count"]},
                 "noise_sd": {"type": "number", "step": 0.1},
                 "r_squared": {"type": "number", "step": 0.05, "min": 0, "max": 1},
                 "baseline": {"type": "number", "step": 0.1},
@@ -107,7 +108,7 @@ class VariablesEditor(pn.viewable.Viewer):
         self.new_name = pn.widgets.TextInput(
             placeholder="new variable name", width=200, css_classes=["wb-new-variable"]
         )
-        self.new_type = pn.widgets.Select(options=["continuous", "binary"], width=120)
+        self.new_type = pn.widgets.Select(options=["continuous", "binary", "count"], width=120)
         self.add = pn.widgets.Button(label="Add variable", width=120, css_classes=["wb-add-variable"])
         self.add.on_click(self._add)
         self.state.param.watch(self._refresh, ["scenario", "report"])
@@ -122,9 +123,9 @@ class VariablesEditor(pn.viewable.Viewer):
                 "name": v.name,
                 "role": ROLE_STYLE[primary_role(sc, v.name, roles)][0],
                 "type": v.type,
-                "noise_sd": None if v.is_binary else v.noise_sd,
+                "noise_sd": v.noise_sd if v.is_continuous else None,
                 "r_squared": v.r_squared if v.r_squared is not None else implied.get(v.name),
-                "baseline": None if v.is_binary else v.baseline,
+                "baseline": v.baseline if v.is_continuous else None,
                 "proportion": v.proportion,
                 "observed": v.observed,
                 "label": v.label or "",

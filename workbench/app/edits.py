@@ -23,8 +23,10 @@ from workbench.scenario.constraints import STUDY_SETTINGS, check_setting
 from workbench.scenario.model import Scenario
 
 __all__ = [
+    "arrow_change",
     "check_study_values",
     "keep_layout",
+    "parse_coefficients",
     "pin_layout",
     "position_change",
     "strategy_table_change",
@@ -32,7 +34,9 @@ __all__ = [
 ]
 
 #: The variable fields :meth:`workbench.app.state.ScenarioState.set_variable` sets as given (numbers checked by the parser).
-_PLAIN_FIELDS = ("noise_sd", "baseline", "proportion")
+_PLAIN_FIELDS = ("noise_sd", "baseline", "proportion", "rate")
+#: The noise fields of a continuous variable (``spread_with`` as a table or as text, see :func:`parse_coefficients`).
+_NOISE_FIELDS = ("noise", "noise_df", "spread_with")
 _SIZES = "sample_sizes"
 
 
@@ -93,24 +97,105 @@ def variable_change(name: str, field: str, value: Any) -> Callable[[dict], edit.
                 table.pop("label", None)
             return edit.Edited(data)
         if field == "r_squared":  # the share its causes explain sets noise_sd (scenario/elicit.py)
-            if table.get("type") == "binary":
+            if table.get("type", "continuous") != "continuous":
                 raise ScenarioError(
                     "applies to continuous variables only", where=f"variables.{name}.r_squared"
                 )
             table.pop("noise_sd", None)
             table["r_squared"] = value
             return edit.Edited(data, f"noise_sd of {name} now follows from R^2 = {value:g}")
+        if field in _NOISE_FIELDS:
+            return _noise_change(data, name, field, value)
         if field not in _PLAIN_FIELDS:
             raise ScenarioError(f"cannot edit '{field}'", where=f"variables.{name}")
         if field == "noise_sd":
             table.pop("r_squared", None)
-        if field != "proportion" and table.get("type") == "binary":
-            raise ScenarioError(
-                "a binary variable is set by its proportion", where=f"variables.{name}.{field}"
-            )
-        if field == "proportion" and table.get("type") != "binary":
-            raise ScenarioError("only a binary variable has a proportion", where=f"variables.{name}.{field}")
-        table[field] = value
+        table[field] = value  # on a variable of another type, the parser's message names the rule
+        return edit.Edited(data)
+
+    return change
+
+
+def parse_coefficients(value: Any, *, where: str) -> dict:
+    """Coefficients typed as text (``distance = 0.5, load = 0.2``: the inside of a TOML inline table,
+    parsed, never evaluated) or given as a table, as a table; ``{}`` for blank text. The names and values are
+    left to the scenario parser.
+
+    Raises
+    ------
+    ScenarioError
+        When the text is not of that form.
+
+    Examples
+    --------
+    >>> parse_coefficients("distance = 0.5, load = -0.2", where="variables.delay.spread_with")
+    {'distance': 0.5, 'load': -0.2}
+    >>> parse_coefficients("distance: 0.5", where="variables.delay.spread_with")
+    Traceback (most recent call last):
+    ...
+    workbench.errors.ScenarioError: variables.delay.spread_with: write each as 'name = 0.5', separated by commas, got 'distance: 0.5'
+    """
+    return edit.inline_table(value, where=where, hint="write each as 'name = 0.5', separated by commas")
+
+
+def _set_or_drop(table: dict, key: str, value: Any) -> None:
+    """``table[key] = value``, or no ``key`` when ``value`` is None, '' or an empty table."""
+    if value is None or value == "" or value == {}:
+        table.pop(key, None)
+    else:
+        table[key] = value
+
+
+def _noise_change(data: dict, name: str, field: str, value: Any) -> edit.Edited:
+    """``noise`` (a law; leaving ``heavy_tailed`` drops ``noise_df``), ``noise_df`` (None: the default) or
+    ``spread_with`` (text or a table) of variable ``name``, in place."""
+    table = data["variables"][name]
+    note = ""
+    if field == "spread_with":
+        value = parse_coefficients(value, where=f"variables.{name}.spread_with")
+    if field == "noise":
+        value = None if value == "normal" else value
+        if value != "heavy_tailed" and "noise_df" in table:
+            del table["noise_df"]
+            note = f"noise_df of {name} dropped (it goes with heavy-tailed noise only)"
+    _set_or_drop(table, field, value)
+    return edit.Edited(data, note)
+
+
+def arrow_change(index: int, field: str, value: Any) -> Callable[[dict], edit.Edited]:
+    """The edit of an arrow's ``form`` (``linear`` drops it and ``at``; leaving ``step`` drops ``at``; a new
+    step is at the cause's ``baseline``, 0 without one), ``at``
+    (None drops it) or ``varies_with`` (text such as ``skill = 0.3``, or a table; blank for none), for
+    :meth:`workbench.app.graph_edits.GraphEdits.set_arrow_shape`.
+
+    Examples
+    --------
+    >>> data = {"arrows": [{"from": "a", "to": "b", "effect": 1.0, "form": "step", "at": 0.5}]}
+    >>> arrow_change(0, "form", "square")(data).data["arrows"][0]
+    {'from': 'a', 'to': 'b', 'effect': 1.0, 'form': 'square'}
+    """
+
+    def change(data: dict) -> edit.Edited:
+        if not 0 <= index < len(data["arrows"]):
+            raise ScenarioError(f"no arrow number {index + 1}", where="arrows")
+        table = data["arrows"][index]
+        if field == "varies_with":
+            coefficients = parse_coefficients(value, where=f"arrows[{index + 1}].varies_with")
+            _set_or_drop(table, "varies_with", coefficients)
+        elif field == "form":
+            if value != "step":
+                table.pop("at", None)
+            _set_or_drop(table, "form", None if value == "linear" else value)
+            if value == "step" and "at" not in table:  # a step needs its threshold: the cause's baseline
+                cause = data["variables"].get(table["from"], {})
+                table["at"] = float(cause.get("baseline", 0.0))
+                return edit.Edited(
+                    data, f"the step of {table['from']} is at {table['at']:g}; change 'at' to move it"
+                )
+        elif field == "at":
+            _set_or_drop(table, "at", value)
+        else:
+            raise ScenarioError(f"cannot edit '{field}'", where=f"arrows[{index + 1}]")
         return edit.Edited(data)
 
     return change
@@ -129,6 +214,8 @@ def strategy_table_change(table: dict, name: str, changes: dict[str, Any]) -> No
         if model != table.get("model", "ols"):
             table.pop("se", None)  # each model has its own standard errors: back to its default
         table["model"] = model
+        if model != "ols":  # splines are fitted by least squares only
+            table.pop("flexible", None)
         if model != "logit":
             table.pop("standardize", None)
         else:
@@ -150,6 +237,9 @@ def strategy_table_change(table: dict, name: str, changes: dict[str, Any]) -> No
         table.pop("se", None)
     elif se is not None:
         table["se"] = se
+    flexible = changes.get("flexible")
+    if flexible is not None:
+        _set_or_drop(table, "flexible", list(flexible) or None)
     interactions = changes.get("interactions")
     if interactions is not None:
         if interactions:

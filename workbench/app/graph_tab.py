@@ -1,6 +1,6 @@
 """The Graph tab: the graph with its roles, the question selectors, the paths of a chosen strategy and its
-verdict, and under them the four scenario editors (:mod:`workbench.app.editors`,
-:mod:`workbench.app.strategies_editor`).
+verdict, and under them the scenario editors (:mod:`workbench.app.editors`, the inspector of the selected
+variable or arrow :mod:`workbench.app.inspector`, :mod:`workbench.app.strategies_editor`).
 """
 
 from __future__ import annotations
@@ -10,6 +10,7 @@ import param
 
 from workbench.app.canvas import CanvasEditor
 from workbench.app.editors import ArrowsEditor, TomlEditor, VariablesEditor
+from workbench.app.inspector import Inspector
 from workbench.app.state import ScenarioState
 from workbench.app.strategies_editor import StrategiesEditor
 from workbench.app.widgets import ErrorBox
@@ -150,8 +151,11 @@ class GraphView(pn.viewable.Viewer):
             self.outcome.options = sc.observed_names
             self.exposure.value, self.outcome.value = q.exposure, q.outcome
             self.target.value = q.target
+            scales = {"binary": ["difference", "log_odds_ratio", "log_risk_ratio"]}
+            scales["count"] = ["difference", "log_rate_ratio"]
+            self.scale.options = scales.get(sc.outcome.type, ["difference"])
             self.scale.value = q.scale
-            self.scale.disabled = not sc.outcome.is_binary
+            self.scale.disabled = sc.outcome.is_continuous
             self.also.options = [v for v in sc.observed_names if v not in (q.exposure, q.outcome)]
             self.also.value = list(q.also)
             self.highlight.options = [_NONE] + [s.name for s in sc.strategies]
@@ -188,20 +192,22 @@ class GraphView(pn.viewable.Viewer):
 
 
 def graph_tab(state: ScenarioState) -> pn.viewable.Viewable:
-    """The Graph tab: the graph view above the tabs of the four editors.
+    """The Graph tab: the graph view above the tabs of the editors.
 
     Examples
     --------
     >>> type(graph_tab(ScenarioState(preset="common_cause"))).__name__
     'Column'
     """
+    view = GraphView(state=state)
     editors = pn.Tabs(
         ("Arrows", ArrowsEditor(state=state)),
         ("Variables", VariablesEditor(state=state)),
+        ("Selected", Inspector(state=state, canvas=view.canvas)),
         ("Strategies", StrategiesEditor(state=state)),
         ("Scenario text (TOML)", TomlEditor(state=state)),
         css_classes=["wb-editor-tabs"],
         margin=(6, 0),
         dynamic=False,
     )
-    return pn.Column(GraphView(state=state), editors, margin=(6, 10))
+    return pn.Column(view, editors, margin=(6, 10))

@@ -37,7 +37,8 @@ from workbench.analysis import budget
 from workbench.analysis.check import check
 from workbench.app import edits
 from workbench.app.dataset import SampleState
-from workbench.app.edits import check_study_values, strategy_table_change, variable_change
+from workbench.app.edits import check_study_values, strategy_table_change
+from workbench.app.graph_edits import GraphEdits
 from workbench.app.runs import BackgroundJob, PlanJob, SimulationJob
 from workbench.errors import ScenarioError, WorkbenchError
 from workbench.graph import judge
@@ -58,7 +59,7 @@ def _too_large(size: int) -> str:
     return f"{size:,} bytes is over the limit of {MAX_UPLOAD_BYTES:,}"
 
 
-class ScenarioState(param.Parameterized):
+class ScenarioState(GraphEdits, param.Parameterized):
     """The scenario being edited, with live validation.
 
     Parameters
@@ -100,7 +101,7 @@ class ScenarioState(param.Parameterized):
     can_redo = param.Boolean(default=False, doc="Whether there is an undone change to redo.")
 
     SECTIONS = ("preset", "upload", "toml", "variables", "arrows", "question", "strategies", "study", "plan")
-    SECTIONS += ("canvas", "undo", "redo")
+    SECTIONS += ("canvas", "inspector", "undo", "redo")
     """Where an edit can come from (the ``section`` of errors and notes)."""
     HISTORY = 20
     """How many changes :meth:`undo` can take back."""
@@ -304,82 +305,6 @@ class ScenarioState(param.Parameterized):
         """The scenario in effect as TOML text, for saving."""
         return dumps_scenario(self.scenario)
 
-    # --- variables -------------------------------------------------------------------------------------
-    def add_variable(self, name: str, type: str = "continuous", position=None, section="variables") -> bool:
-        """Add a variable (continuous with noise SD 1, or binary with proportion 0.5), drawn at ``position``."""
-        name = (name or "").strip()
-
-        def change(data):
-            if not name:
-                raise ScenarioError("type a name for the new variable", where="variables")
-            if name in data["variables"]:
-                raise ScenarioError(f"there is already a variable '{name}'", where=f"variables.{name}")
-            data["variables"][name] = (
-                {"type": type, "proportion": 0.5} if type == "binary" else {"type": type}
-            )
-            if position is not None:
-                edits.position_change(name, *position)(data)
-
-        return self._edit(section, change)
-
-    def remove_variable(self, name: str, section: str = "variables") -> bool:
-        """Remove a variable and its arrows (not the exposure or the outcome); strategies stop using it."""
-        return self._edit(section, lambda data: edit.remove_variable(data, name))
-
-    def move_variable(self, name: str, x: float, y: float, section: str = "canvas") -> bool:
-        """Draw variable ``name`` at ``(x, y)`` (its ``position``; the others keep their drawn places)."""
-        return self._edit(section, edits.position_change(name, x, y))
-
-    def set_variable(self, name: str, field: str, value: Any) -> bool:
-        """Change one field of a variable: name, type, noise_sd, baseline, proportion, observed or label.
-
-        A new name follows the variable everywhere; a latent variable leaves the strategies; a type change
-        drops what no longer fits (see :mod:`workbench.scenario.edit`).
-        """
-        return self._edit("variables", variable_change(name, field, value))
-
-    # --- arrows ----------------------------------------------------------------------------------------
-    def add_arrow(self, source: str, target: str, effect: float = 0.5, section: str = "arrows") -> bool:
-        """Add an arrow ``source -> target``."""
-        return self._edit(
-            section, lambda data: data["arrows"].append({"from": source, "to": target, "effect": effect})
-        )
-
-    @staticmethod
-    def _arrow(data: dict, index: int) -> dict:
-        """The arrow table at ``index``, or a ScenarioError (arrows are numbered from 1 in messages)."""
-        if not 0 <= index < len(data["arrows"]):
-            raise ScenarioError(f"no arrow number {index + 1}", where="arrows")
-        return data["arrows"][index]
-
-    def remove_arrow(self, index: int, section: str = "arrows") -> bool:
-        """Remove the arrow at ``index`` (counted from 0)."""
-
-        def change(data):
-            self._arrow(data, index)
-            del data["arrows"][index]
-
-        return self._edit(section, change)
-
-    def set_arrow(
-        self,
-        index: int,
-        *,
-        source: str | None = None,
-        target: str | None = None,
-        effect: Any = None,
-        standardized: Any = None,
-    ) -> bool:
-        """Change the arrow at ``index`` (counted from 0): its source, target, raw effect or standardized
-        effect (a switch of kind switches every arrow into that target: :func:`edit.set_arrow_size`)."""
-        if effect is not None or standardized is not None:
-            return self._edit(
-                "arrows",
-                lambda data: edit.set_arrow_size(data, index, effect=effect, standardized=standardized),
-            )
-        changes = {k: v for k, v in (("from", source), ("to", target)) if v is not None}
-        return self._edit("arrows", lambda data: self._arrow(data, index).update(changes))
-
     # --- question and study ----------------------------------------------------------------------------
     def set_question(self, **fields: Any) -> bool:
         """Change the exposure, outcome, target or scale (the new exposure and outcome leave the strategies)."""
@@ -472,9 +397,11 @@ class ScenarioState(param.Parameterized):
         restrict: dict | str | None = None,
         se: str | None = None,
         interactions=None,
+        flexible=None,
     ) -> bool:
         """Change a strategy's adjustment set, model, standardisation, name, selection rule, restriction,
-        standard error (``se``: ``""`` for the model's default) or interaction terms.
+        standard error (``se``: ``""`` for the model's default), interaction terms or spline covariates
+        (``flexible``; ``[]`` for none).
 
         ``selection`` is ``"fixed"`` (or ``""``) for a fixed set, ``"p_value"`` or ``"change_in_estimate"``
         (``adjust`` then lists the candidates); ``restrict`` is a table such as ``{"shift": 0}`` or text in
@@ -497,6 +424,7 @@ class ScenarioState(param.Parameterized):
             "restrict": restrict,
             "se": se,
             "interactions": interactions,
+            "flexible": flexible,
         }
 
         def change(data):
@@ -546,7 +474,7 @@ class ScenarioState(param.Parameterized):
 
     def strategy_rows(self) -> list[dict]:
         """One dict per strategy: name, adjust, model, standardize, selection, restrict, match, se,
-        interactions, valid, reasons (the last two from the check report; None and [] without one)."""
+        interactions, flexible, valid, reasons (the last two from the check report; None and [] without one)."""
         checked = {c.name: c for c in self.report.checks} if self.report is not None else {}
         return [
             {
@@ -559,6 +487,7 @@ class ScenarioState(param.Parameterized):
                 "match": list(s.match),
                 "se": s.se,
                 "interactions": list(s.interactions),
+                "flexible": list(s.flexible),
                 "valid": checked[s.name].valid if s.name in checked else None,
                 "reasons": list(checked[s.name].reasons) if s.name in checked else [],
             }

@@ -1,6 +1,6 @@
 """The strategies editor under the graph: one row per strategy (name, adjustment set, model,
 standardisation, how the set is chosen, restriction, remove), a line of the options that apply to it
-(standard error; interaction terms), its verdict and reasons below, and the buttons that add a strategy or
+(standard error; interaction terms; covariates as splines), its verdict and reasons below, and the buttons that add a strategy or
 the minimal and optimal valid sets.
 """
 
@@ -19,6 +19,7 @@ from workbench.scenario.parse_strategies import SE_CHOICES
 
 __all__ = [
     "StrategiesEditor",
+    "MODEL_CHOICES",
     "SELECTION_CHOICES",
     "verdict_badge",
     "valid_sets_html",
@@ -26,6 +27,9 @@ __all__ = [
     "follows_its_set",
     "fresh_set_name",
 ]
+
+#: The models the editor offers for a binary or a count outcome (a continuous one has OLS only).
+MODEL_CHOICES = {"binary": ("ols", "logit", "poisson"), "count": ("ols", "poisson")}
 
 #: The editor's choices of how the adjustment set is chosen (label -> value).
 SELECTION_CHOICES = {
@@ -175,7 +179,7 @@ class StrategiesEditor(pn.viewable.Viewer):
         return (
             repr(state.strategy_rows()),
             tuple(state.adjustable),
-            state.scenario.outcome.is_binary,
+            state.scenario.outcome.type,
             repr(report.minimal_sets if report else None),
             repr(report.optimal_set if report else None),
         )
@@ -211,7 +215,7 @@ class StrategiesEditor(pn.viewable.Viewer):
     def _controls(self, row: dict) -> list:
         """The inputs of one strategy, each sending its change to the state."""
         state, name = self.state, row["name"]
-        binary = state.scenario.outcome.is_binary
+        kind = state.scenario.outcome.type
         title = pn.widgets.TextInput(value=name, width=140, css_classes=["wb-strategy-name"])
         title.param.watch(lambda e: e.new != name and state.set_strategy(name, new_name=e.new), "value")
         options = state.adjustable
@@ -224,10 +228,10 @@ class StrategiesEditor(pn.viewable.Viewer):
         )
         adjust.param.watch(lambda e: self.set_adjust(name, e.new), "value")
         controls = [title, adjust]
-        if binary:  # a continuous outcome has one model, so no choice is shown
+        if kind in MODEL_CHOICES:  # a continuous outcome has one model, so no choice is shown
             model = pn.widgets.Select(
                 value=row["model"],
-                options=["ols", "logit", "poisson"],
+                options=list(MODEL_CHOICES[kind]),
                 width=70,
                 css_classes=["wb-strategy-model"],
             )
@@ -263,9 +267,10 @@ class StrategiesEditor(pn.viewable.Viewer):
 
     def _options(self, row: dict) -> list:
         """The options that apply to this strategy's model and design: the standard error where there is a
-        choice, and interaction terms with the exposure for least squares on a continuous outcome."""
+        choice, and for least squares on a continuous outcome interaction terms with the exposure and the
+        continuous covariates adjusted for as restricted cubic splines (``flexible``)."""
         state, name = self.state, row["name"]
-        binary = state.scenario.outcome.is_binary
+        continuous = state.scenario.outcome.is_continuous
         design = row["selection"] or row["restrict"] or row["match"]
         choices = SE_CHOICES.get((row["model"], state.scenario.outcome.type), ())
         out = []
@@ -276,7 +281,7 @@ class StrategiesEditor(pn.viewable.Viewer):
             )
             se.param.watch(lambda e: state.set_strategy(name, se=e.new), "value")
             out.append(se)
-        if row["model"] == "ols" and not binary and not design and row["adjust"]:
+        if row["model"] == "ols" and continuous and not design and row["adjust"]:
             terms = pn.widgets.MultiChoice(
                 value=[v for v in row["interactions"] if v in row["adjust"]],
                 options=list(row["adjust"]),
@@ -286,14 +291,26 @@ class StrategiesEditor(pn.viewable.Viewer):
             )
             terms.param.watch(lambda e: state.set_strategy(name, interactions=e.new), "value")
             out.append(terms)
+        smooth = [v for v in row["adjust"] if state.scenario.variable(v).is_continuous]
+        others = row["interactions"] or row["se"] == "hc3"  # not combined with a spline yet (the parser)
+        if row["model"] == "ols" and continuous and not design and smooth and (row["flexible"] or not others):
+            flexible = pn.widgets.MultiChoice(
+                value=[v for v in row["flexible"] if v in smooth],
+                options=smooth,
+                width=260,
+                placeholder="as splines (flexible): none",
+                css_classes=["wb-strategy-flexible"],
+            )
+            flexible.param.watch(lambda e: state.set_strategy(name, flexible=e.new), "value")
+            out.append(flexible)
         return out
 
     def _header(self) -> pn.Row:
         """The column names, each in its own cell above its inputs (the cells follow the outcome's kind)."""
-        binary = self.state.scenario.outcome.is_binary
+        discrete = not self.state.scenario.outcome.is_continuous
         parts = [("name", 140), ("adjustment set", 230)]
         parts += (
-            [("model", 70), ("logistic: standardise", 95)] if binary else [("how the set is chosen", 170)]
+            [("model", 70), ("logistic: standardise", 95)] if discrete else [("how the set is chosen", 170)]
         )
         parts += [("keep only units with", 150)]
         style = "font-size:12px;color:#444;line-height:1.2"

@@ -33,6 +33,7 @@ from workbench.errors import ScenarioError
 
 __all__ = [
     "Edited",
+    "inline_table",
     "QUESTION_FIELDS",
     "prune_variables",
     "rename_variable",
@@ -273,27 +274,35 @@ def set_observed(data: dict, name: str, observed: bool) -> Edited:
 def _drop_type_dependent_keys(data: dict, name: str, new_type: str) -> None:
     """Remove, in place, what a type change of ``name`` makes meaningless in the strategies: a restriction's
     form depends on the type (a value or an interval); exact matching needs a binary variable; selection
-    rules apply to continuous outcomes only."""
-    binary_outcome = new_type == "binary" and name == data["question"]["outcome"]
+    rules, flexible adjustment and interaction terms apply to continuous outcomes only."""
+    binary_outcome = new_type != "continuous" and name == data["question"]["outcome"]
     for table in data.get("strategies", []):
         (table.get("restrict") or {}).pop(name, None)
         if "restrict" in table and not table["restrict"]:
             del table["restrict"]
+        if new_type != "continuous" and name in table.get("flexible", []):  # a spline needs a continuous one
+            table["flexible"] = [v for v in table["flexible"] if v != name]
+            if not table["flexible"]:
+                del table["flexible"]
         if name in table.get("match", []):
             table["match"] = [v for v in table["match"] if v != name]
             if not table["match"]:
                 del table["match"]
-        if binary_outcome:
-            table.pop("selection", None)
+        if binary_outcome:  # these apply to OLS on a continuous outcome only
+            for key in ("selection", "flexible", "interactions"):
+                table.pop(key, None)
 
 
 def set_variable_type(data: dict, name: str, new_type: str) -> Edited:
-    """Change a variable's type (``continuous`` or ``binary``) and what depends on it.
+    """Change a variable's type (``continuous``, ``binary`` or ``count``) and what depends on it.
 
-    A new binary variable has proportion 0.5; a continuous one the default noise and baseline. Its
-    observed flag, label and position stay. When the outcome becomes binary, a ``direct`` target becomes
-    ``total``; when it becomes continuous, the scale is the difference and every strategy is fitted by OLS.
-    Restrictions and matching on the variable and (for the outcome) selection rules are dropped.
+    A new binary variable has proportion 0.5; a new count rate 1.0; a continuous one the default noise and
+    baseline. Its observed flag, label and position stay. When the outcome becomes binary or a count, a
+    ``direct`` target becomes ``total``; a count outcome's ratio scale is ``log_rate_ratio`` and its logistic
+    strategies become Poisson ones; a binary outcome's ``log_rate_ratio`` becomes ``log_risk_ratio``; when it
+    becomes continuous, the scale is the difference and every strategy is fitted by OLS. Restrictions,
+    matching and splines (``flexible``) on the variable and (for a binary or count outcome) selection rules,
+    splines and interaction terms are dropped.
 
     Examples
     --------
@@ -303,6 +312,8 @@ def set_variable_type(data: dict, name: str, new_type: str) -> Edited:
     0.5
     >>> set_variable_type(data, "wheat_yield", "binary").data["question"]["target"]
     'total'
+    >>> set_variable_type(data, "soil_quality", "count").data["variables"]["soil_quality"]["rate"]
+    1.0
     """
     table = _variable(data, name)
     if new_type == table.get("type"):
@@ -311,12 +322,10 @@ def set_variable_type(data: dict, name: str, new_type: str) -> Edited:
     q = data["question"]
     keep = {k: table[k] for k in ("observed", "label", "position") if k in table}
     _drop_type_dependent_keys(data, name, new_type)
-    if new_type == "binary":
-        data["variables"][name] = {"type": "binary", "proportion": 0.5, **keep}
-        if name == q["outcome"] and q.get("target") == "direct":
-            q["target"] = "total"
-            return Edited(data, "the target is now the total effect (a binary outcome has no direct target)")
-        return Edited(data)
+    if new_type in ("binary", "count"):
+        fields = {"proportion": 0.5} if new_type == "binary" else {"rate": 1.0}
+        data["variables"][name] = {"type": new_type, **fields, **keep}
+        return Edited(data, _discrete_outcome(data, name, new_type) if name == q["outcome"] else "")
     data["variables"][name] = {"type": str(new_type), **keep}
     if name != q["outcome"]:
         return Edited(data)
@@ -325,6 +334,31 @@ def set_variable_type(data: dict, name: str, new_type: str) -> Edited:
         strategy["model"] = "ols"
         strategy.pop("standardize", None)
     return Edited(data, "a continuous outcome is fitted by OLS; strategies set to model = ols")
+
+
+def _discrete_outcome(data: dict, name: str, new_type: str) -> str:
+    """The question and strategies of a binary or count outcome ``name``, in place; the note of what changed."""
+    q, notes = data["question"], []
+    if q.get("target") == "direct":
+        q["target"] = "total"
+        notes.append(f"the target is now the total effect (a {new_type} outcome has no direct target)")
+    scale = q.get("scale", "difference")
+    if new_type == "count" and scale in ("log_odds_ratio", "log_risk_ratio"):
+        q["scale"] = "log_rate_ratio"
+        notes.append(f"the scale is now log_rate_ratio ({scale} needs a binary outcome)")
+    elif new_type == "binary" and scale == "log_rate_ratio":
+        q["scale"] = "log_risk_ratio"
+        notes.append("the scale is now log_risk_ratio (log_rate_ratio needs a count outcome)")
+    if new_type == "count":
+        logit = [s for s in data.get("strategies", []) if s.get("model") == "logit"]
+        for strategy in logit:
+            strategy["model"] = "poisson"
+            strategy.pop("standardize", None)
+            strategy.pop("se", None)
+        if logit:
+            notes.append("a count outcome has no logistic model; strategies set to model = poisson: ")
+            notes[-1] += ", ".join(s["name"] for s in logit)
+    return "; ".join(notes)
 
 
 def set_question(data: dict, **fields: Any) -> Edited:
@@ -449,17 +483,29 @@ def parse_restriction(value: Any, *, where: str) -> dict:
     ...
     workbench.errors.ScenarioError: strategies.a.restrict: write the units to keep as 'name = 0' or 'name = [low, high]', got 'shift == 0'
     """
+    return inline_table(
+        value, where=where, hint="write the units to keep as 'name = 0' or 'name = [low, high]'"
+    )
+
+
+def inline_table(value: Any, *, where: str, hint: str) -> dict:
+    """Text typed as the inside of a TOML inline table (``a = 0.5, b = [1, 2]``; parsed, never evaluated) or a
+    table given as one, as a table; ``{}`` for blank text. Text of another form is refused with ``hint``.
+
+    Examples
+    --------
+    >>> inline_table("{ a = 1 }", where="x", hint="write 'name = value'")
+    {'a': 1}
+    """
     if isinstance(value, dict):
         return dict(value)
     text = str(value or "").strip().strip("{}").strip()
     if not text:
         return {}
     try:
-        return tomllib.loads(f"restrict = {{ {text} }}")["restrict"]
+        return tomllib.loads(f"table = {{ {text} }}")["table"]
     except tomllib.TOMLDecodeError:
-        raise ScenarioError(
-            f"write the units to keep as 'name = 0' or 'name = [low, high]', got '{text}'", where=where
-        ) from None
+        raise ScenarioError(f"{hint}, got '{text}'", where=where) from None
 
 
 def set_arrow_size(
