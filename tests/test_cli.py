@@ -254,9 +254,8 @@ def test_version_and_bad_port(capsys):
     assert "--port: must be a port number from 1 to 65535, got 0" in capsys.readouterr().err
 
 
-@pytest.mark.skipif(shutil.which("workbench") is None, reason="the package is not installed")
-def test_ctrl_c_ends_a_long_run_cleanly():
-    """Ctrl-C (SIGINT) ends a run with a one-line message and exit code 130, no traceback."""
+def _interrupted_run(after: float):
+    """A long ``workbench run`` sent SIGINT ``after`` seconds from its start: (process, stdout, stderr)."""
     import signal
     import time
 
@@ -267,9 +266,15 @@ def test_ctrl_c_ends_a_long_run_cleanly():
         text=True,
         preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL),
     )
-    time.sleep(4)
+    time.sleep(after)
     process.send_signal(signal.SIGINT)
-    out, err = process.communicate(timeout=120)
+    return process, *process.communicate(timeout=120)
+
+
+@pytest.mark.skipif(shutil.which("workbench") is None, reason="the package is not installed")
+def test_ctrl_c_ends_a_long_run_cleanly():
+    """Ctrl-C (SIGINT) ends a run with a one-line message and exit code 130, no traceback."""
+    process, out, err = _interrupted_run(4.0)
     assert process.returncode == 130
     assert "cancelled" in err and "Traceback" not in err
     assert out == ""
@@ -280,27 +285,12 @@ def test_ctrl_c_ends_a_long_run_cleanly():
 def test_ctrl_c_during_start_up_exits_130_with_one_line(delay):
     """Ctrl-C while the command is still importing the library also ends with exit 130 and one line
     (common practice, no source: 128 + SIGINT is the shell's convention for an interrupted command)."""
-    import signal
-    import time
-
-    def interrupted(after: float):
-        process = subprocess.Popen(
-            ["workbench", "run", "--preset", "binary_outcome", "--replicates", "500000", "--allow-long"],
-            stdout=subprocess.PIPE,
-            stderr=subprocess.PIPE,
-            text=True,
-            preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL),
-        )
-        time.sleep(after)
-        process.send_signal(signal.SIGINT)
-        return process, *process.communicate(timeout=120)
-
-    process, out, err = interrupted(delay)
+    process, out, err = _interrupted_run(delay)
     for _ in range(3):  # on a loaded machine the signal may land before Python itself has started
         if "init_import_site" not in err:  # (CPython's own start-up, before any of the package's code)
             break
         delay *= 2
-        process, out, err = interrupted(delay)
+        process, out, err = _interrupted_run(delay)
     assert process.returncode == 130, err
     # the only other line allowed is the cost estimate that --allow-long prints before the work starts
     lines = [line.split("\r")[-1] for line in err.strip().splitlines() if line.split("\r")[-1].strip()]

@@ -10,33 +10,15 @@ Common practice, no source: the reference for every expectation is the scenario 
 
 from __future__ import annotations
 
-import time
-import tomllib
-
 import pytest
+
+from tests.browser.test_canvas import _toml, _wait_toml  # the TOML view, read back (the same helpers)
 
 pytestmark = pytest.mark.browser
 
 
 def _tab(page, name: str) -> None:
     page.page.locator(".wb-editor-tabs .bk-tab", has_text=name).first.click()
-
-
-def _toml(page) -> dict:
-    _tab(page, "Scenario text")
-    area = page.page.locator(".wb-toml textarea")
-    area.wait_for()
-    return tomllib.loads(area.input_value())
-
-
-def _wait_toml(page, check, timeout: float = 30.0) -> dict:
-    deadline = time.monotonic() + timeout
-    while True:
-        data = _toml(page)
-        if check(data):
-            return data
-        assert time.monotonic() < deadline, f"the TOML view never showed the change: {data}"
-        time.sleep(0.2)
 
 
 def test_a_variable_becomes_a_count(page):

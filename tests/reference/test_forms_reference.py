@@ -614,49 +614,20 @@ def test_a_spline_in_a_logistic_fit_is_named_and_does_no_harm_on_a_linear_log_od
     assert spline.fit == "logit (standardised), spline: age"
 
 
-BREAKDOWNS = """
-title = "Invented: machine age, servicing and breakdowns"
-[question]
-exposure = "servicing"
-outcome = "broke_down"
-[variables.age]
-label = "Machine age (years, centred)"
-[variables.servicing]
-label = "Servicing hours"
-[variables.broke_down]
-label = "Broke down this year (1 = yes)"
-type = "binary"
-proportion = 0.3
-[[arrows]]
-from = "age"
-to = "servicing"
-effect = 0.8
-form = "square"
-[[arrows]]
-from = "age"
-to = "broke_down"
-effect = 0.8
-form = "square"
-[[arrows]]
-from = "servicing"
-to = "broke_down"
-effect = -0.4
-[[strategies]]
-name = "unadjusted"
-model = "logit"
-standardize = true
-[[strategies]]
-name = "linear_age"
-adjust = ["age"]
-model = "logit"
-standardize = true
-[[strategies]]
-name = "spline_age"
-adjust = ["age"]
-model = "logit"
-standardize = true
-flexible = ["age"]
-"""
+# the graph of LOGIT_SPLINE with both arrows from age square (age then confounds through age^2), and the
+# unadjusted, linearly adjusted and spline-adjusted standardised logistic strategies
+BREAKDOWNS = LOGIT_SPLINE.split("[[strategies]]")[0].replace(
+    'to = "servicing"\neffect = 0.8\n', 'to = "servicing"\neffect = 0.8\nform = "square"\n'
+).replace(
+    'to = "broke_down"\neffect = 0.6\n', 'to = "broke_down"\neffect = 0.8\nform = "square"\n'
+) + "".join(
+    f'[[strategies]]\nname = "{name}"\nadjust = {adjust}\nmodel = "logit"\nstandardize = true\n{extra}'
+    for name, adjust, extra in (
+        ("unadjusted", "[]", ""),
+        ("linear_age", '["age"]', ""),
+        ("spline_age", '["age"]', 'flexible = ["age"]\n'),
+    )
+)
 
 
 def test_a_square_confounder_of_a_binary_outcome_truth_matches_quadrature():
