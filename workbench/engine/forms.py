@@ -63,7 +63,7 @@ import numpy as np
 
 from workbench.engine.modifiers import MEAN_DRAWS, MEAN_SEED
 
-__all__ = ["FormArrow", "with_forms", "add_forms", "direct_step_effect"]
+__all__ = ["FormArrow", "ancestors", "with_forms", "add_forms", "direct_step_effect"]
 
 _CHUNK = 2**16
 
@@ -109,7 +109,8 @@ def add_forms(st, j: int, values: np.ndarray, scratch: np.ndarray) -> None:
             values[j] += scratch
 
 
-def _ancestors(st, j: int) -> set[int]:
+def ancestors(st, j: int) -> set[int]:
+    """Variable ``j`` and every variable above it in the structure ``st`` (indices)."""
     found = {j}
     for i in reversed(st.order):
         if i in found:
@@ -139,8 +140,8 @@ def _simulated_mean(st, j: int) -> float:
     """The mean of variable ``j`` over :data:`MEAN_DRAWS` draws of the equations (its ancestors only)."""
     from workbench.engine.generate import evaluate
 
-    ancestors = _ancestors(st, j)
-    partial = dataclasses.replace(st, order=tuple(i for i in st.order if i in ancestors))
+    above = ancestors(st, j)
+    partial = dataclasses.replace(st, order=tuple(i for i in st.order if i in above))
     rng = np.random.default_rng(MEAN_SEED)
     rows = np.empty((st.k, _CHUNK))
     total = 0.0
@@ -181,7 +182,7 @@ def with_forms(st, variables: tuple, arrows: tuple):
         j = index[a.source]
         centre = a.at
         if a.form == "square":
-            if _ancestors(st, j) & special:  # the cause's mean involves non-linear terms upstream
+            if ancestors(st, j) & special:  # the cause's mean involves non-linear terms upstream
                 centre = _simulated_mean(dataclasses.replace(out, forms=tuple(terms)), j)
             else:
                 centre = _closed_form_mean(st, variables, j)
@@ -217,7 +218,7 @@ def direct_step_effect(scenario) -> tuple[float, float] | None:
         return None
     st = structure(scenario)
     j = st.index(q.exposure)
-    partial = dataclasses.replace(st, order=tuple(i for i in st.order if i in _ancestors(st, j)))
+    partial = dataclasses.replace(st, order=tuple(i for i in st.order if i in ancestors(st, j)))
     rng = np.random.default_rng(MEAN_SEED)
     rows = np.empty((st.k, _CHUNK))
     total = 0.0

@@ -62,13 +62,14 @@ from scipy import special
 
 from workbench.engine.calibration import CALIBRATION_DRAWS, CALIBRATION_SEED, calibrate
 from workbench.engine.counts import poisson_from_normal
-from workbench.engine.forms import add_forms, with_forms
+from workbench.engine.forms import add_forms, ancestors, with_forms
 from workbench.engine.modifiers import add_modification, with_modifiers
 from workbench.engine.noise import shape_noise, with_noise
 from workbench.engine.streams import generator
 from workbench.errors import SimulationError
 from workbench.scenario.constraints import check_setting
 from workbench.scenario.model import Scenario
+from workbench.scenario.parse_modifiers import descendants
 
 if TYPE_CHECKING:  # pandas is imported where a data frame is made (draw)
     import pandas as pd
@@ -202,15 +203,7 @@ def _terms_above_discrete(variables: tuple, arrows: tuple) -> bool:
     arrow or a variable with non-normal or spread noise: its calibration then needs the full equations."""
     special = {a.target for a in arrows if a.varies_with or a.form != "linear"}
     special |= {v.name for v in variables if v.noise != "normal" or v.spread_with}
-    if not special:
-        return False
-    reached, todo = set(special), list(special)
-    while todo:
-        node = todo.pop()
-        for a in arrows:
-            if a.source == node and a.target not in reached:
-                reached.add(a.target)
-                todo.append(a.target)
+    reached = special.union(*(descendants(name, arrows) for name in special))
     return any(v.name in reached for v in variables if v.type != "continuous")
 
 
@@ -231,7 +224,7 @@ def _calibrated_with_terms(bare: Structure, variables: tuple, arrows: tuple) -> 
         if not (bare.binary[j] or j in bare.counts):
             continue
         st = _with_terms(replace(bare, intercept=intercept), variables, arrows)
-        above = _ancestors(st, j) - {j}
+        above = ancestors(st, j) - {j}
         with np.errstate(all="ignore"):
             evaluate(replace(st, order=tuple(i for i in st.order if i in above)), z, axis=0, out=values)
             linear = np.zeros(CALIBRATION_DRAWS)
@@ -240,14 +233,6 @@ def _calibrated_with_terms(bare: Structure, variables: tuple, arrows: tuple) -> 
             _add_terms(st, j, linear, values, tmp)
         intercept[j] = calibrate_one_from(variables[j], linear, len(st.parents[j][0]) > 0)
     return _with_terms(replace(bare, intercept=intercept), variables, arrows)
-
-
-def _ancestors(st: Structure, j: int) -> set[int]:
-    found = {j}
-    for i in reversed(st.order):
-        if i in found:
-            found.update(int(p) for p in st.parents[i][0])
-    return found
 
 
 def structure(scenario: Scenario) -> Structure:

@@ -67,6 +67,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
+from workbench.engine.forms import ancestors
 from workbench.engine.modifiers import MEAN_DRAWS, MEAN_SEED
 from workbench.errors import SimulationError
 
@@ -167,20 +168,12 @@ def shape_noise(st, j: int, z: np.ndarray, values: np.ndarray, scratch: np.ndarr
     return True
 
 
-def _ancestors(st, j: int) -> set[int]:
-    found = {j}
-    for i in reversed(st.order):
-        if i in found:
-            found.update(int(p) for p in st.parents[i][0])
-    return found
-
-
 def _closed_form_moments(st, variables, j: int) -> tuple[float, float]:
     """Mean and SD of ``j`` when every equation upstream is linear with constant-SD noise (module notes)."""
     if st.binary[j]:
         p = variables[j].proportion
         return p, float(np.sqrt(p * (1 - p)))
-    above = _ancestors(st, j)
+    above = ancestors(st, j)
     mean = np.zeros(st.k)
     cov = np.zeros((st.k, st.k))
     done: list[int] = []
@@ -198,7 +191,7 @@ def _simulated_moments(st, j: int) -> tuple[float, float]:
     """Mean and SD of ``j`` over :data:`MEAN_DRAWS` draws of the equations (its ancestors only)."""
     from workbench.engine.generate import evaluate
 
-    above = _ancestors(st, j)
+    above = ancestors(st, j)
     partial = dataclasses.replace(st, order=tuple(i for i in st.order if i in above))
     rng = np.random.default_rng(MEAN_SEED)
     rows = np.empty((st.k, _CHUNK))
@@ -237,7 +230,7 @@ def with_noise(st, variables: tuple, arrows: tuple):
     out = dataclasses.replace(st, noises=tuple(terms))
     needed = sorted({int(c) for t in terms for c in t.covariates}, key=st.order.index)
     for c in needed:
-        above = _ancestors(st, c)
+        above = ancestors(st, c)
         # a count's variance is not the linear recursion's: counts upstream go to the draws as well
         linear = st.binary[c] or not (above & bent or any(st.binary[i] or i in st.counts for i in above))
         mean, sd = _closed_form_moments(st, variables, c) if linear else _simulated_moments(out, c)
