@@ -189,14 +189,18 @@ def test_count_outcome_preset_teaches_its_lesson():
     - with traffic, a cause of the count, left out the counts are overdispersed given the model, so the
       model-based Poisson SE under-covers while the robust sandwich SE holds (Zou 2004; Cameron & Trivedi 1998,
       Regression Analysis of Count Data, ch. 3, from memory); with traffic in the model the model-based SE
-      holds too."""
+      holds too.
+    The sandwich SE runs a little small in finite samples (Kauermann & Carroll 2001, JASA 96:1387-1396, from
+    memory): at this n its coverage is 0.943 (MCSE 0.001, 40,000 replicates, measured while writing this test),
+    so the robust check allows 0.01 below nominal beside 3 MCSE. The preset's own seed makes the run repeatable
+    (``simulate`` without a seed draws fresh entropy)."""
     sc = wb.load_preset("count_outcome")
-    table = wb.simulate(sc).table.set_index("name")
+    table = wb.simulate(sc, seed=sc.study.seed).table.set_index("name")
     mcse = np.sqrt(0.95 * 0.05 / sc.study.replicates)
     assert table.loc["unadjusted", "bias"] > 3 * table.loc["unadjusted", "bias_mcse"] + 0.2
     adjusted = table.loc["adjust_depot_size"]
     assert abs(adjusted["bias"]) < 3 * adjusted["bias_mcse"]
-    assert abs(adjusted["coverage"] - 0.95) <= 3 * mcse
+    assert abs(adjusted["coverage"] - 0.95) <= 3 * mcse + 0.01
     assert table.loc["adjust_depot_size_classical_se", "coverage"] < 0.95 - 3 * mcse - 0.1
     assert abs(table.loc["adjust_depot_size_traffic", "coverage"] - 0.95) <= 3 * mcse
     assert table.loc["ols_adjust_depot_size_traffic", "estimand"].startswith("total effect (difference")
