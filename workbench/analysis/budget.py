@@ -15,9 +15,12 @@ millisecond once the plan is cached. The model of the time follows the two engin
 Each ``question.also`` variable adds scoring work per replicate and fit. A data-driven selection rule adds ``1 + candidates`` fits of its own kind of work (it compares nested models
 in every replicate, then refits each group of replicates that chose the same subset).
 A plan is the sum over its grid sizes, plus the bisection towards each strategy's smallest n, counted as
-the steps the widest gap of the grid can need (:func:`workbench.analysis.plan_search.search_steps`) at the
-gap's middle, one strategy at a time: a rough figure (``binary_outcome``'s default plan: estimated within a
-factor of three of the measured time).
+the steps a gap of the grid can need (:func:`workbench.analysis.plan_search.search_steps`) at the gap's
+middle, averaged over the gaps (which gap holds a strategy's n is not known before the run), one strategy
+at a time; on the raw engine the grid and the bisection with a quarter of the
+replicates and two sizes per strategy confirmed with the full count, as the planner runs them
+(:mod:`workbench.analysis.plan_search`): a rough figure (``binary_outcome``'s default plan: estimated
+within a factor of three of the measured time).
 
 The constants (:data:`SECONDS_PER`) were fitted by ``benchmarks/budget_calibration.py`` (non-negative least
 squares on the relative error over small runs of every preset). Peak memory is the interpreter with the
@@ -76,15 +79,19 @@ MAX_BYTES = 2 * 1024**3
 # (0.57 s) between the quiet timing and a loaded one. ``exact_replicate``, ``crossproduct_fit`` and
 # ``selection_fit`` scaled by 0.55 the same day after the faster exact engine (issue 12): on a quiet machine
 # (load 0.01) common_cause, larger_graph and selection_by_significance ran in 0.125, 0.147 and 0.142 s
-# against 0.25, 0.52 and 0.33 s estimated (2.0x, 3.5x, 2.3x); now 1.2x, 2.0x, 1.3x.
+# against 0.25, 0.52 and 0.33 s estimated (2.0x, 3.5x, 2.3x); now 1.2x, 2.0x, 1.3x. On 2026-12-04 the same
+# machine kind ran 1.6 times faster again (quiet: common_cause 0.075 s, larger_graph 0.093 s, binary_outcome
+# 0.172 s, count_outcome 0.567 s), so the estimates were 1.8x to 3.3x the timings: ``exact_replicate`` and
+# ``crossproduct_fit`` scaled by 0.8 and ``logistic_fit`` by 0.75, which puts both days' quiet timings within
+# 1.0x to 2.7x of the estimate, and a machine loaded to three times slower still within the factor of three.
 SECONDS_PER: dict[str, float] = {
     "run": 0.0112,
-    "exact_replicate": 1.13e-07,
-    "crossproduct_fit": 3.2e-08,
+    "exact_replicate": 9.0e-08,
+    "crossproduct_fit": 2.56e-08,
     "raw_values": 2.35e-08,
     "raw_crossproducts": 2.27e-09,
     "row_fit": 5.04e-09,
-    "logistic_fit": 2.4e-08,
+    "logistic_fit": 1.8e-08,
     "selection_fit": 4.75e-08,
     "also": 7.38e-07,
 }
@@ -236,29 +243,50 @@ def _one_run(scenario, plan, engine: str, n: int, replicates: int) -> tuple[floa
     return _seconds(features), _peak_bytes(plan, used, n, replicates, k), used
 
 
-def _bisection(scenario, plan, sizes: list[int], replicates: int) -> float:
-    """Seconds of the planner's bisection: each strategy alone over the widest gap of the grid."""
-    from workbench.analysis.plan_search import search_steps
+def _search_seconds(scenario, plan, sizes: list[int], replicates: int) -> float:
+    """Seconds of the planner's search after the grid: the bisection of each strategy alone, in a gap of the
+    grid that is not known before the run, so averaged over the gaps (the steps each can need, at its
+    middle); on the raw engine with a quarter of the replicates, then two sizes per strategy confirmed with
+    the full count (:mod:`workbench.analysis.plan_search`)."""
+    grid = sorted(set(sizes))
+    gaps = list(zip(grid[:-1], grid[1:], strict=True)) if len(grid) > 1 else [(max(1, grid[0] // 2), grid[0])]
+    return sum(_gap_seconds(scenario, plan, low, high, replicates) for low, high in gaps) / len(gaps)
+
+
+def _gap_seconds(scenario, plan, low: int, high: int, replicates: int) -> float:
+    """Seconds of the bisection of every strategy within one gap ``(low, high]`` of the grid."""
+    from workbench.analysis.plan_search import search_steps, stage_replicates
     from workbench.engine.replicates import choose_engine
 
-    grid = sorted(set(sizes))
-    if len(grid) < 2:
-        low, high = max(1, grid[0] // 2), grid[0]
-    else:
-        low, high = max(zip(grid[:-1], grid[1:], strict=True), key=lambda pair: pair[1] - pair[0])
     steps = search_steps(low, high)
-    k = len(scenario.variables)
     if not steps:
         return 0.0
     middle = (low + high) // 2  # the steps' sizes lie between the gap's ends
     engine = choose_engine(scenario, middle)
+    k = len(scenario.variables)
+
+    def step(replicates: int, fits=None) -> float:  # one size simulated inside the plan's run: no start-up
+        features = cost_features(plan, engine, middle, replicates, k, fits)
+        features["run"] = 0.0
+        return _seconds(features)
+
     if engine == "exact":  # every step fits every strategy at once
-        return steps * _seconds(cost_features(plan, engine, middle, replicates, k))
+        return steps * step(replicates)
+    first = stage_replicates(replicates)
+    confirmed = 2 if first < replicates else 0
     total = 0.0
     for f in plan.reported:
         fits = [f] if f.reference == plan.fits.index(f) else [f, plan.fits[f.reference]]
-        total += steps * _seconds(cost_features(plan, engine, middle, replicates, k, fits))
+        total += steps * step(first, fits) + confirmed * step(replicates, fits)
     return total
+
+
+def _grid_replicates(scenario, size: int, replicates: int) -> int:
+    """Replicates the planner's grid runs at ``size`` with: a quarter on the raw engine (staged search)."""
+    from workbench.analysis.plan_search import stage_replicates
+    from workbench.engine.replicates import choose_engine
+
+    return stage_replicates(replicates) if choose_engine(scenario, size) == "raw" else replicates
 
 
 def estimate_cost(
@@ -319,9 +347,10 @@ def estimate_cost(
     else:
         grid = [int(size) for size in (study.sample_sizes if sizes is None else sizes)]
         runs = [_one_run(scenario, plan, "auto", size, replicates) for size in grid]
-        seconds = sum(r[0] for r in runs) + _bisection(scenario, plan, grid, replicates)
+        first = [_one_run(scenario, plan, "auto", s, _grid_replicates(scenario, s, replicates)) for s in grid]
+        seconds = sum(r[0] for r in first) + _search_seconds(scenario, plan, grid, replicates)
         seconds -= (len(runs) - 1) * SECONDS_PER["run"]  # one start-up for the whole plan
-        peak = max(r[1] for r in runs)
+        peak = max(r[1] for r in runs)  # the full count at a grid size (a confirmed neighbour)
         engines = {r[2] for r in runs}
     name = "+".join(sorted(engines))
     duration = format_duration(seconds)
