@@ -5,7 +5,12 @@ the empty app with ``panel.serve`` of one Markdown pane), and loaded in the syst
 (``/usr/bin/chromium``) through Playwright. The time is from ``page.goto`` to the first rendered view: the
 graph canvas (``.wb-graph``) for the dashboard, the Markdown pane for the empty app. Each page is loaded
 ``ROUNDS`` times in a fresh browser context (no cache), alternating, after one warm-up load each; the median
-and the spread are printed.
+and the spread are printed. For the dashboard the time until the scenario editors under the graph are there
+too (``.wb-editor-tabs``, built once the page has loaded) is printed beside it.
+
+Then, in one loaded dashboard, each preset of :data:`UPLOADS` is opened as a file through the upload input,
+in turn, ``ROUNDS`` times: the time runs from handing the file to the input to the page's header showing
+the file's title (issue 16 asks for at most 1.5 s at the presets' size).
 
     python benchmarks/page_load.py
 """
@@ -19,7 +24,9 @@ import sys
 import time
 import urllib.request
 
-ROUNDS = 5
+from workbench.scenario.presets import list_presets, preset_text
+
+ROUNDS = 9
 CHROMIUM = "/usr/bin/chromium"
 EMPTY_APP = (
     "import sys, panel as pn; "
@@ -27,6 +34,9 @@ EMPTY_APP = (
     "address='127.0.0.1', show=False, allow_websocket_origin=['127.0.0.1:' + sys.argv[1]])"
 )
 
+
+UPLOADS = ("larger_graph", "binary_outcome", "mediator")
+"""Presets opened as files: the largest file, a binary outcome, a small graph."""
 
 SERVE = "import sys; from workbench.cli import main; sys.exit(main(sys.argv[1:]))"
 
@@ -50,15 +60,45 @@ def _start(command: list[str], port: int) -> subprocess.Popen:
     raise RuntimeError(f"{command} did not answer within 60 s")
 
 
-def _load(browser, url: str, selector: str) -> float:
+def _load(browser, url: str, selector: str, then: str | None = None) -> tuple[float, float]:
+    """Seconds from ``page.goto`` to ``selector`` shown, and to ``then`` shown (the same without one)."""
     context = browser.new_context(viewport={"width": 1440, "height": 900})
     page = context.new_page()
     start = time.perf_counter()
     page.goto(url)
     page.wait_for_selector(selector, timeout=120_000)
     elapsed = time.perf_counter() - start
+    if then is not None:
+        page.wait_for_selector(then, timeout=120_000)
+    later = time.perf_counter() - start
     context.close()
-    return elapsed
+    return elapsed, later
+
+
+def _upload_times(browser, url: str) -> dict[str, list[float]]:
+    """Seconds from handing each preset's file to the upload input to its title in the header."""
+    context = browser.new_context(viewport={"width": 1440, "height": 900})
+    page = context.new_page()
+    page.goto(url)
+    page.wait_for_selector(".wb-editor-tabs", timeout=120_000)
+    times: dict[str, list[float]] = {name: [] for name in UPLOADS}
+    for _ in range(ROUNDS):
+        for name in UPLOADS:
+            title = list_presets()[name]
+            start = time.perf_counter()
+            page.locator(".wb-upload input[type=file]").set_input_files(
+                files=[
+                    {
+                        "name": f"{name}.toml",
+                        "mimeType": "application/toml",
+                        "buffer": preset_text(name).encode(),
+                    }
+                ]
+            )
+            page.locator(".wb-header", has_text=title).wait_for(timeout=120_000)
+            times[name].append(time.perf_counter() - start)
+    context.close()
+    return times
 
 
 def main() -> None:
@@ -67,8 +107,8 @@ def main() -> None:
     wb_port, empty_port = _free_port(), _free_port()
     serve = [sys.executable, "-c", SERVE, "serve", "--no-show", "--port", str(wb_port)]
     pages = {
-        "empty Panel app": (f"http://127.0.0.1:{empty_port}/", ".empty"),
-        "workbench dashboard": (f"http://127.0.0.1:{wb_port}/", ".wb-graph"),
+        "empty Panel app": (f"http://127.0.0.1:{empty_port}/", ".empty", None),
+        "workbench dashboard": (f"http://127.0.0.1:{wb_port}/", ".wb-graph", ".wb-editor-tabs"),
     }
     servers = [
         _start([sys.executable, "-c", EMPTY_APP, str(empty_port)], empty_port),
@@ -80,11 +120,15 @@ def main() -> None:
                 executable_path=CHROMIUM, args=["--headless", "--no-sandbox"]
             )
             times: dict[str, list[float]] = {name: [] for name in pages}
-            for url, selector in pages.values():
-                _load(browser, url, selector)  # warm-up
+            complete: dict[str, list[float]] = {name: [] for name in pages}
+            for url, selector, then in pages.values():
+                _load(browser, url, selector, then)  # warm-up
             for _ in range(ROUNDS):
-                for name, (url, selector) in pages.items():
-                    times[name].append(_load(browser, url, selector))
+                for name, (url, selector, then) in pages.items():
+                    first, later = _load(browser, url, selector, then)
+                    times[name].append(first)
+                    complete[name].append(later)
+            uploads = _upload_times(browser, pages["workbench dashboard"][0])
             browser.close()
     finally:
         for process in servers:
@@ -94,7 +138,13 @@ def main() -> None:
         median = statistics.median(values)
         print(
             f"{name:22s} median {median:5.2f} s  ({min(values):.2f}-{max(values):.2f})  "
-            f"{median / base:4.1f}x the empty app"
+            f"{median / base:4.1f}x the empty app; complete {statistics.median(complete[name]):5.2f} s"
+        )
+    for name, values in uploads.items():
+        size = len(preset_text(name).encode())
+        print(
+            f"upload {name:15s} ({size:5,} bytes) median {statistics.median(values):5.2f} s  "
+            f"({min(values):.2f}-{max(values):.2f})"
         )
 
 

@@ -14,7 +14,7 @@ import pytest
 
 from workbench import load_preset
 from workbench.app.dataset import SampleState
-from workbench.app.runs import SimulationJob
+from workbench.app.runs import PlanJob, SimulationJob
 from workbench.app.state import MAX_UPLOAD_BYTES, ScenarioState, Workbench
 from workbench.scenario.presets import preset_text
 from workbench.scenario.write import dumps_scenario
@@ -218,6 +218,42 @@ def test_a_cancelled_run_publishes_nothing():
     job.wait(60)
     assert job.status == "cancelled"
     assert job.result is None
+
+
+def test_the_plan_waits_for_the_simulation_and_says_so(monkeypatch):
+    """Common practice, no source: two runs started together share the CPUs and both finish late, so Run
+    starts the simulation and queues the plan behind it (issue 16 item 7); the status names the wait."""
+    spans = {}
+
+    def timed(compute):
+        def run(self, scenario, progress):
+            start = time.monotonic()
+            result = compute(self, scenario, progress)
+            spans[self.label] = (start, time.monotonic())
+            return result
+
+        return run
+
+    monkeypatch.setattr(SimulationJob, "compute", timed(SimulationJob.compute))
+    monkeypatch.setattr(PlanJob, "compute", timed(PlanJob.compute))
+    wb = Workbench(preset="binary_exposure", live=False)
+    wb.scenario_state.set_study(replicates=400)
+    assert wb.run()
+    assert wb.planning.message == "sample-size plan: waits for the simulation"
+    wb.simulation.wait(120)
+    wb.planning.wait(300)
+    assert wb.simulation.status == wb.planning.status == "done"
+    assert spans["sample-size plan"][0] >= spans["simulation"][1]
+
+
+def test_a_queued_plan_cancelled_while_it_waits_never_runs():
+    wb = Workbench(preset="binary_exposure", live=False)
+    wb.scenario_state.set_study(replicates=400)
+    assert wb.run()
+    wb.cancel()
+    wb.simulation.wait(60)
+    wb.planning.wait(60)
+    assert wb.planning.status == "cancelled" and wb.planning.result is None
 
 
 def test_deferred_updates_wait_for_poll():

@@ -174,6 +174,22 @@ class PageRecord:
                 raise AssertionError(f"{selector!r} never showed {expected!r}; it shows {found[:300]!r}")
             time.sleep(0.1)
 
+    #: The element each editor tab under the graph shows once its content is there.
+    EDITORS = {
+        "Arrows": ".wb-arrows .tabulator-row",
+        "Variables": ".wb-variables .tabulator-row",
+        "Selected": ".wb-inspector",
+        "Strategies": ".wb-add-strategy button",
+        "Scenario text": ".wb-toml textarea",
+    }
+
+    def open_editor(self, name: str) -> None:
+        """Show an editor tab under the graph and wait for its content: the editors are sent to the
+        browser when first shown (workbench.app.graph_tab), so a test must not read one before."""
+        self.page.locator(".wb-editor-tabs .bk-tab", has_text=name).first.click()
+        key = next(key for key in self.EDITORS if name.startswith(key))
+        self.page.locator(self.EDITORS[key]).first.wait_for(timeout=30_000)
+
     def screenshot(self, name: str) -> Path:
         ARTIFACTS.mkdir(exist_ok=True)
         path = ARTIFACTS / f"{name}.png"

@@ -61,9 +61,8 @@ def _screen(page, **where) -> tuple[float, float]:
 
 def _toml(page) -> dict:
     """The scenario in the TOML view (opened once; it follows every edit)."""
-    page.page.locator(".wb-editor-tabs .bk-tab", has_text="Scenario text").first.click()
+    page.open_editor("Scenario text")
     area = page.page.locator(".wb-toml textarea")
-    area.wait_for()
     return tomllib.loads(area.input_value())
 
 

@@ -33,7 +33,7 @@ def _tab(page, name: str) -> None:
 
 
 def _editor_tab(page, name: str) -> None:
-    page.page.locator(".wb-editor-tabs .bk-tab", has_text=name).first.click()
+    page.open_editor(name)
 
 
 def _wait_for_count(locator, count: int, timeout: float = 30.0) -> None:
@@ -239,7 +239,8 @@ def test_variables_strategies_and_downloads(page, tmp_path):
     _pick_preset(page, "common_cause")
     _editor_tab(page, "Strategies")
     names = page.page.locator(".wb-strategy-name input")
-    before = names.count()
+    before = len(load_preset("common_cause").strategies)
+    _wait_for_count(names, before)  # every row there before one is added
     page.page.locator(".wb-add-strategy button").click()
     _wait_for_count(names, before + 1)
     names.nth(before).fill("soil_again")

@@ -123,8 +123,7 @@ def _tab(page, name: str) -> None:
 
 
 def _editor_tab(page, name: str) -> None:
-    page.page.locator(".wb-editor-tabs .bk-tab", has_text=name).first.click()
-    page.page.wait_for_timeout(400)
+    page.open_editor(name)
 
 
 def _assert_clean(tab, dialogs: list, where: str) -> None:
@@ -168,6 +167,7 @@ def test_every_tab_and_editor_stays_inert(page, dialogs):
     for name in ("Arrows", "Variables", "Strategies", "Scenario text (TOML)"):
         _editor_tab(page, name)
         _assert_clean(page.page, dialogs, f"the {name} editor")
+    _editor_tab(page, "Variables")  # only the editor shown is in the page
     page.wait_for_text(".wb-variables", "Fertiliser <img src=x")
     highlight = page.page.locator(".wb-highlight select")
     for option in highlight.locator("option").all_inner_texts()[1:]:

@@ -18,7 +18,7 @@ pytestmark = pytest.mark.browser
 
 
 def _tab(page, name: str) -> None:
-    page.page.locator(".wb-editor-tabs .bk-tab", has_text=name).first.click()
+    page.open_editor(name)
 
 
 def test_a_variable_becomes_a_count(page):

@@ -64,10 +64,11 @@ class App(pn.viewable.Viewer):
         index = len(self.tabs)  # the Sensitivity tab, last (workbench.app.sensitivity_tab)
         self.result_views[index] = SensitivityView(workbench=wb)
         self.tabs.append(("Sensitivity", pn.Column(self.result_views[index], margin=(6, 10))))
-        from workbench.app.sweep_tab import SweepView  # the Sweep tab (issue 15): runs only on its Run button
-
-        self.sweep_view = SweepView(workbench=wb)
-        self.tabs.append(("Sweep", pn.Column(self.sweep_view, margin=(6, 10))))
+        # The Sweep tab (issue 15) runs only on its Run button; its view is built when the tab is first shown
+        self.sweep_view = None
+        self._sweep_index = len(self.tabs)
+        self._sweep_holder = pn.Column(margin=(6, 10))
+        self.tabs.append(("Sweep", self._sweep_holder))
         self.tabs.param.watch(self._tab_shown, "active")
         self.sidebar = Sidebar(workbench=wb)
 
@@ -75,6 +76,11 @@ class App(pn.viewable.Viewer):
         """Result views rebuild their figures only while shown (a hidden tab's changes wait)."""
         for index, view in self.result_views.items():
             view.active = index == event.new
+        if event.new == self._sweep_index and self.sweep_view is None:
+            from workbench.app.sweep_tab import SweepView
+
+            self.sweep_view = SweepView(workbench=self.workbench)
+            self._sweep_holder.objects = [self.sweep_view]
 
     def _header(self, *_):
         sc = self.workbench.scenario

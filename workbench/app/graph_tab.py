@@ -194,20 +194,35 @@ class GraphView(pn.viewable.Viewer):
 def graph_tab(state: ScenarioState) -> pn.viewable.Viewable:
     """The Graph tab: the graph view above the tabs of the editors.
 
+    In a served session the editors are built once the page has loaded (``pn.state.onload``): the graph
+    shows first, and the editors' tables follow a moment later (docs/performance.md, first page load).
+    Elsewhere (a notebook, a test) they are built at once.
+
     Examples
     --------
     >>> type(graph_tab(ScenarioState(preset="common_cause"))).__name__
     'Column'
     """
     view = GraphView(state=state)
-    editors = pn.Tabs(
-        ("Arrows", ArrowsEditor(state=state)),
-        ("Variables", VariablesEditor(state=state)),
-        ("Selected", Inspector(state=state, canvas=view.canvas)),
-        ("Strategies", StrategiesEditor(state=state)),
-        ("Scenario text (TOML)", TomlEditor(state=state)),
-        css_classes=["wb-editor-tabs"],
-        margin=(6, 0),
-        dynamic=False,
-    )
-    return pn.Column(view, editors, margin=(6, 10))
+    holder = pn.Column(margin=(6, 0), css_classes=["wb-editors"], sizing_mode="stretch_width")
+
+    def build_editors():
+        holder.objects = [
+            pn.Tabs(
+                ("Arrows", ArrowsEditor(state=state)),
+                ("Variables", VariablesEditor(state=state)),
+                ("Selected", Inspector(state=state, canvas=view.canvas)),
+                ("Strategies", StrategiesEditor(state=state)),
+                ("Scenario text (TOML)", TomlEditor(state=state)),
+                css_classes=["wb-editor-tabs"],
+                margin=0,
+                dynamic=True,  # a hidden editor is neither sent nor updated: edits and uploads apply faster
+            )
+        ]
+
+    doc = pn.state.curdoc
+    if doc is not None and doc.session_context is not None:
+        pn.state.onload(build_editors)
+    else:
+        build_editors()
+    return pn.Column(view, holder, margin=(6, 10))

@@ -46,6 +46,7 @@ __all__ = ["CACHE_SIZE", "BackgroundJob", "SimulationJob", "PlanJob"]
 CACHE_SIZE = 24
 #: Seconds between two progress updates handed to the interface.
 _PROGRESS_INTERVAL = 0.15
+_WAIT_POLL = 0.1  # seconds between checks for a cancel while a job waits for the job ahead of it
 
 
 class BackgroundJob(param.Parameterized):
@@ -149,18 +150,35 @@ class BackgroundJob(param.Parameterized):
                 setattr(self, name, value)
         return True
 
-    def start(self, scenario: Scenario, *, background: bool = True) -> None:
-        """Compute for ``scenario`` (from the cache when possible). A running computation is cancelled."""
+    def start(
+        self, scenario: Scenario, *, background: bool = True, after: BackgroundJob | None = None
+    ) -> None:
+        """Compute for ``scenario`` (from the cache when possible). A running computation is cancelled.
+
+        With ``after``, another job whose worker may be running, the computation waits for that worker to
+        end first (the two would otherwise share the CPUs and both finish late); meanwhile the message says
+        what it waits for."""
         if self.show_cached(scenario):
             self._stop_worker()
             return
         token, cancel = self._stop_worker()
+        ahead = after._thread if after is not None and after._thread is not None else None
+        if ahead is not None and not ahead.is_alive():
+            ahead = None
         with param.parameterized.batch_call_watchers(self):
             self.status = "running"
             self.progress = 0.0
-            self.message = f"{self.label}: starting"
+            self.message = (
+                f"{self.label}: waits for the {after.label}" if ahead else f"{self.label}: starting"
+            )
 
         def work() -> None:
+            if ahead is not None:
+                while ahead.is_alive() and not cancel.is_set():
+                    ahead.join(_WAIT_POLL)
+                if cancel.is_set():
+                    return
+                self._publish(token, message=f"{self.label}: starting")
             self._work(scenario, token, cancel)
 
         if background:

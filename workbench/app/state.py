@@ -571,7 +571,7 @@ class Workbench(param.Parameterized):
         replaced = self.scenario_state.source in ("preset", "upload")
         for job in (self.simulation, self.planning):
             if self.runs_live and not self.over_budget:
-                job.start(scenario, background=self.background)
+                job.start(scenario, background=self.background, after=self._ahead(job))
             elif job.show_cached(scenario):
                 continue
             elif replaced:
@@ -607,8 +607,12 @@ class Workbench(param.Parameterized):
             return False
         self.notice = ""
         self.simulation.start(self.scenario, background=self.background)
-        self.planning.start(self.scenario, background=self.background)
+        self.planning.start(self.scenario, background=self.background, after=self.simulation)
         return True
+
+    def _ahead(self, job: BackgroundJob) -> BackgroundJob | None:
+        """The job that ``job`` waits for: the plan runs after the simulation, whose results show first."""
+        return self.simulation if job is self.planning else None
 
     def cancel(self) -> None:
         """Cancel the running computations."""

@@ -325,8 +325,10 @@ def _path_edges(paths: Iterable) -> set[tuple[str, str]]:
 
 
 def _blank_figure(frame: _Frame, title: str | None):
-    """A figure of the frame's fixed pixel size with no axes and no grid."""
+    """A figure of the frame's fixed pixel size with no axes and no grid (none made: fewer models)."""
     fig = figure(
+        x_axis_type=None,
+        y_axis_type=None,
         frame_width=frame.width,
         frame_height=frame.height,
         x_range=Range1d(frame.x0, frame.x1),
@@ -336,8 +338,6 @@ def _blank_figure(frame: _Frame, title: str | None):
         title=title,
     )
     style_figure(fig)
-    fig.axis.visible = False
-    fig.grid.visible = False
     return fig
 
 
@@ -437,54 +437,102 @@ def _node_groups(scenario: Scenario, roles: dict | None, pos, adjusted: set[str]
     return groups
 
 
-def _draw_nodes(fig, groups: dict, frame: _Frame) -> tuple[list, list[LegendItem]]:
-    """One scatter renderer per group in the legend's order (latent variables hollow and dashed); the
-    legend shows a small copy of each drawn outside the view (the nodes themselves are too big for it).
+class _Samples:
+    """The legend's sample glyphs, all in one scatter renderer drawn outside the view (one row per legend
+    entry, picked by the entry's ``index``): fewer Bokeh models than one renderer per entry, so the page
+    builds faster (docs/performance.md)."""
 
-    Returns the node renderers (for the hover tool) and the legend items.
+    _KEYS = ("marker", "size", "colour", "fill_alpha", "line_colour", "line_width", "dash")
+
+    def __init__(self, frame: _Frame):
+        self.at = frame.outside
+        self.rows: dict[str, list] = {key: [] for key in self._KEYS}
+        self.labels: list[str] = []
+
+    def add(self, label: str, **style) -> None:
+        """One legend entry: its label and its sample's marker, size, colours, line width and dash."""
+        for key in self._KEYS:
+            self.rows[key].append(style[key])
+        self.labels.append(label)
+
+    def items(self, fig) -> list[LegendItem]:
+        """Draw the samples and return their legend entries (none without samples)."""
+        if not self.labels:
+            return []
+        count = len(self.labels)
+        data = {"x": [self.at[0]] * count, "y": [self.at[1]] * count, **self.rows}
+        renderer = fig.scatter(
+            "x",
+            "y",
+            source=ColumnDataSource(data),
+            marker="marker",
+            size="size",
+            fill_color="colour",
+            fill_alpha="fill_alpha",
+            line_color="line_colour",
+            line_width="line_width",
+            line_dash="dash",
+        )
+        return [LegendItem(label=text, renderers=[renderer], index=i) for i, text in enumerate(self.labels)]
+
+
+def _draw_nodes(fig, groups: dict, samples: _Samples):
+    """All nodes in one scatter renderer, each with its role's marker and colour (latent variables hollow
+    and dashed), and a legend sample per group in the legend's order (the nodes themselves are too big for
+    the legend).
+
+    Returns the node renderer (for the hover tool).
     """
-    far_x, far_y = frame.outside
-    items, renderers = [], []
+    nodes: dict[str, list] = {}
     for role in ROLE_STYLE:
         for observed in (True, False):
             data = groups.get((role, observed))
             if not data:
                 continue
             text, colour, marker = ROLE_STYLE[role]
-            renderers.append(
-                fig.scatter(
-                    "x",
-                    "y",
-                    source=ColumnDataSource(data),
-                    marker=marker,
-                    size=2 * _RADIUS_PX + (4 if marker == "diamond" else 0),
-                    fill_color=colour,
-                    fill_alpha=1.0 if observed else 0.0,
-                    line_color="ring_colour",
-                    line_width="ring",
-                    line_dash="solid" if observed else "dashed",
-                )
-            )
-            sample = fig.scatter(
-                [far_x],
-                [far_y],
+            count = len(data["x"])
+            style = {
+                "marker": marker,
+                "size": 2 * _RADIUS_PX + (4 if marker == "diamond" else 0),
+                "colour": colour,
+                "fill_alpha": 1.0 if observed else 0.0,
+                "dash": "solid" if observed else "dashed",
+            }
+            for key, values in (*data.items(), *((k, [v] * count) for k, v in style.items())):
+                nodes.setdefault(key, []).extend(values)
+            samples.add(
+                text if observed else f"{text} (latent)",
                 marker=marker,
                 size=13 + (2 if marker == "diamond" else 0),
-                fill_color=colour,
+                colour=colour,
                 fill_alpha=1.0 if observed else 0.0,
-                line_color="#333333" if observed else colour,
+                line_colour="#333333" if observed else colour,
                 line_width=1.2 if observed else 1.8,
-                line_dash="solid" if observed else "dashed",
+                dash="solid" if observed else "dashed",
             )
-            items.append(LegendItem(label=text if observed else f"{text} (latent)", renderers=[sample]))
-    return renderers, items
+    return fig.scatter(
+        "x",
+        "y",
+        source=ColumnDataSource(nodes),
+        marker="marker",
+        size="size",
+        fill_color="colour",
+        fill_alpha="fill_alpha",
+        line_color="ring_colour",
+        line_width="ring",
+        line_dash="dash",
+    )
 
 
-def _draw_badges(fig, scenario: Scenario, roles: dict | None, pos, frame: _Frame, shown: set[str]) -> list:
+def _draw_badges(
+    fig, scenario: Scenario, roles: dict | None, pos, frame: _Frame, samples: _Samples, shown
+) -> None:
     """A small marker at the upper right of a node for each of its roles after the first (its colour and
-    marker), and a legend entry for each such role the nodes do not already show."""
+    marker; all in one renderer), and a legend sample for each such role not in ``shown`` (the roles the
+    nodes already show)."""
     q = scenario.question
-    badges: dict[str, dict[str, list]] = {}
+    badges: dict[str, list] = {key: [] for key in ("x", "y", "marker", "colour")}
+    found_roles: dict[str, None] = {}
     for name, found in (roles or {}).items():
         if name in (q.exposure, q.outcome) or name not in pos:
             continue
@@ -493,35 +541,36 @@ def _draw_badges(fig, scenario: Scenario, roles: dict | None, pos, frame: _Frame
         px, py = frame.to_pixels(pos[name])
         for i, role in enumerate(extra[:2]):
             x, y = frame.to_data((px + _RADIUS_PX + 2 + 13 * i, py + _RADIUS_PX))
-            group = badges.setdefault(role, {"x": [], "y": []})
-            group["x"].append(x)
-            group["y"].append(y)
-    items = []
-    far_x, far_y = frame.outside
-    for role, data in badges.items():
+            _, colour, marker = ROLE_STYLE[role]
+            for key, value in zip(badges, (x, y, marker, colour), strict=True):
+                badges[key].append(value)
+            found_roles[role] = None
+    if not found_roles:
+        return
+    fig.scatter(
+        "x",
+        "y",
+        source=ColumnDataSource(badges),
+        marker="marker",
+        size=12,
+        fill_color="colour",
+        line_color="#333333",
+        line_width=1.0,
+    )
+    for role in found_roles:
+        if role in shown:
+            continue
         text, colour, marker = ROLE_STYLE[role]
-        fig.scatter(
-            "x",
-            "y",
-            source=ColumnDataSource(data),
+        samples.add(
+            f"{text} (badge)",
             marker=marker,
-            size=12,
-            fill_color=colour,
-            line_color="#333333",
-            line_width=1.0,
+            size=13,
+            colour=colour,
+            fill_alpha=1.0,
+            line_colour="#333333",
+            line_width=1.2,
+            dash="solid",
         )
-        if role not in shown:
-            sample = fig.scatter(
-                [far_x],
-                [far_y],
-                marker=marker,
-                size=13,
-                fill_color=colour,
-                line_color="#333333",
-                line_width=1.2,
-            )
-            items.append(LegendItem(label=f"{text} (badge)", renderers=[sample]))
-    return items
 
 
 def _draw_names(fig, name_at: dict[str, tuple[float, float]], frame: _Frame, adjusted: set[str]) -> None:
@@ -551,17 +600,23 @@ def _draw_names(fig, name_at: dict[str, tuple[float, float]], frame: _Frame, adj
     )
 
 
-def _marking_items(fig, frame: _Frame, adjusted: set[str], verdict) -> list[LegendItem]:
-    """Legend entries for the ring of the adjustment set and the open and blocked paths (samples drawn
-    outside the view)."""
-    far_x, far_y = frame.outside
-    items = []
+def _marking_items(fig, frame: _Frame, adjusted: set[str], verdict, samples: _Samples) -> list[LegendItem]:
+    """The legend sample of the adjustment set's ring, and the legend entries of the open and blocked paths
+    (lines drawn outside the view)."""
     if adjusted:
-        ring = fig.scatter(
-            [far_x], [far_y], marker="circle", size=14, fill_alpha=0, line_color="#000000", line_width=3
+        samples.add(
+            "adjusted for (bold name)",
+            marker="circle",
+            size=14,
+            colour="#ffffff",
+            fill_alpha=0.0,
+            line_colour="#000000",
+            line_width=3.0,
+            dash="solid",
         )
-        items.append(LegendItem(label="adjusted for (bold name)", renderers=[ring]))
+    items = samples.items(fig)
     if verdict is not None:
+        far_y = frame.outside[1]
         xs, ys = [frame.x0 - 10, frame.x0 - 9], [far_y, far_y]
         open_line = fig.line(xs, ys, line_width=4, line_dash="dashed", line_color="#000000")
         faded_line = fig.line(xs, ys, line_width=1.8, line_color=EDGE_COLOUR, line_alpha=0.25)
@@ -651,10 +706,11 @@ def graph_figure(
     _draw_arrows(fig, *_arrow_data(scenario, pos, frame, verdict, label_at))
     adjusted = set(adjust)
     groups = _node_groups(scenario, roles, pos, adjusted)
-    node_renderers, items = _draw_nodes(fig, groups, frame)
-    items += _draw_badges(fig, scenario, roles, pos, frame, {role for role, _ in groups})
+    samples = _Samples(frame)
+    nodes = _draw_nodes(fig, groups, samples)
+    _draw_badges(fig, scenario, roles, pos, frame, samples, {role for role, _ in groups})
     _draw_names(fig, name_at, frame, adjusted)
-    items += _marking_items(fig, frame, adjusted, verdict)
-    _add_legend_and_hover(fig, items, node_renderers)
+    items = _marking_items(fig, frame, adjusted, verdict, samples)
+    _add_legend_and_hover(fig, items, [nodes])
     fit_to_width(fig, fig.width, smallest=min(fig.width, 520))  # narrower windows: shrink, never scroll
     return fig
