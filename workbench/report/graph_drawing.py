@@ -461,18 +461,7 @@ class _Samples:
             return []
         count = len(self.labels)
         data = {"x": [self.at[0]] * count, "y": [self.at[1]] * count, **self.rows}
-        renderer = fig.scatter(
-            "x",
-            "y",
-            source=ColumnDataSource(data),
-            marker="marker",
-            size="size",
-            fill_color="colour",
-            fill_alpha="fill_alpha",
-            line_color="line_colour",
-            line_width="line_width",
-            line_dash="dash",
-        )
+        renderer = _styled_scatter(fig, data, line_color="line_colour", line_width="line_width")
         return [LegendItem(label=text, renderers=[renderer], index=i) for i, text in enumerate(self.labels)]
 
 
@@ -510,16 +499,22 @@ def _draw_nodes(fig, groups: dict, samples: _Samples):
                 line_width=1.2 if observed else 1.8,
                 dash="solid" if observed else "dashed",
             )
+    return _styled_scatter(fig, nodes, line_color="ring_colour", line_width="ring")
+
+
+def _styled_scatter(fig, data: dict, *, line_color: str, line_width: str):
+    """A scatter renderer of ``data`` whose marker, size, fill colour and alpha, and dash are its columns
+    (and the line's colour and width the columns named)."""
     return fig.scatter(
         "x",
         "y",
-        source=ColumnDataSource(nodes),
+        source=ColumnDataSource(data),
         marker="marker",
         size="size",
         fill_color="colour",
         fill_alpha="fill_alpha",
-        line_color="ring_colour",
-        line_width="ring",
+        line_color=line_color,
+        line_width=line_width,
         line_dash="dash",
     )
 
