@@ -47,6 +47,14 @@ def test_sentence_in_text_and_json(two):
     data = json.loads(two.to_json())
     assert data["n_for_all_effects"][1]["n_for_all_effects"] == n
     assert {"power_all", "power_all_mcse", *KEYS} <= set(data["table"][0])
+    row = two.n_for_all_effects.set_index("strategy").loc["adjust_heating"]
+    if row["n_for_joint_power"] > row["n_for_all_effects"]:  # found at grid resolution: the sentence says so
+        joint = int(row["n_for_joint_power"])
+        below = max(n for n in (50, 200, 400, 800) if n < joint)
+        assert (
+            f"at most {joint} (a size of the grid, not searched between sizes; {below} falls short)"
+            in sentence
+        )
 
 
 def test_without_also_n_for_all_effects_is_n_for_power():

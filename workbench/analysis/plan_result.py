@@ -315,6 +315,15 @@ class PlanResult:
         first = int(curve["n"].iloc[last_miss[-1] + 1 if last_miss else 0])
         return max(first, floor)
 
+    def _short_of(self, strategy: str, joint: int) -> str:
+        """What the sentence says of a joint-power n found at grid resolution: the grid size below it that
+        falls short, when there is one."""
+        sizes = sorted(
+            int(n) for n in self.table.loc[self.table["strategy"] == strategy, "n"] if int(n) < joint
+        )
+        below = f"; {sizes[-1]} falls short" if sizes else ""
+        return f" (a size of the grid, not searched between sizes{below})"
+
     def all_effects_sentence(self) -> str:
         """One sentence: the n needed to detect the exposure's and every ``also`` effect with the target
         power, for the valid strategy needing the fewest units ('' without ``also`` or when none reaches it).
@@ -338,11 +347,12 @@ class PlanResult:
         effects = " and the ".join([", ".join(names[:-1]), names[-1]]) if len(names) > 1 else names[0]
         both = "both" if len(names) == 2 else "all of"
         joint = best["n_for_joint_power"]
-        together = (
-            f"; for {'both' if len(names) == 2 else 'all'} to be significant in the same study, about {int(joint)}"
-            if not pd.isna(joint) and int(joint) > int(best["n_for_all_effects"])
-            else ""
-        )
+        together = ""
+        if not pd.isna(joint) and int(joint) > int(best["n_for_all_effects"]):
+            together = (
+                f"; for {'both' if len(names) == 2 else 'all'} to be significant in the same study, at most "
+                f"{int(joint)}{self._short_of(best['strategy'], int(joint))}"
+            )
         return (
             f"To detect {both} the {effects} effect with {self.target_power:.0%} power you need about "
             f"{int(best['n_for_all_effects'])} units (strategy {best['strategy']}){together}."
