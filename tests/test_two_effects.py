@@ -105,3 +105,21 @@ def test_vif_of_two_correlated_inputs():
 
     vif = variance_inflation(wb.load_preset("two_exposures"), ["lighting", "heating"], "lighting")
     assert vif == pytest.approx(1 / (1 - 0.8**2), rel=1e-12)
+
+
+def test_the_graph_tab_shows_the_implied_correlations_when_opened():
+    """Issue 14 item 4: the Graph tab shows the correlations the graph implies; in two_exposures lighting and
+    heating share the energy budget with standardized paths 0.894 each (from the preset: 0.8 = 0.894^2, the
+    tracing rule; Wright 1934, from memory). Written when the card is opened, kept current while open."""
+    from workbench.app.graph_tab import GraphView
+    from workbench.app.state import ScenarioState
+
+    state = ScenarioState(preset="two_exposures")
+    view = GraphView(state=state)
+    assert view.implied.object == ""
+    view.implied_card.collapsed = False
+    assert "0.800" in view.implied.object and "tomato_yield" in view.implied.object
+    state.preset = "common_cause"
+    assert "soil_quality" in view.implied.object
+    view.implied_card.collapsed = True
+    assert view.implied.object == ""

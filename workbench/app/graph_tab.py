@@ -96,6 +96,11 @@ class GraphView(pn.viewable.Viewer):
         self.truth = pn.pane.HTML("", width=300, css_classes=["wb-truth"])
         self.controls = pn.pane.HTML("", width=300, css_classes=["wb-controls"])
         self.implied = pn.pane.HTML("", width=290, css_classes=["wb-implied"])
+        # the implied correlations and R^2 are written when the card is opened (a shorter first page)
+        self.implied_card = pn.Card(
+            self.implied, title="Implied correlations and R^2", collapsed=True, width=300
+        )
+        self.implied_card.param.watch(lambda _e: self._show_implied(), "collapsed")
         self.canvas = CanvasEditor(state=self.state)
         self.state.param.watch(self._refresh, ["scenario", "selected_strategy", "report"])
         self._refresh()
@@ -138,7 +143,12 @@ class GraphView(pn.viewable.Viewer):
         self.truth.object = self._truth_html()
         self.verdict.object = verdict_html(state.selected_strategy, verdict)
         self.controls.object = consequences_html(report, state.selected_strategy)
-        implied = report.implied if report is not None else None
+        self._show_implied()
+
+    def _show_implied(self) -> None:
+        """The implied correlation matrix and each variable's R^2, while the card is open."""
+        report = self.state.report
+        implied = report.implied if report is not None and not self.implied_card.collapsed else None
         self.implied.object = render_html(implied.parts()) if implied is not None else ""
 
     def _show_question(self) -> None:
@@ -184,7 +194,7 @@ class GraphView(pn.viewable.Viewer):
             self.highlight,
             self.verdict,
             self.controls,
-            pn.Card(self.implied, title="Implied correlations and R^2", collapsed=True, width=300),
+            self.implied_card,
             width=320,
         )
         drawing = pn.Column(self.pane, self.canvas, margin=0, sizing_mode="stretch_width", max_width=610)
