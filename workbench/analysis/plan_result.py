@@ -318,10 +318,9 @@ class PlanResult:
     def _short_of(self, strategy: str, joint: int) -> str:
         """What the sentence says of a joint-power n found at grid resolution: the grid size below it that
         falls short, when there is one."""
-        sizes = sorted(
-            int(n) for n in self.table.loc[self.table["strategy"] == strategy, "n"] if int(n) < joint
-        )
-        below = f"; {sizes[-1]} falls short" if sizes else ""
+        sizes = self.table.loc[self.table["strategy"] == strategy, "n"]
+        short = max((int(n) for n in sizes if int(n) < joint), default=None)
+        below = f"; {short} falls short" if short is not None else ""
         return f" (a size of the grid, not searched between sizes{below})"
 
     def all_effects_sentence(self) -> str:

@@ -162,8 +162,8 @@ class BackgroundJob(param.Parameterized):
             self._stop_worker()
             return
         token, cancel = self._stop_worker()
-        ahead = after._thread if after is not None and after._thread is not None else None
-        if ahead is not None and not ahead.is_alive():
+        ahead = after._thread if after is not None else None
+        if ahead is not None and not ahead.is_alive():  # nothing to wait for
             ahead = None
         with param.parameterized.batch_call_watchers(self):
             self.status = "running"

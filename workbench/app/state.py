@@ -606,8 +606,8 @@ class Workbench(param.Parameterized):
             )
             return False
         self.notice = ""
-        self.simulation.start(self.scenario, background=self.background)
-        self.planning.start(self.scenario, background=self.background, after=self.simulation)
+        for job in (self.simulation, self.planning):
+            job.start(self.scenario, background=self.background, after=self._ahead(job))
         return True
 
     def _ahead(self, job: BackgroundJob) -> BackgroundJob | None:
